@@ -1,0 +1,161 @@
+"""Read vector layers from anything GDAL reads through pyogrio, and validate them.
+
+A layer is named on the command line as ``path`` or ``path:layername``.
+Every problem is raised as an :class:`~geo_reach.errors.InputError` naming
+the file, the layer, the feature and what to do.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..errors import CRSError, InputError, LayerError, MissingInputError, where
+
+__all__ = ["LayerRef", "parse_layer_ref", "list_layers", "read_frame", "read_layer", "GEOM_FAMILIES"]
+
+GEOM_FAMILIES = {
+    "lines": {"LineString", "MultiLineString", "LinearRing"},
+    "points": {"Point", "MultiPoint"},
+    "polygons": {"Polygon", "MultiPolygon"},
+}
+
+
+@dataclass(frozen=True)
+class LayerRef:
+    """A layer in a file: ``path`` and optional ``layer`` name."""
+
+    path: Path
+    layer: str | None = None
+
+    @property
+    def label(self) -> str:
+        """Short name used in ``src_layer`` and messages: the layer name, else the file stem."""
+        return self.layer if self.layer else self.path.stem
+
+    def __str__(self) -> str:
+        return f"{self.path}:{self.layer}" if self.layer else str(self.path)
+
+
+def parse_layer_ref(text) -> LayerRef:
+    """Parse ``path`` or ``path:layername``.
+
+    A path that exists as given wins over a ``:layer`` reading, so file names
+    holding a colon still work.
+
+    Examples
+    --------
+    >>> parse_layer_ref("roads.gpkg:main_roads")
+    LayerRef(path=PosixPath('roads.gpkg'), layer='main_roads')
+    >>> parse_layer_ref("roads.shp").layer is None
+    True
+    """
+    if isinstance(text, LayerRef):
+        return text
+    text = str(text)
+    if Path(text).exists() or ":" not in text:
+        return LayerRef(Path(text))
+    path, _, layer = text.rpartition(":")
+    return LayerRef(Path(path), layer or None)
+
+
+def list_layers(path) -> list[str]:
+    """Names of the vector layers in ``path`` (raises if the file is missing or not vector data)."""
+    import pyogrio
+
+    path = Path(path)
+    if not path.exists():
+        raise MissingInputError(f"{where(path)}not found; check the path")
+    try:
+        return [str(n) for n in pyogrio.list_layers(path)[:, 0]]
+    except Exception as err:  # pyogrio raises several DataSourceError kinds
+        raise InputError(f"{where(path)}cannot be read as vector data ({_short(err)}); "
+                         "give a GeoPackage, Shapefile, GeoJSON, FlatGeobuf or GeoParquet file") from err
+
+
+def _short(err) -> str:
+    return str(err).strip().splitlines()[0][:200] if str(err).strip() else type(err).__name__
+
+
+def read_frame(path, layer=None, columns=None):
+    """Read one layer as a GeoDataFrame with the source feature ids as the index.
+
+    The index holds the feature id as the source format numbers it (the
+    GeoPackage fid, the Shapefile record number from 0, ...), as pyogrio reads it.
+    """
+    import geopandas as gpd
+    import pyogrio
+
+    path = Path(path)
+    names = list_layers(path)
+    if layer is not None and layer not in names:
+        raise MissingInputError(f"{where(path, layer)}no such layer; the file has: {', '.join(names)}")
+    if layer is None and len(names) > 1 and path.suffix.lower() == ".gpkg":
+        raise InputError(f"{where(path)}holds {len(names)} layers ({', '.join(names)}); "
+                         f"name one as {path}:LAYER")
+    suffix = path.suffix.lower()
+    try:
+        if suffix in (".parquet", ".geoparquet"):
+            gdf = gpd.read_parquet(path, columns=columns)
+            gdf.index.name = "fid"
+            return gdf
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            gdf = pyogrio.read_dataframe(path, layer=layer, columns=columns, fid_as_index=True)
+    except Exception as err:
+        raise InputError(f"{where(path, layer)}cannot be read ({_short(err)}); check the file with a GIS") from err
+    gdf.index.name = "fid"
+    return gdf
+
+
+def read_layer(ref, expect: str = "lines", assume_crs=None, allow_empty: bool = False):
+    """Read and validate a layer of the expected geometry family.
+
+    Parameters
+    ----------
+    ref : str or LayerRef
+        ``path`` or ``path:layername``.
+    expect : {'lines', 'points', 'polygons'}
+    assume_crs : CRS-like, optional
+        Used only when the layer has no CRS; without it such a layer is refused.
+
+    Returns
+    -------
+    GeoDataFrame
+        Index = source feature ids; CRS always set.
+
+    Raises
+    ------
+    MissingInputError, LayerError, CRSError
+    """
+    from pyproj import CRS
+
+    ref = parse_layer_ref(ref)
+    gdf = read_frame(ref.path, ref.layer)
+    loc = where(ref.path, ref.layer)
+    geoms = gdf.geometry
+    present = geoms[~(geoms.isna() | geoms.is_empty)]
+    if len(present) == 0:
+        if allow_empty:
+            return gdf
+        raise LayerError(f"{loc}the layer has no features with geometry; give a layer holding {expect}")
+    kinds = set(present.geom_type.unique())
+    if "GeometryCollection" in kinds:
+        # Collections are exploded by callers; judge by their parts.
+        kinds = (kinds - {"GeometryCollection"}) | set(present[present.geom_type == "GeometryCollection"]
+                                                          .explode(index_parts=False).geom_type.unique())
+    allowed = GEOM_FAMILIES[expect]
+    if not kinds & allowed:
+        fid = present.index[0]
+        raise LayerError(f"{where(ref.path, ref.layer, fid)}is a {present.iloc[0].geom_type}, "
+                         f"but {expect} are expected here; give a layer of {expect}")
+    if gdf.crs is None:
+        if assume_crs is None:
+            raise CRSError(f"{loc}the layer has no CRS (a Shapefile without its .prj?); "
+                           "add one in a GIS or pass --assume-crs EPSG:NNNN")
+        gdf = gdf.set_crs(CRS.from_user_input(assume_crs))
+    return gdf
