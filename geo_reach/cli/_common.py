@@ -1,0 +1,87 @@
+"""Option definitions shared by several subcommands (one text per option)."""
+
+from __future__ import annotations
+
+import json
+import sys
+
+__all__ = ["add_layer_options", "specs_from_args", "options_from_args", "emit_json", "parse_class_speeds"]
+
+
+def add_layer_options(p):
+    g = p.add_argument_group("network layers (options apply to every LAYER given)")
+    g.add_argument("layers", nargs="+", metavar="LAYER", help="line layer: path or path:layername")
+    g.add_argument("--mode", choices=["road", "rail", "cable"], default="road", help="mode of the layers (default road)")
+    g.add_argument("--speed-field", help="field holding the speed in km/h")
+    g.add_argument("--class-field", help="field holding a road class, looked up in the class-to-speed table")
+    g.add_argument("--class-speeds", metavar="CLASS=KMH,...", type=parse_class_speeds,
+                   help="override or extend the class-to-speed table, e.g. main=60,track=12")
+    g.add_argument("--speed-kmh", type=float, help="one speed for the layers, and the fallback for bad values")
+    g.add_argument("--oneway-field", help="field marking one-way lines (yes/true/1 forward, -1 reverse)")
+    g.add_argument("--level-field", help="field with the vertical level; crossings of different levels stay unjoined")
+    g.add_argument("--all-season-field", help="field flagging all-season roads (1/0, yes/no)")
+    g.add_argument("--stations", metavar="LAYER", help="rail stations / cable access nodes (point layer)")
+    g.add_argument("--boarding-minutes", type=float, default=0.0, help="rail boarding penalty in minutes (default 0)")
+    g.add_argument("--assume-crs", metavar="EPSG:NNNN", help="CRS for layers that have none")
+    t = p.add_argument_group("topology (metres on the ground)")
+    t.add_argument("--crs", metavar="EPSG:NNNN", help="metric working CRS (default: UTM zone of the data's centre)")
+    t.add_argument("--snap-m", type=float, default=1.0, help="join line ends closer than this (default 1.0)")
+    t.add_argument("--dangle-m", type=float, help="report dead ends shorter than this (default 10 x --snap-m)")
+    t.add_argument("--access-snap-m", type=float, default=100.0,
+                   help="stations/access nodes farther than this from their line are reported, not attached (default 100)")
+
+
+def parse_class_speeds(text):
+    import argparse
+
+    out = {}
+    for item in filter(None, (s.strip() for s in text.split(","))):
+        k, sep, v = item.partition("=")
+        try:
+            out[k.strip()] = float(v)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"'{item}' is not CLASS=KMH") from None
+        if not sep or out[k.strip()] <= 0:
+            raise argparse.ArgumentTypeError(f"'{item}' is not CLASS=KMH with a positive speed")
+    return out
+
+
+def specs_from_args(args):
+    from ..network.build import LayerSpec
+
+    return [LayerSpec(source=layer, mode=args.mode, speed_field=args.speed_field, class_field=args.class_field,
+                      class_speeds=args.class_speeds, speed_kmh=args.speed_kmh, oneway_field=args.oneway_field,
+                      level_field=args.level_field, all_season_field=args.all_season_field,
+                      access_points=args.stations, boarding_minutes=args.boarding_minutes,
+                      assume_crs=args.assume_crs)
+            for layer in args.layers]
+
+
+def options_from_args(args):
+    from ..network.build import BuildOptions
+
+    return BuildOptions(crs=args.crs, snap_m=args.snap_m, dangle_m=args.dangle_m, access_snap_m=args.access_snap_m)
+
+
+def emit_json(obj, path=None, stdout=False):
+    """Write ``obj`` as JSON to ``path`` (atomically) and/or stdout."""
+    from ..export.atomic import atomic_path
+
+    text = json.dumps(obj, indent=2, sort_keys=False, default=_default)
+    if path:
+        with atomic_path(path) as tmp:
+            tmp.write_text(text + "\n")
+    if stdout:
+        sys.stdout.write(text + "\n")
+
+
+def _default(o):
+    import numpy as np
+
+    if isinstance(o, np.integer):
+        return int(o)
+    if isinstance(o, np.floating):
+        return None if np.isnan(o) else float(o)
+    if isinstance(o, np.ndarray):
+        return o.tolist()
+    return str(o)

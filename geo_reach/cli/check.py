@@ -1,0 +1,34 @@
+"""``geo-reach check``: the fast data-quality pass (issues layer and report, no network)."""
+
+from __future__ import annotations
+
+import sys
+
+from ._common import add_layer_options, emit_json, options_from_args, specs_from_args
+
+
+def register(sub):
+    p = sub.add_parser("check", help="report repairs and suspect spots without building",
+                       description="Data-quality pass: the network_issues layer and the report, "
+                                   "with the same rules as build.")
+    add_layer_options(p)
+    p.add_argument("-o", "--output", required=True, metavar="ISSUES.gpkg", help="output GeoPackage")
+    p.add_argument("--overwrite", action="store_true", help="replace an existing output")
+    p.add_argument("--report", metavar="FILE.json", help="write the report as JSON")
+    p.add_argument("--json", action="store_true", help="print the report as JSON")
+    p.set_defaults(func=run)
+
+
+def run(args):
+    from ..export.atomic import check_output
+    from ..network.build import check_layers
+    from ..network.writer import write_layers_atomic
+
+    check_output(args.output, args.overwrite)
+    result = check_layers(specs_from_args(args), options_from_args(args))
+    write_layers_atomic(args.output, {"network_issues": result.issues}, overwrite=args.overwrite)
+    emit_json(result.report, args.report, stdout=args.json)
+    if not args.json:
+        kinds = ", ".join(f"{k} {v}" for k, v in result.report["issues"].items() if v)
+        print(f"issues: {kinds or 'none'} -> {args.output}", file=sys.stderr)
+    return 0
