@@ -1,0 +1,329 @@
+"""Join points that lie off the network (hubs, origins, destinations) to it.
+
+A point joins the network at its *entry*: the nearest place, within
+``max_access_m``, where a trip may enter or leave the network.  Places are
+
+* every ``road`` edge routable on the weight, at the point of the edge nearest
+  to the point (the edge's cost is split in proportion to the position along
+  it, and one-way edges are respected: from a point part-way along a one-way
+  edge a trip can only go on towards its ``to_node``);
+* every entry node (``node_entry`` true: a rail station, a cable access node)
+  touching a routable edge of another mode, at the node itself;
+* never a ``transfer`` edge, and never a rail or cable edge between stations.
+
+The cheapest entry is the nearest one for every weight (the access leg cost
+grows with its length, or is zero for all of them), so only the nearest
+places are kept as *legs* (several when tied, e.g. all edges meeting at a
+junction).  Farther places are not offered: otherwise a trip could cut
+across country on foot from one edge to another within ``max_access_m``.
+
+The access leg (point to the place on the network, straight line, planar
+distance in the working CRS) is costed as follows, per weight:
+
+``minutes``
+    ``walk_m / (walk_kmh * 1000 / 60)``, i.e. at the off-network speed.
+``length_m``
+    its length in metres.
+``hops``
+    0: the access leg is not a link.  The partial edge counts its fraction of
+    one link, so the rule "split the edge cost in proportion" holds for every
+    weight.
+``latency_ms``
+    0: signal latency only exists on the network.
+
+The routing functions add each point as a virtual node joined by its legs
+(one arc to each end of the entered edge that the trip may use).  Points
+with no entry within ``max_access_m`` are kept in the arrays (``attached`` false, ``access_m`` their real distance) so
+callers report them; they are never moved.
+"""
+
+from __future__ import annotations
+
+import weakref
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import OptionError
+from ..network.model import WEIGHTS, Network
+
+__all__ = ["Attachment", "attach_points", "walk_cost"]
+
+#: Edge modes a point may enter anywhere along (common practice: roads and
+#: tracks are walkable to; rail and cable only at stations or access nodes).
+ALONG_MODES = frozenset({"road"})
+#: Edge modes a point may never enter.
+NEVER_MODES = frozenset({"transfer"})
+
+#: Entries this much farther than the nearest one still count as tied (metres).
+TIE_M = 1e-6
+
+_TREES: "weakref.WeakKeyDictionary[Network, dict]" = weakref.WeakKeyDictionary()
+
+
+def walk_cost(walk_m, weight: str, walk_kmh: float) -> np.ndarray:
+    """Cost of an off-network access leg.
+
+    Parameters
+    ----------
+    walk_m : array_like of float
+        Leg length in metres.
+    weight : {'minutes', 'length_m', 'latency_ms', 'hops'}
+    walk_kmh : float
+        Off-network speed, km/h (5 km/h is common practice for walking).
+
+    Returns
+    -------
+    ndarray of float64
+        Cost in the weight's unit (minutes, metres, 0 for hops and latency).
+
+    Examples
+    --------
+    >>> float(walk_cost(500.0, "minutes", 5.0))
+    6.0
+    >>> float(walk_cost(500.0, "hops", 5.0))
+    0.0
+    """
+    walk_m = np.asarray(walk_m, dtype=np.float64)
+    if weight == "minutes":
+        return walk_m / (walk_kmh * 1000.0 / 60.0)
+    if weight == "length_m":
+        return walk_m.copy()
+    if weight in ("hops", "latency_ms"):
+        return np.zeros_like(walk_m)
+    raise OptionError(f"unknown weight '{weight}'; choose one of {', '.join(WEIGHTS)}")
+
+
+@dataclass(frozen=True, eq=False)
+class Attachment:
+    """Where each of ``n_points`` off-network points may join a network, for one weight.
+
+    Attributes
+    ----------
+    weight : str
+        The weight the legs were chosen for (edges without it are not entered).
+    walk_kmh, max_access_m : float
+        Off-network speed (km/h) and the largest access distance (m).
+    point_xy : ndarray of float64, shape (n_points, 2)
+        The points, in the network's working CRS (m).
+    access_m : ndarray of float64, shape (n_points,)
+        Distance in metres to the nearest place the point may join
+        (``inf`` if the network has none); larger than ``max_access_m`` for
+        points left out.
+    leg_point : ndarray of int64, shape (n_legs,)
+        The point each leg belongs to (sorted).
+    leg_edge : ndarray of int64, shape (n_legs,)
+        The edge entered part-way, or -1 for an entry at a node.
+    leg_node : ndarray of int64, shape (n_legs,)
+        The node entered directly, or -1 for an edge leg.
+    leg_fraction : ndarray of float64, shape (n_legs,)
+        Position along ``leg_edge`` from its ``from_node`` (0..1); 0 for node legs.
+    leg_walk_m : ndarray of float64, shape (n_legs,)
+        Length of the off-network access leg in metres.
+    """
+
+    weight: str
+    walk_kmh: float
+    max_access_m: float
+    point_xy: np.ndarray
+    access_m: np.ndarray
+    leg_point: np.ndarray
+    leg_edge: np.ndarray
+    leg_node: np.ndarray
+    leg_fraction: np.ndarray
+    leg_walk_m: np.ndarray
+
+    @property
+    def n_points(self) -> int:
+        return len(self.point_xy)
+
+    @property
+    def attached(self) -> np.ndarray:
+        """Boolean mask of the points with at least one leg."""
+        out = np.zeros(self.n_points, dtype=bool)
+        out[self.leg_point] = True
+        return out
+
+    def subset(self, points) -> "Attachment":
+        """The attachment of ``points`` only (renumbered 0..k-1 in the given order)."""
+        points = np.asarray(points, dtype=np.int64)
+        order = np.argsort(self.leg_point, kind="stable")
+        starts = np.searchsorted(self.leg_point[order], points, side="left")
+        stops = np.searchsorted(self.leg_point[order], points, side="right")
+        take = np.concatenate([order[a:b] for a, b in zip(starts, stops)]) if len(points) else np.zeros(0, np.int64)
+        newp = np.repeat(np.arange(len(points)), stops - starts)
+        return Attachment(self.weight, self.walk_kmh, self.max_access_m, self.point_xy[points],
+                          self.access_m[points], newp.astype(np.int64), self.leg_edge[take],
+                          self.leg_node[take], self.leg_fraction[take], self.leg_walk_m[take])
+
+    # ------------------------------------------------------------------ arcs
+    def arcs(self, network: Network, role: str):
+        """The virtual arcs joining each point to the network.
+
+        Parameters
+        ----------
+        network : Network
+            The network the points were attached to.
+        role : {'leave', 'arrive'}
+            ``leave``: arcs from the point onto the network (the point is an
+            origin).  ``arrive``: arcs from the network to the point (the
+            point is a destination).
+
+        Returns
+        -------
+        point, node : ndarray of int64, shape (k,)
+            The arc joins ``point`` and network ``node`` (direction per role).
+        cost : ndarray of float64, shape (k,)
+            Access leg plus the share of the edge, in the weight's unit.
+        leg : ndarray of int64, shape (k,)
+            The leg behind each arc (index into the ``leg_*`` arrays).
+        """
+        if role not in ("leave", "arrive"):
+            raise OptionError(f"unknown role '{role}'; choose 'leave' or 'arrive'")
+        nleg = len(self.leg_point)
+        legs = np.arange(nleg)
+        walk = walk_cost(self.leg_walk_m, self.weight, self.walk_kmh)
+        is_edge = self.leg_edge >= 0
+        e = self.leg_edge[is_edge]
+        c = network.cost(self.weight)[e]
+        f = self.leg_fraction[is_edge]
+        one = network.edge_oneway[e]
+        # Leaving: towards to_node (forward part) always, to from_node only if two-way.
+        # Arriving: from from_node (forward part) always, from to_node only if two-way.
+        if role == "leave":
+            fwd_node, fwd_cost = network.edge_to[e], (1.0 - f) * c
+            back_node, back_cost = network.edge_from[e], f * c
+        else:
+            fwd_node, fwd_cost = network.edge_from[e], f * c
+            back_node, back_cost = network.edge_to[e], (1.0 - f) * c
+        el = legs[is_edge]
+        nl = legs[~is_edge]
+        leg = np.concatenate([el, el[~one], nl])
+        node = np.concatenate([fwd_node, back_node[~one], self.leg_node[nl]])
+        cost = np.concatenate([fwd_cost, back_cost[~one], np.zeros(len(nl))]) + walk[leg]
+        return (self.leg_point[leg].astype(np.int64), node.astype(np.int64),
+                cost.astype(np.float64), leg.astype(np.int64))
+
+    def snapped_xy(self, network: Network, legs) -> np.ndarray:
+        """Where each of ``legs`` meets the network (working CRS, m), shape (k, 2)."""
+        import shapely
+
+        legs = np.asarray(legs, dtype=np.int64)
+        out = np.empty((len(legs), 2))
+        ed = self.leg_edge[legs]
+        on_edge = ed >= 0
+        if on_edge.any():
+            pts = shapely.line_interpolate_point(network.edge_geometry[ed[on_edge]],
+                                                 self.leg_fraction[legs][on_edge], normalized=True)
+            out[on_edge] = shapely.get_coordinates(pts)
+        nd = self.leg_node[legs][~on_edge]
+        out[~on_edge, 0] = network.node_x[nd]
+        out[~on_edge, 1] = network.node_y[nd]
+        return out
+
+
+def _entry_places(network: Network, weight: str) -> dict:
+    """Spatial indexes of the places points may join on ``weight`` (cached per network and weight)."""
+    import shapely
+    from scipy.spatial import cKDTree
+
+    per_net = _TREES.setdefault(network, {})
+    if weight not in per_net:
+        cost = network.cost(weight)
+        mode = network.edge_mode.astype(str)
+        routable = ~np.isnan(cost)
+        along = np.nonzero(np.isin(mode, list(ALONG_MODES)) & routable)[0]
+        other = np.nonzero(~np.isin(mode, list(ALONG_MODES | NEVER_MODES)) & routable)[0]
+        nodes = np.unique(np.concatenate([network.edge_from[other], network.edge_to[other]]))
+        nodes = nodes[network.node_entry[nodes]]
+        per_net[weight] = {
+            "along": along,
+            "tree": shapely.STRtree(network.edge_geometry[along]) if len(along) else None,
+            "nodes": nodes,
+            "kd": cKDTree(np.column_stack([network.node_x[nodes], network.node_y[nodes]])) if len(nodes) else None,
+        }
+    return per_net[weight]
+
+
+def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m: float = 5000.0,
+                  walk_kmh: float = 5.0) -> Attachment:
+    """Find where each point may join the network.
+
+    Parameters
+    ----------
+    network : Network
+    xy : array_like of float, shape (n_points, 2)
+        Point coordinates in the network's working CRS (metres).
+    weight : {'minutes', 'length_m', 'latency_ms', 'hops'}
+        Edges without a value for it are not entered.
+    max_access_m : float, default 5000
+        Largest straight-line access distance, metres.
+    walk_kmh : float, default 5
+        Off-network speed for the ``minutes`` weight, km/h (common practice
+        for walking).
+
+    Returns
+    -------
+    Attachment
+        Every leg within ``max_access_m`` (see the module notes for which
+        places count and how legs are costed).
+
+    Raises
+    ------
+    OptionError
+        ``max_access_m`` negative or ``walk_kmh`` not positive, unknown weight.
+
+    Notes
+    -----
+    Distances are planar in the working CRS (which is metric); the share of
+    an edge's cost is in proportion to the planar position along its
+    geometry.  Cost O(p log m) with an STR-tree over the road edges and a
+    k-d tree over the entry nodes (both cached per network and weight).
+    """
+    import shapely
+
+    if not np.isfinite(max_access_m) or max_access_m < 0:
+        raise OptionError(f"--max-access-m {max_access_m}: must be zero or more metres")
+    if not np.isfinite(walk_kmh) or walk_kmh <= 0:
+        raise OptionError(f"--walk-kmh {walk_kmh}: must be a positive speed in km/h")
+    network.cost(weight)  # validates the weight
+    xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
+    p = len(xy)
+    places = _entry_places(network, weight)
+    pts = shapely.points(xy[:, 0], xy[:, 1])
+
+    # --- nearest road edges (all of those tied at the nearest distance)
+    if p and places["tree"] is not None:
+        (qi, ti), walk = places["tree"].query_nearest(pts, return_distance=True, all_matches=True)
+        qi = qi.astype(np.int64)
+        edges = places["along"][ti]
+        frac = shapely.line_locate_point(network.edge_geometry[edges], pts[qi], normalized=True)
+        frac = np.clip(np.nan_to_num(frac, nan=0.0), 0.0, 1.0)
+    else:
+        qi = edges = np.zeros(0, np.int64)
+        walk = frac = np.zeros(0)
+
+    # --- nearest entry node of another mode
+    if p and places["kd"] is not None:
+        nwalk, k = places["kd"].query(xy)
+        npt = np.arange(p, dtype=np.int64)
+        nnode = places["nodes"][k].astype(np.int64)
+    else:
+        npt = nnode = np.zeros(0, np.int64)
+        nwalk = np.zeros(0)
+
+    leg_point = np.concatenate([qi, npt]).astype(np.int64)
+    leg_edge = np.concatenate([edges, np.full(len(npt), -1)]).astype(np.int64)
+    leg_node = np.concatenate([np.full(len(qi), -1), nnode]).astype(np.int64)
+    leg_frac = np.concatenate([frac, np.zeros(len(npt))])
+    leg_walk = np.concatenate([walk, nwalk]).astype(np.float64)
+
+    # --- keep the nearest entries (ties kept) within max_access_m
+    access = np.full(p, np.inf)
+    np.minimum.at(access, leg_point, leg_walk)
+    keep = (leg_walk <= access[leg_point] + TIE_M) & (leg_walk <= max_access_m)
+    order = np.argsort(leg_point[keep], kind="stable")
+    leg_point, leg_edge, leg_node, leg_frac, leg_walk = (a[keep][order] for a in
+                                                         (leg_point, leg_edge, leg_node, leg_frac, leg_walk))
+    return Attachment(weight, float(walk_kmh), float(max_access_m), xy, access, leg_point, leg_edge,
+                      leg_node, leg_frac, leg_walk)
