@@ -47,10 +47,19 @@ def atomic_path(path, suffix: str | None = None):
     """Yield a temporary path beside ``path``; on success rename it over ``path``.
 
     On any error the temporary file is removed and ``path`` is untouched.
+
+    Raises
+    ------
+    OutputError
+        The folder does not allow creating the temporary file.
     """
     path = Path(path)
     suffix = suffix if suffix is not None else path.suffix
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=".partial" + suffix, dir=path.parent or ".")
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=".partial" + suffix, dir=path.parent or ".")
+    except OSError as err:
+        raise OutputError(f"file '{path}': cannot write in folder '{path.parent}' ({err.strerror}); "
+                          "choose a writable folder") from err
     os.close(fd)
     os.unlink(tmp)  # writers (GDAL) want to create the file themselves
     tmp = Path(tmp)
@@ -71,8 +80,12 @@ def atomic_dir(path):
     new one is in place, so a failure leaves the old results as they were.
     """
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{path.name}.", suffix=".partial", dir=path.parent))
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{path.name}.", suffix=".partial", dir=path.parent))
+    except OSError as err:
+        raise OutputError(f"file '{path}': cannot create a folder in '{path.parent}' ({err.strerror}); "
+                          "choose a writable location") from err
     try:
         yield tmp
     except BaseException:
