@@ -1,0 +1,307 @@
+"""Where the network can be entered from the grid, and at what cost.
+
+A traveller on foot may join a road anywhere along it, a railway only at a
+station, and never a cable or a transfer link.  :func:`entry_points` samples
+every road edge at most ``spacing_m`` apart and adds every rail station; each
+point carries the network cost from (or to) it to the nearest hub.
+:func:`seed_raster` puts the points on a grid (a cell's seed is the cheapest
+point inside it).  :func:`cable_connection_m` is the distance raster for
+cable layers, which carry no travellers.
+
+The cost of a point a fraction ``f`` along an edge ``u -> v`` of ``m``
+minutes, for the trip *to* the hub, is::
+
+    min(cost[v] + (1 - f) m   (if the edge may be travelled u -> v),
+        cost[u] + f m         (if it may be travelled v -> u, i.e. not one-way))
+
+and for the trip *from* the hub (``cost`` then being hub-to-node)::
+
+    min(cost[u] + f m         (u -> v allowed),
+        cost[v] + (1 - f) m   (v -> u allowed)).
+
+Each point also records the node its trip passes through (``via_node``),
+which is how regions find the side of a single link a cell depends on.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError, OptionError
+
+__all__ = ["EntryPoints", "Seeds", "entry_points", "seed_raster", "cable_access_nodes",
+           "cable_connection_m", "sample_lines"]
+
+
+@dataclass(frozen=True)
+class EntryPoints:
+    """Points where a trip on foot joins the network.
+
+    Attributes
+    ----------
+    x, y : ndarray of float64, shape (n,)
+        Working CRS, metres.
+    minutes : ndarray of float64, shape (n,)
+        Network minutes between the point and the nearest hub; NaN = no hub
+        reachable.
+    via_node : ndarray of int64, shape (n,)
+        The node the cheapest trip passes through (-1 where no hub reachable).
+    edge : ndarray of int64, shape (n,)
+        The road edge the point lies on; -1 for stations.
+    """
+
+    x: np.ndarray
+    y: np.ndarray
+    minutes: np.ndarray
+    via_node: np.ndarray
+    edge: np.ndarray
+
+    def __len__(self) -> int:
+        return len(self.x)
+
+
+@dataclass(frozen=True)
+class Seeds:
+    """Entry points on a grid.
+
+    Attributes
+    ----------
+    minutes : ndarray of float64, shape ``grid.shape``
+        Cheapest point in each cell, minutes; inf = no seed.
+    via_node : ndarray of int64, shape ``grid.shape``
+        Node behind that cheapest point; -1 = none.
+    """
+
+    minutes: np.ndarray
+    via_node: np.ndarray
+
+
+def sample_lines(geoms, spacing_m: float):
+    """Points along line geometries at most ``spacing_m`` apart, both ends included.
+
+    Parameters
+    ----------
+    geoms : ndarray of shapely LineString, shape (n,)
+    spacing_m : float
+        Largest gap between consecutive samples along a line, metres.
+
+    Returns
+    -------
+    line : ndarray of int64
+        Which geometry each sample lies on.
+    frac : ndarray of float64
+        Fraction of the line's length from its start (0..1).
+    x, y : ndarray of float64
+
+    Notes
+    -----
+    Vectorised with numpy over all vertices at once (no per-point shapely
+    call); a line of length L gets ``ceil(L / spacing_m) + 1`` samples.
+    """
+    import shapely
+
+    geoms = np.asarray(geoms, dtype=object)
+    coords, part = shapely.get_coordinates(geoms, return_index=True)
+    n = len(geoms)
+    if coords.shape[0] == 0:
+        z = np.zeros(0)
+        return np.zeros(0, np.int64), z, z, z
+    starts = np.searchsorted(part, np.arange(n), side="left")
+    ends = np.searchsorted(part, np.arange(n), side="right")  # exclusive
+    seg = np.hypot(np.diff(coords[:, 0]), np.diff(coords[:, 1]))
+    same = part[1:] == part[:-1]
+    seg = np.where(same, seg, 0.0)
+    cum = np.concatenate([[0.0], np.cumsum(seg)])  # cumulative along all vertices
+    has = ends > starts
+    length = np.zeros(n)
+    length[has] = cum[ends[has] - 1] - cum[starts[has]]
+    k = np.where(has, np.ceil(length / spacing_m).astype(np.int64), -1)
+    k = np.where(has & (k < 1), 1, k)
+    counts = np.where(has, k + 1, 0)
+    line = np.repeat(np.arange(n, dtype=np.int64), counts)
+    first = np.cumsum(counts) - counts
+    j = np.arange(line.size) - np.repeat(first, counts)
+    frac = j / np.repeat(np.maximum(k, 1), counts).astype(np.float64)
+    target = cum[starts[line]] + frac * length[line]
+    # The segment holding each target: last vertex with cum <= target, kept inside its own line.
+    i = np.searchsorted(cum, target, side="right") - 1
+    i = np.clip(i, starts[line], np.maximum(ends[line] - 2, starts[line]))
+    nxt = np.minimum(i + 1, ends[line] - 1)
+    seglen = cum[nxt] - cum[i]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        t = np.where(seglen > 0, (target - cum[i]) / seglen, 0.0)
+    t = np.clip(t, 0.0, 1.0)
+    x = coords[i, 0] + t * (coords[nxt, 0] - coords[i, 0])
+    y = coords[i, 1] + t * (coords[nxt, 1] - coords[i, 1])
+    return line, frac, x, y
+
+
+def _check_node_array(network, arr, name):
+    a = np.asarray(arr, dtype=np.float64)
+    if a.shape != (network.n_nodes,):
+        raise OptionError(f"{name} has shape {a.shape}; expected one value per node ({network.n_nodes})")
+    return a
+
+
+def entry_points(network, node_cost, spacing_m: float, direction: str = "to-hub") -> EntryPoints:
+    """Sample the places a trip on foot can join the network.
+
+    Parameters
+    ----------
+    network : Network
+    node_cost : ndarray of float64, shape (n_nodes,)
+        Network minutes between each node and its nearest hub (to the hub for
+        ``direction="to-hub"``, from it for ``"from-hub"``); NaN = unreachable.
+    spacing_m : float
+        Largest gap between samples along a road, metres (use half the cell
+        size or less so every cell a road crosses gets a sample).
+    direction : {"to-hub", "from-hub"}
+
+    Returns
+    -------
+    EntryPoints
+        Road samples first (edge order), then rail stations.
+
+    Raises
+    ------
+    OptionError
+        Bad ``spacing_m``, ``direction`` or ``node_cost`` shape.
+    """
+    if direction not in ("to-hub", "from-hub"):
+        raise OptionError(f"unknown direction '{direction}'; choose one of to-hub, from-hub")
+    if not (np.isfinite(spacing_m) and spacing_m > 0):
+        raise OptionError(f"sample spacing {spacing_m!r} m must be a positive number")
+    cost = _check_node_array(network, node_cost, "node_cost")
+    cost = np.where(np.isfinite(cost), cost, np.nan)  # inf (as routing gives) and NaN: no hub
+    mode = np.asarray(network.edge_mode).astype(str)
+    minutes = np.asarray(network.edge_minutes, dtype=np.float64)
+    road = np.nonzero((mode == "road") & np.isfinite(minutes))[0]
+    geoms = _edge_geoms(network, road)
+    line, f, x, y = sample_lines(geoms, spacing_m)
+    e = road[line]
+    u, v, m = network.edge_from[e], network.edge_to[e], minutes[e]
+    oneway = np.asarray(network.edge_oneway, dtype=bool)[e]
+    cu = np.where(np.isnan(cost[u]), np.inf, cost[u])
+    cv = np.where(np.isnan(cost[v]), np.inf, cost[v])
+    if direction == "to-hub":
+        forward = cv + (1.0 - f) * m                         # carry on to v (always allowed)
+        back = np.where(oneway, np.inf, cu + f * m)          # turn back to u (two-way only)
+        fwd_node, back_node = v, u
+    else:
+        forward = cu + f * m                                 # came from u (always allowed)
+        back = np.where(oneway, np.inf, cv + (1.0 - f) * m)  # came from v (two-way only)
+        fwd_node, back_node = u, v
+    take_back = back < forward
+    pmin = np.where(take_back, back, forward)
+    via = np.where(take_back, back_node, fwd_node).astype(np.int64)
+    unreachable = ~np.isfinite(pmin)
+    pmin = np.where(unreachable, np.nan, pmin)
+    via = np.where(unreachable, -1, via)
+
+    stations = rail_stations(network)
+    sx, sy = network.node_x[stations], network.node_y[stations]
+    sc = cost[stations]
+    svia = np.where(np.isnan(sc), -1, stations).astype(np.int64)
+    return EntryPoints(
+        x=np.concatenate([x, sx]), y=np.concatenate([y, sy]),
+        minutes=np.concatenate([pmin, sc]), via_node=np.concatenate([via, svia]),
+        edge=np.concatenate([e.astype(np.int64), np.full(stations.size, -1, np.int64)]),
+    )
+
+
+def _edge_geoms(network, edges):
+    import shapely
+
+    g = np.asarray(network.edge_geometry, dtype=object)[edges]
+    missing = np.array([gg is None or gg.is_empty for gg in g], dtype=bool) if g.size else np.zeros(0, bool)
+    if missing.any():
+        k = edges[missing]
+        pts = np.stack([np.column_stack([network.node_x[network.edge_from[k]], network.node_y[network.edge_from[k]]]),
+                        np.column_stack([network.node_x[network.edge_to[k]], network.node_y[network.edge_to[k]]])],
+                       axis=1)
+        g = g.copy()
+        g[missing] = shapely.linestrings(pts)
+    return g
+
+
+def _incident(network, mask_edges) -> np.ndarray:
+    hit = np.zeros(network.n_nodes, dtype=bool)
+    hit[network.edge_from[mask_edges]] = True
+    hit[network.edge_to[mask_edges]] = True
+    return hit
+
+
+def rail_stations(network) -> np.ndarray:
+    """Node ids of rail stations: entry nodes touched by a rail edge."""
+    mode = np.asarray(network.edge_mode).astype(str)
+    return np.nonzero(_incident(network, mode == "rail") & np.asarray(network.node_entry, dtype=bool))[0]
+
+
+def cable_access_nodes(network) -> np.ndarray:
+    """Node ids of cable access nodes: entry nodes touched by a cable edge."""
+    mode = np.asarray(network.edge_mode).astype(str)
+    return np.nonzero(_incident(network, mode == "cable") & np.asarray(network.node_entry, dtype=bool))[0]
+
+
+def seed_raster(points: EntryPoints, grid) -> Seeds:
+    """Put entry points on ``grid``: each cell keeps its cheapest point.
+
+    Points outside the grid and points with no hub reachable are dropped.
+    """
+    rows, cols = grid.index(points.x, points.y)
+    ok = (rows >= 0) & np.isfinite(points.minutes)
+    cell = rows[ok] * grid.width + cols[ok]
+    mins = points.minutes[ok]
+    via = points.via_node[ok]
+    order = np.lexsort((mins, cell))
+    cell, mins, via = cell[order], mins[order], via[order]
+    first = np.ones(cell.size, dtype=bool)
+    first[1:] = cell[1:] != cell[:-1]
+    out_m = np.full(grid.width * grid.height, np.inf)
+    out_v = np.full(grid.width * grid.height, -1, dtype=np.int64)
+    out_m[cell[first]] = mins[first]
+    out_v[cell[first]] = via[first]
+    return Seeds(out_m.reshape(grid.shape), out_v.reshape(grid.shape))
+
+
+def cable_connection_m(network, grid, chunk_rows: int = 256) -> np.ndarray:
+    """Distance from each cell centre to the nearest cable access node, metres.
+
+    A cable carries no travellers, so its reach is this straight-line
+    connection distance, not minutes.
+
+    Parameters
+    ----------
+    network : Network
+    grid : Grid
+        In the network's CRS.
+    chunk_rows : int
+        Rows queried at once (bounds the temporary memory).
+
+    Returns
+    -------
+    ndarray of float64, shape ``grid.shape``
+
+    Raises
+    ------
+    InputError
+        The network has no cable access node.
+    """
+    from scipy.spatial import cKDTree
+
+    nodes = cable_access_nodes(network)
+    if nodes.size == 0:
+        raise InputError("the network has no cable access node (an entry node on a cable edge); "
+                         "add a cable layer with access points or leave cable out")
+    tree = cKDTree(np.column_stack([network.node_x[nodes], network.node_y[nodes]]))
+    out = np.empty(grid.shape, dtype=np.float64)
+    xs, _ = grid.cell_centres(rows=np.zeros(1, int))
+    for r0 in range(0, grid.height, chunk_rows):
+        r1 = min(grid.height, r0 + chunk_rows)
+        _, ys = grid.cell_centres(rows=np.arange(r0, r1), cols=np.zeros(1, int))
+        X, Y = np.meshgrid(xs, ys)
+        d, _ = tree.query(np.column_stack([X.ravel(), Y.ravel()]), workers=-1)
+        out[r0:r1] = d.reshape(r1 - r0, grid.width)
+    return out

@@ -1,0 +1,161 @@
+"""Network seeds and the hybrid travel-time surface, checked by hand-worked arithmetic."""
+
+import math
+
+import numpy as np
+import pytest
+import shapely
+from pyproj import CRS
+
+from geo_reach.analysis.accumulate import accumulate_reference
+from geo_reach.analysis.seeding import (cable_access_nodes, cable_connection_m, entry_points, sample_lines,
+                                        seed_raster)
+from geo_reach.analysis.surface import compute_surface
+from geo_reach.errors import CRSError, InputError, OptionError
+from tests.helpers.surface_nets import grid, net_from_edges
+
+SQRT2 = math.sqrt(2.0)
+
+
+def test_sample_lines_against_shapely():
+    rng = np.random.default_rng(5)
+    lines = [shapely.LineString(rng.uniform(0, 1000, (k, 2))) for k in (2, 5, 3, 9)]
+    lines.append(shapely.LineString([(5, 5), (5, 5)]))  # zero length
+    line, frac, x, y = sample_lines(np.array(lines, dtype=object), 37.0)
+    ref = shapely.line_interpolate_point(np.array(lines, dtype=object)[line], frac, normalized=True)
+    np.testing.assert_allclose(x, shapely.get_x(ref), atol=1e-7)
+    np.testing.assert_allclose(y, shapely.get_y(ref), atol=1e-7)
+    for i, g in enumerate(lines):
+        f = frac[line == i]
+        assert f[0] == 0.0 and f[-1] == 1.0
+        assert (np.diff(f) * g.length <= 37.0 + 1e-9).all()
+
+
+def test_entry_cost_formula_two_way_and_one_way():
+    # Edge 0 -> 1 of 10 minutes; to-hub costs: node 0 = 5, node 1 = 20.
+    net = net_from_edges([(0, 0), (1000, 0)], [(0, 1)], minutes=[10.0])
+    p = entry_points(net, np.array([5.0, 20.0]), 100.0, "to-hub")
+    f = p.x / 1000.0
+    # two-way: min(20 + (1-f) 10, 5 + f 10) = 5 + 10 f (<= 15 < 20), through node 0
+    np.testing.assert_allclose(p.minutes, 5 + 10 * f)
+    assert (p.via_node == 0).all() and len(p) == 11
+    one = net_from_edges([(0, 0), (1000, 0)], [(0, 1)], minutes=[10.0], oneway=[True])
+    p = entry_points(one, np.array([5.0, 20.0]), 100.0, "to-hub")
+    # one-way 0 -> 1: only carrying on to node 1: 20 + (1-f) 10
+    np.testing.assert_allclose(p.minutes, 20 + 10 * (1 - p.x / 1000.0))
+    assert (p.via_node == 1).all()
+    # from-hub on the one-way edge: only arriving from node 0: cost[0] + f 10
+    p = entry_points(one, np.array([5.0, 20.0]), 100.0, "from-hub")
+    np.testing.assert_allclose(p.minutes, 5 + 10 * p.x / 1000.0)
+    # unreachable nodes (inf from routing, or NaN) give no cost
+    p = entry_points(net, np.array([np.inf, np.nan]), 100.0, "to-hub")
+    assert np.isnan(p.minutes).all() and (p.via_node == -1).all()
+
+
+def _mixed_network():
+    #  0 --road-- 1 --rail-- 2 (station) --rail-- 3 (junction, no entry) --cable-- 4 (access)
+    #  1 --transfer-- 5
+    xy = [(0, 0), (1000, 0), (1000, 1000), (2000, 1000), (3000, 1000), (1000, -500)]
+    edges = [(0, 1), (1, 2), (2, 3), (3, 4), (1, 5)]
+    mode = ["road", "rail", "rail", "cable", "transfer"]
+    minutes = [10.0, 3.0, 3.0, np.nan, 1.0]
+    entry = [True, True, True, False, True, True]
+    return net_from_edges(xy, edges, minutes=minutes, mode=mode, entry=entry)
+
+
+def test_entry_points_modes():
+    net = _mixed_network()
+    p = entry_points(net, np.zeros(6), 250.0)
+    assert set(p.edge[p.edge >= 0]) == {0}                      # only the road edge is sampled
+    stations = p.via_node[p.edge == -1]
+    assert sorted(stations.tolist()) == [1, 2]                  # entry nodes on rail; 3 is no entry
+    on_cable = (p.x > 2000 + 1e-9)
+    assert not on_cable.any()                                   # never along a cable
+    assert cable_access_nodes(net).tolist() == [4]
+
+
+def test_cable_connection_distance():
+    net = _mixed_network()
+    g = grid(12, 9, cell_m=500.0, x0=-1000, y1=3000)
+    d = cable_connection_m(net, g, chunk_rows=4)
+    x, y = g.cell_centres()
+    np.testing.assert_allclose(d, np.hypot(x[None, :] - 3000, y[:, None] - 1000), rtol=1e-12)
+    road_only = net_from_edges([(0, 0), (1, 1)], [(0, 1)])
+    with pytest.raises(InputError, match="no cable access node"):
+        cable_connection_m(road_only, g)
+
+
+def test_seed_raster_keeps_cheapest():
+    net = net_from_edges([(10, 50), (90, 50)], [(0, 1)], minutes=[8.0])
+    g = grid(1, 1)
+    s = seed_raster(entry_points(net, np.array([3.0, 1.0]), 10.0), g)
+    assert s.minutes[0, 0] == 1.0 and s.via_node[0, 0] == 1
+
+
+def test_hand_worked_one_hub():
+    # Grid 10 x 3 of 100 m cells; a two-way road along the middle row from node 0 (50, 150) to node 1
+    # (950, 150), 4.5 minutes long; the hub is node 0 (cost 0; node 1 costs 4.5). Walking 6 km/h on the
+    # flat = 1 minute per 100 m.
+    # Samples every 50 m at x = 50, 100, ..., 950 cost min(4.5 + (1-f) 4.5, 0 + f 4.5) = (x - 50) / 200.
+    # Middle row: cell c holds x = 100c (c >= 1) and 100c + 50, so seed = 0.5c - 0.25 (cell 0: 0).
+    # Neighbouring seeds differ by <= 0.5 min < 1 min of walking, so the middle row is its seeds.
+    # Outer rows: straight over, seed(c) + 1, or diagonal from c - 1, seed(c-1) + sqrt 2:
+    #   c = 0: 1;  c = 1: min(0.25 + 1, 0 + 1.414) = 1.25;  c >= 2: seed(c) + 1 = seed(c-1) + 1.5 > seed(c-1)
+    #   + 1.414, so 0.5(c-1) - 0.25 + sqrt 2.
+    g = grid(10, 3)
+    net = net_from_edges([(50, 150), (950, 150)], [(0, 1)], minutes=[4.5])
+    res = compute_surface(net, np.array([0.0, 4.5]), np.array([0, 0]), g, walk_kmh=6.0)
+    c = np.arange(10)
+    mid = np.where(c == 0, 0.0, 0.5 * c - 0.25)
+    outer = np.where(c == 0, 1.0, np.where(c == 1, 1.25, 0.5 * (c - 1) - 0.25 + SQRT2))
+    np.testing.assert_allclose(res.minutes[1], mid, atol=1e-12)
+    np.testing.assert_allclose(res.minutes[0], outer, atol=1e-12)
+    np.testing.assert_allclose(res.minutes[2], outer, atol=1e-12)
+    assert (res.nearest_hub == 1).all() and (res.entry_node == 0).all()
+    assert res.seed_cells == 10 and res.clipped_slopes == 0
+
+
+def test_hand_worked_two_hubs():
+    # Same road, hubs at both ends (node 0 = hub 1, node 1 = hub 2, both cost 0). A sample at x costs
+    # min((x - 50)/200 via node 0, (950 - x)/200 via node 1). Cells 0..4 reach hub 1 (cell 4: 1.75 < 2.5),
+    # cells 5..9 hub 2 (cell 5: 2.25 > 2.0). Cell 9 holds x = 950: 0 minutes.
+    g = grid(10, 3)
+    net = net_from_edges([(50, 150), (950, 150)], [(0, 1)], minutes=[4.5])
+    res = compute_surface(net, np.array([0.0, 0.0]), np.array([0, 1]), g, walk_kmh=6.0)
+    assert res.nearest_hub[1].tolist() == [1] * 5 + [2] * 5
+    c = np.arange(10)
+    expect = np.minimum(np.where(c == 0, 0.0, 0.5 * c - 0.25), 4.5 - 0.5 * c)
+    np.testing.assert_allclose(res.minutes[1], expect, atol=1e-12)
+    assert res.entry_node[1].tolist() == [0] * 5 + [1] * 5
+
+
+def test_surface_with_terrain_and_barrier_matches_reference():
+    rng = np.random.default_rng(11)
+    g = grid(14, 12, cell_m=50.0)
+    xy = rng.uniform(0, 600, (6, 2))
+    net = net_from_edges(xy, [(0, 1), (1, 2), (2, 3), (4, 5)], minutes=[3.0, 2.0, 4.0, 1.0])
+    node_cost = np.array([0.0, 3.0, 5.0, 9.0, np.inf, np.inf])
+    z = rng.normal(0, 40, g.shape).cumsum(axis=0)
+    wall = shapely.box(0, 290, 400, 310)
+    res = compute_surface(net, node_cost, np.array([0, 0, 0, 0, -1, -1]), g, walk_kmh=4.0, terrain=z,
+                          barriers=[wall], direction="from-hub")
+    seeds = seed_raster(entry_points(net, node_cost, 25.0, "from-hub"), g)
+    ref = accumulate_reference(res.flat_kmh, seeds.minutes, 50.0, elevation=z, direction="from-hub")
+    np.testing.assert_allclose(res.minutes, ref.minutes, rtol=1e-12)
+    assert res.impassable_cells > 0 and res.clipped_slopes > 0
+    assert ((res.nearest_hub == 1) == np.isfinite(res.minutes)).all()
+
+
+def test_surface_refusals():
+    g = grid(3, 3)
+    net = net_from_edges([(50, 150), (250, 150)], [(0, 1)])
+    with pytest.raises(OptionError, match="direction"):
+        compute_surface(net, np.zeros(2), np.zeros(2, int), g, direction="sideways")
+    with pytest.raises(OptionError, match="node_hub"):
+        compute_surface(net, np.zeros(2), np.zeros(3, int), g)
+    with pytest.raises(OptionError, match="terrain raster has shape"):
+        compute_surface(net, np.zeros(2), np.zeros(2, int), g, terrain=np.zeros((2, 2)))
+    from geo_reach.ingest.rasters import Grid
+    other = Grid(g.transform, 3, 3, CRS.from_epsg(32632), 100.0)
+    with pytest.raises(CRSError, match="differs"):
+        compute_surface(net, np.zeros(2), np.zeros(2, int), other)
