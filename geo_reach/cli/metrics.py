@@ -1,0 +1,115 @@
+"""``geo-reach metrics``: how well the network holds together (components, diameter, mean path, efficiency)."""
+
+from __future__ import annotations
+
+import sys
+
+import numpy as np
+
+from ._routing import add_weight, dump_json, load_network, note, report_excluded
+
+
+def register(sub):
+    p = sub.add_parser("metrics", help="diameter, mean path, efficiency and components of a network",
+                       description="Network figures on one weight: components, exact diameter of the largest "
+                                   "strongly connected component, mean path (exact or sampled), global "
+                                   "efficiency; with -o per-node eccentricity and closeness and the diameter "
+                                   "path. Figures are model estimates; local surveys decide.")
+    p.add_argument("network", metavar="NETWORK.gpkg", help="network GeoPackage from geo-reach build")
+    add_weight(p)
+    p.add_argument("--json", action="store_true", help="print the figures as JSON")
+    p.add_argument("--exact", action="store_true",
+                   help="exact mean path and efficiency even above 5,000 nodes (one search per node)")
+    p.add_argument("--samples", type=int, default=200, metavar="K",
+                   help="random sources for the estimates above 5,000 nodes (default 200)")
+    p.add_argument("--seed", type=int, default=0, help="seed of the source sample (default 0)")
+    p.add_argument("-o", "--output", metavar="NODES.gpkg",
+                   help="write layers nodes (eccentricity, closeness) and diameter_path (one search per node)")
+    p.add_argument("--overwrite", action="store_true", help="replace an existing output")
+    p.set_defaults(func=run)
+
+
+def run(args):
+    from .. import CAUTION
+    from ..analysis import metrics as M
+    from ..errors import OptionError
+    from ..export.atomic import check_output
+
+    if args.samples < 2:
+        raise OptionError(f"--samples {args.samples}: give 2 or more sources")
+    if args.output:
+        check_output(args.output, args.overwrite)
+    net = load_network(args.network, args.weight)
+    excluded = report_excluded(net, args.weight)
+    cc = M.component_counts(net, args.weight)
+    dia = M.diameter(net, args.weight)
+    mp = M.mean_path(net, args.weight, exact=True if args.exact else None, samples=args.samples, seed=args.seed)
+    ecc = clo = None
+    eff_exact = args.exact or net.n_nodes <= M.EXACT_MAX_NODES or args.samples >= net.n_nodes
+    if args.output:
+        ecc, clo = M.node_centrality(net, args.weight)
+        eff, eff_exact = (float(clo.mean()) if net.n_nodes > 1 else 0.0), True
+    elif eff_exact:
+        eff = M.global_efficiency(net, args.weight)
+    else:
+        eff = M.estimate_global_efficiency(net, args.weight, samples=args.samples, seed=args.seed)
+    if not np.isfinite(eff):
+        note("global efficiency is undefined: some distinct nodes are joined at zero cost on this weight "
+             "(written as null)")
+    out = {
+        "nodes": net.n_nodes,
+        "edges": net.n_edges,
+        "components": cc.components,
+        "largest_component_nodes": cc.largest_component_nodes,
+        "largest_strong_component_nodes": cc.largest_strong_component_nodes,
+        "diameter": {"value": dia.value, "from_node": dia.from_node, "to_node": dia.to_node,
+                     "sssp_runs": dia.sssp_runs},
+        "mean_path": {"value": mp.value, "ci95_low": mp.ci95_low, "ci95_high": mp.ci95_high,
+                      "exact": mp.exact, "sources": mp.sources},
+        "global_efficiency": eff,
+        "global_efficiency_exact": bool(eff_exact),
+        "weight": args.weight,
+        "excluded_edges": excluded,
+        "caution": CAUTION,
+    }
+    if args.output:
+        _write(args, net, dia, ecc, clo)
+    if args.json:
+        sys.stdout.write(dump_json(out) + "\n")
+    else:
+        u = args.weight
+        print(f"nodes {net.n_nodes}, edges {net.n_edges}, components {cc.components} "
+              f"(largest {cc.largest_component_nodes} nodes; largest strongly connected "
+              f"{cc.largest_strong_component_nodes})")
+        print(f"diameter {dia.value:.6g} {u} from node {dia.from_node} to node {dia.to_node} "
+              f"({dia.sssp_runs} single-source runs)")
+        print(f"mean path {mp.value:.6g} {u} " + ("(exact)" if mp.exact else
+              f"(95% CI {mp.ci95_low:.6g}-{mp.ci95_high:.6g}, {mp.sources} sources)"))
+        print(f"global efficiency {eff:.6g} per {u}" + ("" if eff_exact else " (estimated)"))
+        print(CAUTION)
+    return 0
+
+
+def _write(args, net, dia, ecc, clo):
+    import geopandas as gpd
+    import pandas as pd
+
+    from .. import CAUTION
+    from ..analysis.routing import shortest_path
+    from ..export.gpkg import write_layers
+
+    nodes = net.nodes_frame()[["node_id", "geometry"]].copy()
+    nodes["eccentricity"] = ecc
+    nodes["closeness"] = np.where(np.isfinite(clo), clo, np.nan)
+    layers = {"nodes": nodes}
+    if dia.from_node >= 0 and dia.from_node != dia.to_node:
+        r = shortest_path(net, dia.from_node, dia.to_node, args.weight)
+        layers["diameter_path"] = gpd.GeoDataFrame(
+            pd.DataFrame({"from_node": [dia.from_node], "to_node": [dia.to_node], "cost": [r.cost],
+                          "weight": [args.weight], "length_m": [r.length_m], "edges": [len(r.edges)]}),
+            geometry=[r.geometry], crs=net.crs)
+    write_layers(args.output, layers, overwrite=args.overwrite,
+                 descriptions={"nodes": f"eccentricity ({args.weight}) and harmonic closeness "
+                                        f"(per {args.weight}) of trips from each node. {CAUTION}",
+                               "diameter_path": f"one least-cost path realising the diameter. {CAUTION}"})
+    note(f"metrics: per-node figures -> {args.output}")

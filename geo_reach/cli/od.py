@@ -1,0 +1,101 @@
+"""``geo-reach od``: least costs between every origin and every destination (or the K nearest)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import OptionError
+from ._routing import add_access, add_weight, load_network, note, read_points, report_excluded, report_left_out
+
+
+def register(sub):
+    p = sub.add_parser("od", help="origin-destination costs between two point layers",
+                       description="Least cost and its length from every origin to every destination (or to "
+                                   "the K cheapest), as layer od_pairs (straight connecting lines) and CSV. "
+                                   "Results are model estimates; local surveys decide.")
+    p.add_argument("network", metavar="NETWORK.gpkg", help="network GeoPackage from geo-reach build")
+    p.add_argument("--origins", required=True, metavar="LAYER", help="origin points: path or path:layername")
+    p.add_argument("--destinations", required=True, metavar="LAYER", help="destination points")
+    p.add_argument("--origin-id-field", metavar="F", help="field with unique origin ids (default: row number from 1)")
+    p.add_argument("--destination-id-field", metavar="F",
+                   help="field with unique destination ids (default: row number from 1)")
+    p.add_argument("--nearest", type=int, metavar="K", help="keep only the K cheapest destinations per origin")
+    add_weight(p)
+    add_access(p)
+    p.add_argument("-o", "--output", required=True, metavar="OUT.gpkg", help="output GeoPackage")
+    p.add_argument("--csv", metavar="FILE.csv", help="also write the pairs as CSV")
+    p.add_argument("--overwrite", action="store_true", help="replace existing outputs")
+    p.set_defaults(func=run)
+
+
+def run(args):
+    import geopandas as gpd
+    import pandas as pd
+    import shapely
+
+    from .. import CAUTION
+    from ..analysis.attach import attach_points
+    from ..analysis.routing import od_matrix
+    from ..export.atomic import atomic_path, check_output
+    from ..export.gpkg import write_layers
+
+    if args.nearest is not None and args.nearest < 1:
+        raise OptionError(f"--nearest {args.nearest}: give 1 or more")
+    check_output(args.output, args.overwrite)
+    if args.csv:
+        check_output(args.csv, args.overwrite, "CSV file")
+    net = load_network(args.network, args.weight)
+    report_excluded(net, args.weight)
+    o = read_points(args.origins, net, id_field=args.origin_id_field, what="origins",
+                    id_option="--origin-id-field")
+    d = read_points(args.destinations, net, id_field=args.destination_id_field, what="destinations",
+                    id_option="--destination-id-field")
+    kw = dict(max_access_m=args.max_access_m, walk_kmh=args.walk_kmh)
+    oa = attach_points(net, o.xy, args.weight, **kw)
+    da = attach_points(net, d.xy, args.weight, **kw)
+    report_left_out(oa, o.ids, "origins", args.max_access_m)
+    report_left_out(da, d.ids, "destinations", args.max_access_m)
+    oi = np.nonzero(oa.attached)[0]
+    di = np.nonzero(da.attached)[0]
+    od = od_matrix(net, oa.subset(oi), da.subset(di), args.weight)
+    cost, length = od.cost, od.length_m
+    rows_o, rows_d, rank = [], [], []
+    for a in range(len(oi)):
+        if args.nearest is not None:
+            fin = np.nonzero(np.isfinite(cost[a]))[0]
+            order = fin[np.lexsort((length[a, fin], cost[a, fin]))][: args.nearest]
+            rows_o.append(np.full(len(order), a))
+            rows_d.append(order)
+            rank.append(np.arange(1, len(order) + 1))
+        else:
+            rows_o.append(np.full(len(di), a))
+            rows_d.append(np.arange(len(di)))
+    ro = np.concatenate(rows_o) if rows_o else np.zeros(0, np.int64)
+    rd = np.concatenate(rows_d) if rows_d else np.zeros(0, np.int64)
+    c = cost[ro, rd] if len(ro) else np.zeros(0)
+    ln = length[ro, rd] if len(ro) else np.zeros(0)
+    data = {
+        "origin_id": o.ids[oi][ro] if len(ro) else np.zeros(0, object),
+        "destination_id": d.ids[di][rd] if len(ro) else np.zeros(0, object),
+        "cost": np.where(np.isfinite(c), c, np.nan),
+        "length_m": np.where(np.isfinite(c), ln, np.nan),
+        "weight": np.full(len(ro), args.weight, dtype=object),
+    }
+    if args.nearest is not None:
+        data["rank"] = np.concatenate(rank) if rank else np.zeros(0, np.int64)
+    frame = pd.DataFrame(data)
+    for col, ids in (("origin_id", o.ids), ("destination_id", d.ids)):
+        if all(isinstance(v, (int, np.integer)) for v in ids):
+            frame[col] = frame[col].astype(np.int64)
+    lines = shapely.linestrings(np.stack([o.xy[oi][ro], d.xy[di][rd]], axis=1)) if len(ro) else []
+    layer = gpd.GeoDataFrame(frame, geometry=np.asarray(lines, dtype=object), crs=net.crs)
+    write_layers(args.output, {"od_pairs": layer}, overwrite=args.overwrite,
+                 descriptions={"od_pairs": f"least {args.weight} between origins and destinations. {CAUTION}"})
+    if args.csv:
+        with atomic_path(args.csv, suffix=".csv") as tmp:
+            frame.to_csv(tmp, index=False)
+    none = int((~np.isfinite(c)).sum())
+    note(f"od: {len(frame)} pairs ({len(oi)} origins x {'K nearest' if args.nearest else len(di)} destinations), "
+         f"{none} without a path -> {args.output}{' and ' + args.csv if args.csv else ''}")
+    note(CAUTION)
+    return 0

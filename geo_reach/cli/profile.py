@@ -1,0 +1,80 @@
+"""``geo-reach profile``: nodes and network length within each cost step from a source, and the growth class."""
+
+from __future__ import annotations
+
+import sys
+
+import numpy as np
+
+from ..errors import OptionError
+from ._routing import add_weight, dump_json, load_network, note, report_excluded
+
+
+def register(sub):
+    p = sub.add_parser("profile", help="reach profile: what lies within each cost step of a source",
+                       description="How many nodes (the source itself not counted) and how much network length "
+                                   "lie within each cost step from a source, with a fitted growth class "
+                                   "(linear, polynomial with exponent, exponential with rate). "
+                                   "Figures are model estimates; local surveys decide.")
+    p.add_argument("network", metavar="NETWORK.gpkg", help="network GeoPackage from geo-reach build")
+    p.add_argument("--from", dest="source", type=int, metavar="NODE_ID", help="source node id (layer nodes)")
+    p.add_argument("--sample", type=int, metavar="K",
+                   help="average the profile over K random sources instead of one --from node")
+    p.add_argument("--seed", type=int, default=0, help="seed of the --sample sources (default 0)")
+    s = p.add_mutually_exclusive_group()
+    s.add_argument("--steps", type=int, metavar="N",
+                   help="N equal steps up to the source's eccentricity (default 20; 1-link steps for hops)")
+    s.add_argument("--step", type=float, metavar="COST", help="fixed step in the weight's unit")
+    add_weight(p)
+    p.add_argument("--json", action="store_true", help="print the profile as JSON")
+    p.add_argument("--png", metavar="FILE.png", help="write a chart")
+    p.add_argument("--overwrite", action="store_true", help="replace an existing chart")
+    p.set_defaults(func=run)
+
+
+def run(args):
+    from .. import CAUTION
+    from ..analysis.profile import plot_profile, random_sources, sample_profile
+    from ..analysis.routing import check_nodes
+    from ..export.atomic import check_output
+
+    if (args.source is None) == (args.sample is None):
+        raise OptionError("give a source node with --from NODE_ID, or --sample K for K random sources")
+    if args.png:
+        check_output(args.png, args.overwrite, "chart")
+    net = load_network(args.network, args.weight)
+    report_excluded(net, args.weight)
+    if args.source is not None:
+        try:
+            sources = check_nodes(net, [args.source])
+        except Exception as err:
+            raise type(err)(f"--from: {err}") from err
+    else:
+        sources = random_sources(net, args.sample, args.seed)
+    prof = sample_profile(net, sources, args.weight, steps=args.steps, step=args.step)
+    g = prof.growth
+    out = {
+        "source": int(sources[0]) if args.source is not None else None,
+        "sources": len(sources),
+        "weight": args.weight,
+        "counts_source": False,
+        "reachable_nodes": prof.reachable_nodes,
+        "steps": [{"cost": float(c), "nodes": float(n) if args.sample else int(n), "length_m": float(m)}
+                  for c, n, m in zip(prof.cost, prof.nodes, prof.length_m)],
+        "growth": {"class": g.kind, "exponent": g.exponent, "rate": g.rate, "points": g.points},
+        "caution": CAUTION,
+    }
+    if args.png:
+        plot_profile(prof, args.png)
+        note(f"profile chart -> {args.png}")
+    if args.json:
+        sys.stdout.write(dump_json(out) + "\n")
+    else:
+        print(f"{'cost (' + args.weight + ')':>20} {'nodes':>12} {'length_km':>12}")
+        for c, n, m in zip(prof.cost, prof.nodes, prof.length_m):
+            print(f"{c:20.6g} {n:12.6g} {m / 1000:12.3f}")
+        detail = (f"exponent {g.exponent:.3f}" if g.exponent is not None else
+                  f"rate {g.rate:.4g} per {args.weight}" if g.rate is not None else "too few steps to fit")
+        print(f"growth: {g.kind} ({detail}; fitted on {g.points} steps)")
+        print(CAUTION)
+    return 0

@@ -1,0 +1,107 @@
+"""``geo-reach route``: the least-cost trip between two points, as GeoJSON."""
+
+from __future__ import annotations
+
+import sys
+
+import numpy as np
+
+from ..errors import InputError, OptionError
+from ._routing import add_access, add_weight, dump_json, load_network, note, report_excluded
+
+
+def register(sub):
+    p = sub.add_parser("route", help="least-cost trip between two points (GeoJSON)",
+                       description="The least-cost trip between two points: cost, length and the path as a "
+                                   "GeoJSON Feature (RFC 7946, longitude/latitude) on stdout or in a file. "
+                                   "Results are model estimates; local surveys decide.")
+    p.add_argument("network", metavar="NETWORK.gpkg", help="network GeoPackage from geo-reach build")
+    p.add_argument("--from", dest="origin", required=True, metavar="X,Y", type=_xy, help="start point")
+    p.add_argument("--to", dest="destination", required=True, metavar="X,Y", type=_xy, help="end point")
+    p.add_argument("--crs", metavar="EPSG:NNNN",
+                   help="CRS of the coordinates (default: longitude,latitude in EPSG:4326)")
+    add_weight(p)
+    add_access(p)
+    p.add_argument("-o", "--output", metavar="ROUTE.geojson", help="write the GeoJSON here instead of stdout")
+    p.add_argument("--overwrite", action="store_true", help="replace an existing output")
+    p.set_defaults(func=run)
+
+
+def _xy(text):
+    import argparse
+
+    parts = text.split(",")
+    try:
+        if len(parts) != 2:
+            raise ValueError
+        x, y = float(parts[0]), float(parts[1])
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not X,Y (two numbers separated by a comma)") from None
+    if not (np.isfinite(x) and np.isfinite(y)):
+        raise argparse.ArgumentTypeError(f"'{text}' is not a finite X,Y")
+    return x, y
+
+
+def run(args):
+    import shapely
+    from pyproj import CRS, Transformer
+    from pyproj.exceptions import CRSError as ProjCRSError
+
+    from .. import CAUTION
+    from ..analysis.attach import attach_points
+    from ..analysis.routing import shortest_path
+    from ..errors import CRSError
+    from ..export.atomic import atomic_path, check_output
+
+    if args.output:
+        check_output(args.output, args.overwrite)
+    try:
+        src = CRS.from_user_input(args.crs) if args.crs else CRS.from_epsg(4326)
+    except ProjCRSError as err:
+        raise CRSError(f"--crs {args.crs}: not a CRS pyproj knows ({err}); give e.g. EPSG:32633") from err
+    net = load_network(args.network, args.weight)
+    report_excluded(net, args.weight)
+    if src.is_geographic:
+        for (lon, lat), opt in ((args.origin, "--from"), (args.destination, "--to")):
+            if not (-180 <= lon <= 180 and -90 <= lat <= 90):
+                raise OptionError(f"{opt} {lon},{lat}: not a longitude,latitude; give --crs for projected "
+                                  "coordinates")
+    to_net = Transformer.from_crs(src, net.crs, always_xy=True)
+    xy = np.array(to_net.transform(*np.array([args.origin, args.destination]).T)).T
+    att = attach_points(net, xy, args.weight, max_access_m=args.max_access_m, walk_kmh=args.walk_kmh)
+    for i, opt in enumerate(("--from", "--to")):
+        if not att.attached[i]:
+            pt = (args.origin, args.destination)[i]
+            far = (f"{att.access_m[i]:,.0f} m from the nearest place to join the network"
+                   if np.isfinite(att.access_m[i]) else "where no network edge can be joined")
+            raise InputError(f"{opt} {pt[0]},{pt[1]}: the point is {far}, beyond --max-access-m "
+                             f"{args.max_access_m:g}; check the coordinates (X,Y order, --crs) or raise --max-access-m")
+    r = shortest_path(net, att.subset([0]), att.subset([1]), args.weight)
+    props = {
+        "weight": args.weight,
+        "cost": r.cost,
+        "length_m": r.length_m,
+        "access_m": r.access_m,
+        "edge_ids": r.edges.tolist(),
+        "reachable": r.found,
+        "caution": CAUTION,
+    }
+    geom = None
+    if r.found:
+        to_ll = Transformer.from_crs(net.crs, CRS.from_epsg(4326), always_xy=True)
+        c = shapely.get_coordinates(r.geometry)
+        lon, lat = to_ll.transform(c[:, 0], c[:, 1])
+        geom = {"type": "LineString", "coordinates": np.round(np.column_stack([lon, lat]), 7).tolist()}
+    else:
+        note("the two points are in parts of the network that no trip joins on this weight "
+             "(cost and geometry null)")
+    feature = {"type": "Feature", "geometry": geom, "properties": props}
+    text = dump_json(feature)
+    if args.output:
+        with atomic_path(args.output) as tmp:
+            tmp.write_text(text + "\n")
+        note(f"route: {args.weight} {r.cost:.6g}, {r.length_m / 1000:.3f} km -> {args.output}" if r.found
+             else f"route: no path -> {args.output}")
+    else:
+        sys.stdout.write(text + "\n")
+    return 0
