@@ -231,9 +231,9 @@ class _Issues:
         df = pd.DataFrame(self.rows, columns=["kind", "x", "y", "detail", "src_layer", "src_fid"])
         has = df["x"].notna().to_numpy()
         df = df[has].reset_index(drop=True)
-        order = np.lexsort((df["y"].to_numpy(), df["x"].to_numpy(), df["kind"].to_numpy()))
+        order = np.lexsort((df["y"].to_numpy(float), df["x"].to_numpy(float), df["kind"].to_numpy(str)))
         df = df.iloc[order].reset_index(drop=True)
-        geom = shapely.points(df["x"].to_numpy(), df["y"].to_numpy())
+        geom = shapely.points(df["x"].to_numpy(float), df["y"].to_numpy(float))
         return gpd.GeoDataFrame(df.drop(columns=["x", "y"]), geometry=geom, crs=crs)
 
 
@@ -635,6 +635,9 @@ class _Topology:
         self.node_row[self.last] = True
         self.new_line, self.new_pos, self.new_x, self.new_y = [], [], [], []
         self.deleted = np.zeros(len(xy), bool)
+        self.trim_start = np.full(self.nlines, np.nan)
+        self.trim_end = np.full(self.nlines, np.nan)
+        self.end_free = np.ones(2 * self.nlines, bool)
 
     # ----------------------------------------------------------------
     def _add_new(self, line, pos, x, y):
@@ -661,17 +664,6 @@ class _Topology:
         # New vertices
         nw = ev_new
         self._add_new(sl[ev_seg[nw]], (seg[ev_seg[nw]] - self.first[sl[ev_seg[nw]]]) + ev_t[nw], ev_x[nw], ev_y[nw])
-        # Report crossings that needed a new vertex: one spot per location.
-        if nw.any():
-            pts = np.unique(np.round(np.column_stack([ev_x[nw], ev_y[nw]]) / NOISE_M).astype(np.int64), axis=0)
-            lines_at = {}
-            for ln, x, y in zip(sl[ev_seg[nw]], ev_x[nw], ev_y[nw]):
-                lines_at.setdefault((round(x / NOISE_M), round(y / NOISE_M)), []).append(ln)
-            for (ix, iy), lns in lines_at.items():
-                lab, fid = self._line_label(lns[0])
-                self.issues.add("crossing_split", ix * NOISE_M, iy * NOISE_M,
-                                f"lines crossing with no shared vertex were split ({len(set(lns))} line(s) cut)", lab, fid)
-            del pts
         # Kept crossings (different levels), one per location.
         if len(kx):
             seen = set()
@@ -685,9 +677,28 @@ class _Topology:
                 self.issues.add("crossing_kept", x, y,
                                 f"crossing kept unjoined: level {self.level[sl[a]]:g} over/under level {self.level[sl[b]]:g} "
                                 f"(feature {fid2} of {lab2})", lab, fid)
+        self.n_crossing_events = sum(len(a) for a in self.new_line)
         self._trim_overshoots()
         self._join_ends()
+        self._report_crossings()
         self._attach_access(specs, frames)
+
+    def _report_crossings(self):
+        """One ``crossing_split`` spot per place where a crossing needed a new vertex."""
+        k = self.n_crossing_events
+        if k == 0:
+            return
+        line = np.concatenate(self.new_line)[:k]
+        x = np.concatenate(self.new_x)[:k]
+        y = np.concatenate(self.new_y)[:k]
+        alive = np.concatenate(self.new_alive)[:k] if hasattr(self, "new_alive") else np.ones(k, bool)
+        lines_at = {}
+        for ln, xx, yy in zip(line[alive], x[alive], y[alive]):
+            lines_at.setdefault((round(xx / NOISE_M), round(yy / NOISE_M)), []).append(ln)
+        for (ix, iy), lns in lines_at.items():
+            lab, fid = self._line_label(lns[0])
+            self.issues.add("crossing_split", ix * NOISE_M, iy * NOISE_M,
+                            f"lines crossing with no shared vertex were split ({len(set(lns))} line(s) cut)", lab, fid)
 
     # ----------------------------------------------------------------
     def _line_nodes_positions(self):
@@ -768,6 +779,36 @@ class _Topology:
                                     f"overshoot of {dist[ln]:.2f} m past a junction trimmed", lab, fid)
         self.end_free = np.concatenate([np.isnan(self.trim_start), np.isnan(self.trim_end)])
 
+    def _drop_overshoot_crossings(self, ends, eline, exy, snap):
+        k = self.n_crossing_events
+        if k == 0 or len(ends) == 0:
+            return
+        line = np.concatenate(self.new_line)[:k]
+        ex = np.concatenate(self.new_x)[:k]
+        ey = np.concatenate(self.new_y)[:k]
+        bad = np.zeros(k, bool)
+        order = np.argsort(line, kind="stable")
+        sl = line[order]
+        for e in ends:
+            ln = eline[e]
+            lo, hi = np.searchsorted(sl, ln), np.searchsorted(sl, ln, side="right")
+            idx = order[lo:hi]
+            near = idx[np.hypot(ex[idx] - exy[e, 0], ey[idx] - exy[e, 1]) < snap]
+            bad[near] = True
+        if not bad.any():
+            return
+        keys = set(zip(np.round(ex[bad] / NOISE_M).astype(np.int64), np.round(ey[bad] / NOISE_M).astype(np.int64)))
+        kx, ky = np.round(ex / NOISE_M).astype(np.int64), np.round(ey / NOISE_M).astype(np.int64)
+        drop = np.array([(a, b) in keys for a, b in zip(kx, ky)])
+        self.new_alive = [~drop]
+        # collapse the event lists to the survivors (they are only ever read concatenated)
+        self.new_line = [line[~drop]]
+        self.new_pos = [np.concatenate(self.new_pos)[:k][~drop]]
+        self.new_x = [ex[~drop]]
+        self.new_y = [ey[~drop]]
+        self.n_crossing_events = int((~drop).sum())
+        self.new_alive = [np.ones(self.n_crossing_events, bool)]
+
     def _end_rows(self):
         return np.concatenate([self.first, self.last])
 
@@ -810,6 +851,9 @@ class _Topology:
                         labl, fid = self._line_label(l0)
                         self.issues.add("gap_joined", target[0], target[1],
                                         f"gap of {span:.2f} m between {len(mem)} line ends joined", labl, fid)
+        # A joined end that overshot its junction also crossed a line there: that crossing is an
+        # artefact of the overshoot, so its new vertices are dropped (on both lines).
+        self._drop_overshoot_crossings(np.nonzero(joined_any)[0], eline, exy, snap)
         # 2) dead ends onto another line's interior (T-junction)
         dead = np.nonzero(active & ~joined_any)[0]
         self.t_snapped = np.zeros(2 * nl, bool)
