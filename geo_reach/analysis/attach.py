@@ -294,9 +294,16 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
 
     # --- nearest road edges (all of those tied at the nearest distance)
     if p and places["tree"] is not None:
-        (qi, ti), walk = places["tree"].query_nearest(pts, return_distance=True, all_matches=True)
-        qi = qi.astype(np.int64)
+        # the nearest distance, then every edge within TIE_M of it (parallel edges and edges drawn
+        # in the other direction give the same distance up to rounding)
+        (qi, _), dmin = places["tree"].query_nearest(pts, return_distance=True, all_matches=False)
+        near = np.full(p, np.inf)
+        near[qi] = dmin
+        ok = near <= max_access_m
+        qi, ti = places["tree"].query(pts[ok], predicate="dwithin", distance=near[ok] + TIE_M)
+        qi = np.nonzero(ok)[0][qi].astype(np.int64)
         edges = places["along"][ti]
+        walk = shapely.distance(pts[qi], network.edge_geometry[edges])
         frac = shapely.line_locate_point(network.edge_geometry[edges], pts[qi], normalized=True)
         frac = np.clip(np.nan_to_num(frac, nan=0.0), 0.0, 1.0)
     else:

@@ -1,0 +1,317 @@
+"""Routing core against independent references.
+
+References used here:
+* networkx (Hagberg, Schult & Swart 2008, "Exploring network structure,
+  dynamics, and function using NetworkX", SciPy 2008): its pure-Python
+  Dijkstra (``single_source_dijkstra_path_length``,
+  ``multi_source_dijkstra_path_length``) is the oracle for costs; costs
+  are compared, not paths, since ties are legitimate.
+* A slow, obvious reference for off-network points: each point is inserted
+  as a real node by splitting its nearest edge (found by brute force over
+  every edge) and joined by an access arc, then networkx is run.  This is
+  the textbook way to add a point to a network (common practice), so it
+  checks the virtual-node attachment independently.
+* Hand-computed values on tiny networks (written beside each check).
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import networkx as nx
+import numpy as np
+import pytest
+import shapely
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+sys.path.insert(0, str(Path(__file__).parent))
+from helpers.routing_nets import grid, make_network, random_network, to_networkx  # noqa: E402
+
+from geo_reach.analysis.attach import attach_points, walk_cost  # noqa: E402
+from geo_reach.analysis.routing import (nearest_hub, od_matrix, one_to_all,  # noqa: E402
+                                        shortest_path, excluded_edges)
+from geo_reach.errors import InputError, OptionError  # noqa: E402
+
+RTOL = 1e-9
+SETTINGS = settings(max_examples=50, deadline=None)
+
+
+def nx_lengths(g, source):
+    out = np.full(g.number_of_nodes(), np.inf)
+    for k, v in nx.single_source_dijkstra_path_length(g, source, weight="w").items():
+        out[k] = v
+    return out
+
+
+# ---------------------------------------------------------------- one-to-all / many-to-nearest
+@SETTINGS
+@given(seed=st.integers(0, 2**32 - 1), n=st.integers(2, 40), weight=st.sampled_from(["minutes", "hops", "latency_ms"]))
+def test_one_to_all_matches_networkx(seed, n, weight):
+    rng = np.random.default_rng(seed)
+    net = random_network(rng, n, int(rng.integers(1, 4 * n)), nan_prob=0.1)
+    g = to_networkx(net, weight)
+    src = np.arange(min(n, 5))
+    got = one_to_all(net, src, weight)
+    for i, s in enumerate(src):
+        np.testing.assert_allclose(got[i], nx_lengths(g, int(s)), rtol=RTOL)
+    # reverse: trips *to* the source equal networkx on the reversed graph
+    back = one_to_all(net, 0, weight, reverse=True)
+    np.testing.assert_allclose(back, nx_lengths(g.reverse(copy=True), 0), rtol=RTOL)
+
+
+@SETTINGS
+@given(seed=st.integers(0, 2**32 - 1), n=st.integers(2, 40), direction=st.sampled_from(["to-hub", "from-hub"]))
+def test_nearest_hub_matches_networkx_multi_source(seed, n, direction):
+    rng = np.random.default_rng(seed)
+    net = random_network(rng, n, int(rng.integers(1, 4 * n)))
+    g = to_networkx(net, "minutes")
+    hubs = rng.choice(n, size=int(rng.integers(1, min(n, 6) + 1)), replace=True)
+    ref_g = g.reverse(copy=True) if direction == "to-hub" else g
+    ref = np.full(n, np.inf)
+    for k, v in nx.multi_source_dijkstra_path_length(ref_g, set(int(h) for h in hubs), weight="w").items():
+        ref[k] = v
+    cost, hub = nearest_hub(net, hubs, "minutes", direction)
+    np.testing.assert_allclose(cost, ref, rtol=RTOL)
+    assert np.all((hub >= 0) == np.isfinite(ref))
+    # the hub named is one at that cost (ties legitimate)
+    for v in np.nonzero(hub >= 0)[0][:10]:
+        h = int(hubs[hub[v]])
+        d = nx.dijkstra_path_length(g, v, h, weight="w") if direction == "to-hub" else \
+            nx.dijkstra_path_length(g, h, v, weight="w")
+        assert d == pytest.approx(cost[v], rel=RTOL, abs=1e-12)
+
+
+def test_nearest_hub_hand_computed_one_way():
+    # chain 0 -> 1 -> 2 (one-way, 1 minute each), hub at node 2.
+    net = make_network([(0, 1), (1, 2)], oneway=True)
+    cost, hub = nearest_hub(net, [2], "minutes", "to-hub")
+    assert cost.tolist() == [2.0, 1.0, 0.0] and hub.tolist() == [0, 0, 0]
+    cost, hub = nearest_hub(net, [2], "minutes", "from-hub")  # nothing leaves node 2
+    assert cost.tolist() == [np.inf, np.inf, 0.0] and hub.tolist() == [-1, -1, 0]
+
+
+def test_edges_without_weight_are_left_out_and_counted():
+    # 0-1 has minutes, 1-2 is a cable without minutes: node 2 is unreachable on minutes.
+    net = make_network([(0, 1), (1, 2)], minutes=[1.0, np.nan], latency_ms=[np.nan, 3.0])
+    assert excluded_edges(net, "minutes") == 1
+    assert one_to_all(net, 0, "minutes").tolist() == [0.0, 1.0, np.inf]
+    assert one_to_all(net, 1, "latency_ms").tolist() == [np.inf, 0.0, 3.0]
+
+
+def test_bad_node_and_weight_are_refused():
+    net = make_network([(0, 1)])
+    with pytest.raises(InputError, match="node id 5 is not in the network"):
+        one_to_all(net, 5)
+    with pytest.raises(OptionError, match="unknown weight 'speed'"):
+        one_to_all(net, 0, "speed")
+    with pytest.raises(OptionError, match="unknown direction"):
+        nearest_hub(net, [0], "minutes", "both")
+
+
+def test_negative_costs_refused_by_the_model():
+    with pytest.raises(InputError, match="negative minutes"):
+        make_network([(0, 1)], minutes=[-1.0])
+
+
+# ---------------------------------------------------------------- one-to-one paths
+@SETTINGS
+@given(seed=st.integers(0, 2**32 - 1), n=st.integers(2, 30))
+def test_shortest_path_cost_and_edges_agree_with_networkx(seed, n):
+    rng = np.random.default_rng(seed)
+    net = random_network(rng, n, int(rng.integers(1, 4 * n)))
+    g = to_networkx(net, "minutes")
+    a, b = (int(x) for x in rng.integers(0, n, 2))
+    r = shortest_path(net, a, b, "minutes")
+    try:
+        ref = nx.dijkstra_path_length(g, a, b, weight="w")
+    except nx.NetworkXNoPath:
+        assert not r.found and r.geometry is None
+        return
+    assert r.cost == pytest.approx(ref, rel=RTOL, abs=1e-12)
+    # oracle: re-sum the edge costs along the returned path, and check it is a walk a -> b
+    assert net.edge_minutes[r.edges].sum() == pytest.approx(r.cost, rel=RTOL, abs=1e-12)
+    assert r.length_m == pytest.approx(net.edge_length_m[r.edges].sum(), rel=RTOL)
+    at = a
+    for e in r.edges:
+        if net.edge_from[e] == at:
+            at = net.edge_to[e]
+        else:
+            assert not net.edge_oneway[e] and net.edge_to[e] == at, "one-way edge travelled backwards"
+            at = net.edge_from[e]
+    assert at == b
+    if len(r.edges):
+        c = shapely.get_coordinates(r.geometry)
+        assert np.allclose(c[0], [net.node_x[a], net.node_y[a]]) and np.allclose(c[-1], [net.node_x[b], net.node_y[b]])
+
+
+def test_shortest_path_respects_one_way():
+    # square 0-1-2-3-0, edge 0->1 one-way: 1 -> 0 must go round (3 links).
+    net = make_network([(0, 1), (1, 2), (2, 3), (3, 0)], oneway=[True, False, False, False])
+    assert shortest_path(net, 0, 1, "hops").cost == 1.0
+    r = shortest_path(net, 1, 0, "hops")
+    assert r.cost == 3.0 and r.edges.tolist() == [1, 2, 3]
+
+
+# ---------------------------------------------------------------- off-network points
+def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs):
+    """Slow reference: split each point's nearest road edge at the projection, add the point as a node.
+
+    Nearest edge by brute force over all edges (shapely distance per edge).  Several points
+    on one edge split it in order of position.  Returns the networkx cost for each (i, j) pair.
+    """
+    c = net.cost(weight)
+    g = to_networkx(net, weight)
+    # drop the arcs of edges that will be split, re-add them in pieces
+    cuts = {}
+    pnode = {}
+    base = net.n_nodes
+    for i, (x, y) in enumerate(points_xy):
+        p = shapely.Point(x, y)
+        dist = {e: p.distance(net.edge_geometry[e]) for e in range(net.n_edges)
+                if net.edge_mode[e] == "road" and not np.isnan(c[e])}
+        if not dist or min(dist.values()) > max_access_m:
+            continue
+        near = min(dist.values())
+        pnode[i] = base + i
+        for e, d in dist.items():  # every edge tied at the nearest distance (parallel edges, junctions)
+            if d <= near + 1e-6:
+                f = net.edge_geometry[e].line_locate_point(p, normalized=True)
+                cuts.setdefault(e, []).append((f, i, d))
+    h = nx.DiGraph()
+    h.add_nodes_from(g.nodes)
+    for e in range(net.n_edges):
+        if np.isnan(c[e]) or (net.edge_from[e] == net.edge_to[e] and e not in cuts):
+            continue
+        u, v = int(net.edge_from[e]), int(net.edge_to[e])
+        if e not in cuts:
+            pieces = [(u, v, c[e])]
+        else:
+            stops = sorted(cuts[e])
+            chain = [(0.0, u)] + [(f, ("cut", e, k)) for k, (f, _, _) in enumerate(stops)] + [(1.0, v)]
+            pieces = [(a[1], b[1], (b[0] - a[0]) * c[e]) for a, b in zip(chain[:-1], chain[1:])]
+            for k, (f, i, d) in enumerate(stops):
+                w = float(walk_cost(d, weight, walk_kmh))
+                h.add_edge(pnode[i], ("cut", e, k), w=w)
+                h.add_edge(("cut", e, k), pnode[i], w=w)
+        for a, b, w in pieces:
+            # a zero-length piece joins two cuts at one place: passable both ways even if one-way
+            for s, t in ([(a, b)] if net.edge_oneway[e] and w > 0 else [(a, b), (b, a)]):
+                if not h.has_edge(s, t) or h[s][t]["w"] > w:
+                    h.add_edge(s, t, w=w)
+    out = []
+    for i, j in pairs:
+        if i not in pnode or j not in pnode:
+            out.append(np.inf)
+            continue
+        try:
+            out.append(nx.dijkstra_path_length(h, pnode[i], pnode[j], weight="w"))
+        except nx.NetworkXNoPath:
+            out.append(np.inf)
+    return np.array(out)
+
+
+@settings(max_examples=40, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1))
+def test_od_between_points_matches_split_edge_reference(seed):
+    rng = np.random.default_rng(seed)
+    net = random_network(rng, 12, 25, p_oneway=0.4, zero_prob=0.0)
+    pts = rng.uniform(-500, 5500, (6, 2))
+    att = attach_points(net, pts, "minutes", max_access_m=2000.0, walk_kmh=5.0)
+    od = od_matrix(net, att, att, "minutes")
+    pairs = [(i, j) for i in range(6) for j in range(6)]
+    ref = _reference_point_costs(net, pts, "minutes", 5.0, 2000.0, pairs).reshape(6, 6)
+    # self pairs: the reference walks out and back only if it leaves the node; ours walks the
+    # access legs twice (documented), equal to twice the access cost.
+    for i in range(6):
+        if att.attached[i]:
+            ref[i, i] = 2 * float(walk_cost(att.access_m[i], "minutes", 5.0))
+    np.testing.assert_allclose(od.cost, ref, rtol=1e-9, atol=1e-9)
+    # one-to-one on the same points agrees with the matrix
+    for i, j in [(0, 1), (2, 3), (4, 5)]:
+        r = shortest_path(net, att.subset([i]), att.subset([j]), "minutes")
+        assert r.cost == pytest.approx(od.cost[i, j], rel=1e-9, abs=1e-9)
+        if r.found:
+            assert r.length_m == pytest.approx(od.length_m[i, j], rel=1e-9)
+            assert r.geometry.length == pytest.approx(r.length_m, rel=1e-6)  # straight edges: planar = length_m
+
+
+def test_attach_hand_computed_one_way_split():
+    # One-way edge 0 -> 1 from (0,0) to (1000,0), 10 minutes, 1000 m.  Point at (300, 40):
+    # enters at 30 % of the edge, walk 40 m = 0.48 min at 5 km/h.
+    net = make_network([(0, 1)], [[0, 0], [1000, 0]], minutes=[10.0], oneway=[True])
+    att = attach_points(net, [[300, 40]], "minutes")
+    assert att.leg_fraction.tolist() == pytest.approx([0.3])
+    assert att.access_m.tolist() == pytest.approx([40.0])
+    walk = 40 / (5000 / 60)
+    # from-hub: hub -> node 1 is 0.48 + 7 min; node 0 unreachable (one-way)
+    cost, hub = nearest_hub(net, att, "minutes", "from-hub")
+    assert cost.tolist() == pytest.approx([np.inf, walk + 7.0])
+    # to-hub: node 0 -> hub is 3 + 0.48 min; node 1 cannot reach it
+    cost, hub = nearest_hub(net, att, "minutes", "to-hub")
+    assert cost.tolist() == pytest.approx([3.0 + walk, np.inf])
+    assert hub.tolist() == [0, -1]
+    # length_m: walk counts its length; hops: the partial edge counts its fraction, walk 0
+    att_l = attach_points(net, [[300, 40]], "length_m")
+    assert nearest_hub(net, att_l, "length_m", "to-hub").cost[0] == pytest.approx(340.0)
+    att_h = attach_points(net, [[300, 40]], "hops")
+    assert nearest_hub(net, att_h, "hops", "to-hub").cost[0] == pytest.approx(0.3)
+
+
+def test_attach_modes_and_distance_limit():
+    # road 0-1 at y=0; rail 2-3 at y=500 (node 2 a station, node 3 not); transfer 1-2.
+    xy = [[0, 0], [1000, 0], [0, 500], [1000, 500]]
+    net = make_network([(0, 1), (2, 3), (1, 2)], xy, mode=np.array(["road", "rail", "transfer"], object),
+                       entry=np.array([True, True, True, False]))
+    att = attach_points(net, [[900, 480], [10, 490], [500, 260], [500, 20000]], "minutes", max_access_m=5000)
+    # point 0 is nearest the rail line but may not enter it between stations: nearest entry is
+    # station node 2 (distance hypot(900, 20)) vs the road at 480 m -> road.
+    legs0 = np.nonzero(att.leg_point == 0)[0]
+    assert att.leg_edge[legs0].tolist() == [0] and att.leg_walk_m[legs0][0] == pytest.approx(480.0)
+    # point 1 is 10 m from station node 2: joins at the node
+    legs1 = np.nonzero(att.leg_point == 1)[0]
+    assert att.leg_node[legs1].tolist() == [2] and att.leg_edge[legs1].tolist() == [-1]
+    # point 2 lies 240 m from the transfer edge, 260 m from the road: transfers are never entered
+    legs2 = np.nonzero(att.leg_point == 2)[0]
+    assert att.leg_edge[legs2].tolist() == [0]
+    # point 3 is beyond max_access_m: reported with its real distance (to station node 2 at (0, 500)),
+    # not attached
+    assert att.attached.tolist() == [True, True, True, False]
+    assert att.access_m[3] == pytest.approx(np.hypot(500, 19500))
+    assert np.isinf(one_to_all(net, att, "minutes")[3]).all()
+
+
+def test_attach_options_refused():
+    net = make_network([(0, 1)])
+    with pytest.raises(OptionError, match="max-access-m"):
+        attach_points(net, [[0, 0]], max_access_m=-1)
+    with pytest.raises(OptionError, match="walk-kmh"):
+        attach_points(net, [[0, 0]], walk_kmh=0)
+    att = attach_points(net, [[0, 0]], "minutes")
+    with pytest.raises(OptionError, match="attached for weight 'minutes'"):
+        nearest_hub(net, att, "hops")
+
+
+def test_od_nodes_match_one_to_all_and_lengths_follow_least_cost_path():
+    net = grid(6, 7, spacing=100.0, minutes=np.random.default_rng(3).uniform(0.5, 2.0, 71))
+    o, d = [0, 5, 17], [41, 3, 20, 0]
+    od = od_matrix(net, o, d, "minutes")
+    full = one_to_all(net, o, "minutes")
+    np.testing.assert_allclose(od.cost, full[:, d], rtol=RTOL)
+    for i, a in enumerate(o):
+        for j, b in enumerate(d):
+            r = shortest_path(net, a, b, "minutes")
+            assert od.length_m[i, j] == pytest.approx(r.length_m, rel=RTOL)
+
+
+def test_route_geometry_on_grid_hand_computed():
+    # 3 x 4 grid, 100 m spacing.  From (50, 20) [edge 0-1, 20 m off] to (260, 180) [edge 10-11, 20 m off]:
+    # 20 walk + 50 to node 1 + 300 on the grid + 60 along edge 10-11 + 20 walk = 450 m.
+    net = grid(3, 4, spacing=100.0)
+    att = attach_points(net, [[50, 20], [260, 180]], "length_m")
+    r = shortest_path(net, att.subset([0]), att.subset([1]), "length_m")
+    assert r.cost == pytest.approx(450.0) and r.length_m == pytest.approx(450.0) and r.access_m == pytest.approx(40.0)
+    assert r.geometry.length == pytest.approx(450.0)
+    c = shapely.get_coordinates(r.geometry)
+    assert c[0].tolist() == [50, 20] and c[-1].tolist() == [260, 180]
