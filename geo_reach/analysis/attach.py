@@ -190,17 +190,20 @@ class Attachment:
         one = network.edge_oneway[e]
         # Leaving: towards to_node (forward part) always, to from_node only if two-way.
         # Arriving: from from_node (forward part) always, from to_node only if two-way.
+        # A point exactly at an end of a one-way edge is at that node: the zero-length "backward"
+        # piece is allowed.
         if role == "leave":
             fwd_node, fwd_cost = network.edge_to[e], (1.0 - f) * c
-            back_node, back_cost = network.edge_from[e], f * c
+            back_node, back_cost, back_share = network.edge_from[e], f * c, f
         else:
             fwd_node, fwd_cost = network.edge_from[e], f * c
-            back_node, back_cost = network.edge_to[e], (1.0 - f) * c
+            back_node, back_cost, back_share = network.edge_to[e], (1.0 - f) * c, 1.0 - f
+        back = ~one | (back_share == 0.0)
         el = legs[is_edge]
         nl = legs[~is_edge]
-        leg = np.concatenate([el, el[~one], nl])
-        node = np.concatenate([fwd_node, back_node[~one], self.leg_node[nl]])
-        cost = np.concatenate([fwd_cost, back_cost[~one], np.zeros(len(nl))]) + walk[leg]
+        leg = np.concatenate([el, el[back], nl])
+        node = np.concatenate([fwd_node, back_node[back], self.leg_node[nl]])
+        cost = np.concatenate([fwd_cost, back_cost[back], np.zeros(len(nl))]) + walk[leg]
         return (self.leg_point[leg].astype(np.int64), node.astype(np.int64),
                 cost.astype(np.float64), leg.astype(np.int64))
 

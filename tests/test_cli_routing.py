@@ -1,0 +1,344 @@
+"""The routing commands end to end: access, route, od, metrics, profile.
+
+Networks are written straight from arrays (``Network.edges_frame`` /
+``nodes_frame``), not by the builder.  Expected costs are hand-computed on a
+grid of 1 km, 1 minute links (written beside each check); walking at
+5 km/h covers 50 m in 0.6 minutes.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pyogrio
+import pytest
+import shapely
+from pyproj import CRS
+
+sys.path.insert(0, str(Path(__file__).parent))
+from helpers.routing_nets import make_network  # noqa: E402
+
+from geo_reach import cli  # noqa: E402
+
+X0, Y0 = 500000.0, 6000000.0
+UTM = CRS.from_epsg(32633)
+
+
+def run(argv, capsys, monkeypatch):
+    """Run one command through geo_reach.cli.main (only that command registered)."""
+    monkeypatch.setattr(cli, "COMMANDS", [argv[0]])
+    code = cli.main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def assert_refused(code, err, match):
+    assert code == 2
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("geo-reach: error:"), err
+    assert match in lines[0], lines[0]
+
+
+def grid_network(rows=4, cols=5, island=True, oneway=None, minutes=None, latency=True):
+    """rows x cols grid, 1 km spacing, 1 minute per link; plus a 2-node island 50 km east."""
+    xy = [(X0 + c * 1000.0, Y0 + r * 1000.0) for r in range(rows) for c in range(cols)]
+    edges = [(r * cols + c, r * cols + c + 1) for r in range(rows) for c in range(cols - 1)]
+    edges += [(r * cols + c, (r + 1) * cols + c) for r in range(rows - 1) for c in range(cols)]
+    if island:
+        n = len(xy)
+        xy += [(X0 + 50000.0, Y0), (X0 + 51000.0, Y0)]
+        edges.append((n, n + 1))
+    m = len(edges)
+    net = make_network(edges, np.array(xy), minutes=minutes if minutes is not None else 1.0,
+                       latency_ms=np.where(np.arange(m) % 2 == 0, 2.0, np.nan) if latency else None,
+                       oneway=oneway)
+    object.__setattr__(net, "crs", UTM)
+    return net
+
+
+def write_net(path, net, drop=(), edges_frame=None):
+    e = net.edges_frame() if edges_frame is None else edges_frame
+    e = e.drop(columns=list(drop))
+    e.to_file(path, layer="edges", driver="GPKG")
+    net.nodes_frame().to_file(path, layer="nodes", driver="GPKG")
+    return path
+
+
+def write_points(path, xy, crs=UTM, **fields):
+    gpd.GeoDataFrame(fields or {"n": np.arange(len(xy))}, geometry=shapely.points(np.asarray(xy)),
+                     crs=crs).to_file(path, driver="GPKG")
+    return path
+
+
+@pytest.fixture
+def net_path(tmp_path):
+    return write_net(tmp_path / "net.gpkg", grid_network())
+
+
+# ====================================================================== access
+def test_access_nearest_hub_fields_and_values(tmp_path, net_path, capsys, monkeypatch):
+    # hub 1 at (100 m, 50 m) from node 0: on link 0-1 at 10 %, 50 m walk -> node 0 costs 0.6 + 0.1 min.
+    # hub 2 near the far corner node 19 (4 km, 3 km): (3900, 2950) -> 0.6 + 0.1 min from node 19.
+    hubs = write_points(tmp_path / "hubs.gpkg", [(X0 + 100, Y0 + 50), (X0 + 3900, Y0 + 2950)])
+    out = tmp_path / "acc.gpkg"
+    code, _, err = run(["access", net_path, "--hubs", hubs, "-o", out], capsys, monkeypatch)
+    assert code == 0, err
+    nodes = pyogrio.read_dataframe(out, layer="nodes")
+    assert {"node_id", "nearest_hub", "hub_minutes"} <= set(nodes.columns)
+    assert nodes.loc[0, "nearest_hub"] == 1 and nodes.loc[0, "hub_minutes"] == pytest.approx(0.7)
+    assert nodes.loc[19, "nearest_hub"] == 2 and nodes.loc[19, "hub_minutes"] == pytest.approx(0.7)
+    # node 2 (2 km east of node 0): 0.6 + 0.9 + 1 = 2.5 min to hub 1
+    assert nodes.loc[2, "hub_minutes"] == pytest.approx(2.5)
+    # the island reaches no hub: null, not 0 and not a sentinel
+    assert nodes.loc[20:, "nearest_hub"].isna().all() and nodes.loc[20:, "hub_minutes"].isna().all()
+    hub_layer = pyogrio.read_dataframe(out, layer="hubs")
+    assert hub_layer["hub_id"].tolist() == [1, 2]  # row numbers from 1
+    assert hub_layer["served_nodes"].sum() == 20
+    assert hub_layer["served_length_m"].sum() == pytest.approx(31 * 1000.0)  # the 31 grid links
+    assert "2 of 22 nodes reach no hub" in err
+
+
+@pytest.mark.parametrize("weight,field", [("length_m", "hub_length_m"), ("hops", "hub_hops"),
+                                          ("latency_ms", "hub_latency_ms")])
+def test_access_cost_field_follows_weight(tmp_path, net_path, capsys, monkeypatch, weight, field):
+    hubs = write_points(tmp_path / "hubs.gpkg", [(X0 + 100, Y0 + 50)])
+    out = tmp_path / "acc.gpkg"
+    code, _, err = run(["access", net_path, "--hubs", hubs, "--weight", weight, "-o", out], capsys, monkeypatch)
+    assert code == 0, err
+    nodes = pyogrio.read_dataframe(out, layer="nodes")
+    assert field in nodes.columns and "hub_minutes" not in nodes.columns
+    if weight == "length_m":
+        assert nodes.loc[0, field] == pytest.approx(150.0)  # 50 m walk + 100 m along the link
+    if weight == "hops":
+        assert nodes.loc[0, field] == pytest.approx(0.1)  # a tenth of a link, the access leg counts 0
+    if weight == "latency_ms":
+        assert "edges have no latency_ms value" in err  # accepted and reported
+
+
+def test_access_per_kind_with_ids(tmp_path, net_path, capsys, monkeypatch):
+    hubs = write_points(tmp_path / "hubs.gpkg", [(X0 + 100, Y0 + 50), (X0 + 3900, Y0 + 2950), (X0 + 2000, Y0 - 10)],
+                        name=["north", "south", "quay"], kind=["clinic", "clinic", "port"])
+    out = tmp_path / "acc.gpkg"
+    code, _, err = run(["access", net_path, "--hubs", hubs, "--hub-id-field", "name", "--hub-kind-field", "kind",
+                        "-o", out], capsys, monkeypatch)
+    assert code == 0, err
+    nodes = pyogrio.read_dataframe(out, layer="nodes")
+    assert {"nearest_clinic", "clinic_minutes", "nearest_port", "port_minutes"} <= set(nodes.columns)
+    assert nodes.loc[0, "nearest_clinic"] == "north" and nodes.loc[0, "nearest_port"] == "quay"
+    # node 0 to the port 10 m south of node 2 (nearest entry: node 2 itself): 2 min + 0.12 min walk
+    assert nodes.loc[0, "port_minutes"] == pytest.approx(2.0 + 10 / (5000 / 60))
+    hubs_out = pyogrio.read_dataframe(out, layer="hubs")
+    assert hubs_out["hub_id"].tolist() == ["north", "south", "quay"]
+    assert hubs_out["kind"].tolist() == ["clinic", "clinic", "port"]
+
+
+def test_access_direction_on_one_way_network(tmp_path, capsys, monkeypatch):
+    # chain of one-way links 0 -> 1 -> ... -> 4 (1 km, 1 min); hub at node 4's position.
+    net = make_network([(i, i + 1) for i in range(4)], np.array([(X0 + 1000.0 * i, Y0) for i in range(5)]),
+                       oneway=True)
+    object.__setattr__(net, "crs", UTM)
+    path = write_net(tmp_path / "chain.gpkg", net, drop=["latency_ms"])
+    hubs = write_points(tmp_path / "h.gpkg", [(X0 + 4000, Y0)])
+    for direction, expect in (("to-hub", [4.0, 3.0, 2.0, 1.0, 0.0]), ("from-hub", [None, None, None, None, 0.0])):
+        out = tmp_path / f"{direction}.gpkg"
+        code, _, err = run(["access", path, "--hubs", hubs, "--direction", direction, "-o", out], capsys, monkeypatch)
+        assert code == 0, err
+        got = pyogrio.read_dataframe(out, layer="nodes")["hub_minutes"].tolist()
+        assert [None if np.isnan(v) else v for v in got] == expect
+
+
+def test_access_reports_far_and_lone_hubs(tmp_path, net_path, capsys, monkeypatch):
+    # hub 1 normal, hub 2 near the island (alone in its component), hub 3 30 km from anything.
+    hubs = write_points(tmp_path / "hubs.gpkg", [(X0 + 100, Y0 + 50), (X0 + 50500, Y0 + 20), (X0 + 20000, Y0 + 30000)])
+    out = tmp_path / "acc.gpkg"
+    code, _, err = run(["access", net_path, "--hubs", hubs, "-o", out], capsys, monkeypatch)
+    assert code == 0, err
+    assert "1 hubs farther than --max-access-m 5000 m" in err and "id 3" in err
+    assert "alone in a component of their own" in err and "id 2" in err
+    h = pyogrio.read_dataframe(out, layer="hubs")
+    assert h["attached"].tolist() == [1, 1, 0] and h["alone"].tolist() == [0, 1, 0]
+
+
+# ---------------------------------------------------------------- access: bad input
+def test_access_refuses_empty_hubs(tmp_path, net_path, capsys, monkeypatch):
+    empty = tmp_path / "empty.gpkg"
+    gpd.GeoDataFrame({"n": []}, geometry=gpd.GeoSeries([], crs=UTM)).to_file(empty, driver="GPKG")
+    code, _, err = run(["access", net_path, "--hubs", empty, "-o", tmp_path / "o.gpkg"], capsys, monkeypatch)
+    assert_refused(code, err, "no features with geometry")
+    assert not (tmp_path / "o.gpkg").exists()
+
+
+def test_access_refuses_wrong_geometry(tmp_path, net_path, capsys, monkeypatch):
+    lines = tmp_path / "lines.gpkg"
+    gpd.GeoDataFrame({"n": [1]}, geometry=[shapely.LineString([(X0, Y0), (X0 + 5, Y0)])], crs=UTM).to_file(
+        lines, driver="GPKG")
+    code, _, err = run(["access", net_path, "--hubs", lines, "-o", tmp_path / "o.gpkg"], capsys, monkeypatch)
+    assert_refused(code, err, "points are expected")
+
+
+def test_access_refuses_duplicate_ids(tmp_path, net_path, capsys, monkeypatch):
+    hubs = write_points(tmp_path / "hubs.gpkg", [(X0, Y0), (X0 + 10, Y0)], code=["h1", "h1"])
+    code, _, err = run(["access", net_path, "--hubs", hubs, "--hub-id-field", "code", "-o", tmp_path / "o.gpkg"],
+                       capsys, monkeypatch)
+    assert_refused(code, err, "id 'h1' is used by features")
+
+
+def test_access_keeps_existing_output_on_refusal(tmp_path, net_path, capsys, monkeypatch):
+    out = tmp_path / "o.gpkg"
+    out.write_bytes(b"old")
+    hubs = write_points(tmp_path / "hubs.gpkg", [(X0, Y0), (X0 + 10, Y0)], code=["a", "a"])
+    code, _, err = run(["access", net_path, "--hubs", hubs, "--hub-id-field", "code", "-o", out, "--overwrite"],
+                       capsys, monkeypatch)
+    assert code == 2 and out.read_bytes() == b"old"
+
+
+def test_network_without_edges_or_nodes_layer_refused(tmp_path, capsys, monkeypatch):
+    net = grid_network()
+    only_nodes = tmp_path / "n.gpkg"
+    net.nodes_frame().to_file(only_nodes, layer="nodes", driver="GPKG")
+    only_edges = tmp_path / "e.gpkg"
+    net.edges_frame().to_file(only_edges, layer="edges", driver="GPKG")
+    hubs = write_points(tmp_path / "hubs.gpkg", [(X0, Y0)])
+    code, _, err = run(["access", only_nodes, "--hubs", hubs, "-o", tmp_path / "o.gpkg"], capsys, monkeypatch)
+    assert_refused(code, err, "has no layer 'edges'")
+    code, _, err = run(["metrics", only_edges, "--json"], capsys, monkeypatch)
+    assert_refused(code, err, "has no layer 'nodes'")
+
+
+def test_weight_column_missing_refused(tmp_path, capsys, monkeypatch):
+    path = write_net(tmp_path / "net.gpkg", grid_network(), drop=["latency_ms"])
+    code, _, err = run(["metrics", path, "--json", "--weight", "latency_ms"], capsys, monkeypatch)
+    assert_refused(code, err, "has no field 'latency_ms'")
+
+
+def test_negative_costs_refused(tmp_path, capsys, monkeypatch):
+    net = grid_network()
+    e = net.edges_frame()
+    e.loc[3, "minutes"] = -2.0
+    path = write_net(tmp_path / "neg.gpkg", net, edges_frame=e)
+    code, _, err = run(["metrics", path, "--json"], capsys, monkeypatch)
+    assert_refused(code, err, "negative minutes")
+
+
+# ====================================================================== route
+def test_route_geojson_hand_computed(tmp_path, net_path, capsys, monkeypatch):
+    # (100, 50) -> (3900, 2950) in the working CRS: the start sits 50 m off link 0-1 at 10 %, the end
+    # 50 m off link 18-19 at 90 %: 0.6 walk + 0.9 to node 1 + 5 links to node 18 + 0.9 + 0.6 walk
+    # = 8.0 minutes; length 50 + 900 + 5000 + 900 + 50 = 6900 m.
+    code, out, err = run(["route", net_path, "--from", f"{X0 + 100},{Y0 + 50}", "--to", f"{X0 + 3900},{Y0 + 2950}",
+                          "--crs", "EPSG:32633"], capsys, monkeypatch)
+    assert code == 0, err
+    f = json.loads(out)
+    assert f["type"] == "Feature" and f["geometry"]["type"] == "LineString"
+    assert f["properties"]["cost"] == pytest.approx(8.0)
+    assert f["properties"]["length_m"] == pytest.approx(6900.0)
+    lon, lat = f["geometry"]["coordinates"][0]
+    assert 14.9 < lon < 15.1 and 54.0 < lat < 54.2  # EPSG:32633 easting 500 km is 15 deg E
+    # the same trip given in longitude/latitude, written to a file
+    from pyproj import Transformer
+
+    t = Transformer.from_crs(UTM, 4326, always_xy=True)
+    a = t.transform(X0 + 100, Y0 + 50)
+    b = t.transform(X0 + 3900, Y0 + 2950)
+    o = tmp_path / "r.geojson"
+    code, _, err = run(["route", net_path, "--from", f"{a[0]},{a[1]}", "--to", f"{b[0]},{b[1]}", "-o", o],
+                       capsys, monkeypatch)
+    assert code == 0, err
+    assert json.loads(o.read_text())["properties"]["cost"] == pytest.approx(8.0, rel=1e-6)
+
+
+def test_route_unreachable_and_too_far(tmp_path, net_path, capsys, monkeypatch):
+    code, out, err = run(["route", net_path, "--from", f"{X0 + 100},{Y0 + 50}", "--to", f"{X0 + 50500},{Y0 + 20}",
+                          "--crs", "EPSG:32633"], capsys, monkeypatch)
+    assert code == 0 and json.loads(out)["geometry"] is None and json.loads(out)["properties"]["cost"] is None
+    assert "no trip joins" in err
+    code, _, err = run(["route", net_path, "--from", f"{X0 + 100},{Y0 + 50}", "--to", f"{X0 + 20000},{Y0 + 30000}",
+                        "--crs", "EPSG:32633"], capsys, monkeypatch)
+    assert_refused(code, err, "beyond --max-access-m 5000")
+
+
+# ====================================================================== od
+def test_od_pairs_layer_and_csv(tmp_path, net_path, capsys, monkeypatch):
+    o = write_points(tmp_path / "o.gpkg", [(X0 + 100, Y0 + 50), (X0 + 3900, Y0 + 2950)], oid=[10, 20])
+    d = write_points(tmp_path / "d.gpkg", [(X0 + 3900, Y0 + 2950), (X0 + 50500, Y0 + 20), (X0 + 20000, Y0 + 30000)])
+    out, csv = tmp_path / "od.gpkg", tmp_path / "od.csv"
+    code, _, err = run(["od", net_path, "--origins", o, "--destinations", d, "--origin-id-field", "oid",
+                        "-o", out, "--csv", csv], capsys, monkeypatch)
+    assert code == 0, err
+    assert "1 destinations farther than --max-access-m" in err
+    pairs = pyogrio.read_dataframe(out, layer="od_pairs")
+    assert {"origin_id", "destination_id", "cost", "length_m"} <= set(pairs.columns)
+    assert len(pairs) == 4  # 2 origins x 2 attached destinations
+    row = pairs[(pairs.origin_id == 10) & (pairs.destination_id == 1)].iloc[0]
+    assert row.cost == pytest.approx(8.0) and row.length_m == pytest.approx(6900.0)  # as in the route test
+    assert row.geometry.length == pytest.approx(np.hypot(3800, 2900))  # straight connecting line
+    island = pairs[pairs.destination_id == 2]
+    assert island.cost.isna().all()
+    import pandas as pd
+
+    table = pd.read_csv(csv)
+    assert list(table.columns[:4]) == ["origin_id", "destination_id", "cost", "length_m"] and len(table) == 4
+    code, _, err = run(["od", net_path, "--origins", o, "--destinations", d, "--nearest", "1", "-o", out,
+                        "--overwrite"], capsys, monkeypatch)
+    assert code == 0, err
+    near = pyogrio.read_dataframe(out, layer="od_pairs")
+    assert len(near) == 2 and near["rank"].tolist() == [1, 1]
+    assert near.set_index("origin_id").loc[2, "destination_id"] == 1  # origin 2 stands on destination 1
+
+
+# ====================================================================== metrics
+def test_metrics_json_keys_and_values(tmp_path, net_path, capsys, monkeypatch):
+    code, out, err = run(["metrics", net_path, "--json", "-o", tmp_path / "m.gpkg"], capsys, monkeypatch)
+    assert code == 0, err
+    r = json.loads(out)
+    for key in ("nodes", "edges", "components", "largest_component_nodes", "largest_strong_component_nodes",
+                "diameter", "mean_path", "global_efficiency"):
+        assert key in r
+    assert set(r["diameter"]) == {"value", "from_node", "to_node", "sssp_runs"}
+    assert set(r["mean_path"]) == {"value", "ci95_low", "ci95_high", "exact", "sources"}
+    assert (r["nodes"], r["edges"], r["components"]) == (22, 32, 2)
+    assert (r["largest_component_nodes"], r["largest_strong_component_nodes"]) == (20, 20)
+    assert r["diameter"]["value"] == 7.0  # 4 x 5 grid: (4 - 1) + (5 - 1) links of 1 minute
+    assert r["mean_path"]["value"] == pytest.approx(3.0) and r["mean_path"]["exact"]  # (4 + 5) / 3
+    nodes = pyogrio.read_dataframe(tmp_path / "m.gpkg", layer="nodes")
+    assert {"eccentricity", "closeness"} <= set(nodes.columns)
+    assert nodes.loc[0, "eccentricity"] == 7.0 and nodes.loc[20, "eccentricity"] == 1.0
+    path = pyogrio.read_dataframe(tmp_path / "m.gpkg", layer="diameter_path")
+    assert len(path) == 1 and path.geometry.iloc[0].length == pytest.approx(7000.0)
+    assert r["global_efficiency"] == pytest.approx(float(nodes["closeness"].mean()))
+
+
+def test_metrics_sampled_options(tmp_path, capsys, monkeypatch):
+    path = write_net(tmp_path / "big.gpkg", grid_network(rows=72, cols=72, island=False, latency=False))
+    code, out, err = run(["metrics", path, "--json", "--samples", "50", "--seed", "3"], capsys, monkeypatch)
+    assert code == 0, err
+    r = json.loads(out)
+    assert r["nodes"] == 5184 and not r["mean_path"]["exact"] and r["mean_path"]["sources"] == 50
+    assert r["mean_path"]["ci95_low"] <= 48.0 <= r["mean_path"]["ci95_high"]  # exact (72 + 72) / 3 = 48
+    assert r["diameter"]["value"] == 142.0
+
+
+# ====================================================================== profile
+def test_profile_json_and_png(tmp_path, net_path, capsys, monkeypatch):
+    png = tmp_path / "p.png"
+    code, out, err = run(["profile", net_path, "--from", 0, "--weight", "hops", "--json", "--png", png],
+                         capsys, monkeypatch)
+    assert code == 0, err
+    r = json.loads(out)
+    assert [s["nodes"] for s in r["steps"]] == [2, 5, 9, 13, 16, 18, 19]  # corner of a 4 x 5 grid
+    assert set(r["steps"][0]) >= {"cost", "nodes", "length_m"}
+    assert r["steps"][0]["length_m"] == pytest.approx(2000.0)
+    assert r["growth"]["class"] in {"linear", "polynomial", "exponential", "undetermined"}
+    assert png.read_bytes()[:4] == b"\x89PNG"
+    code, out, err = run(["profile", net_path, "--sample", 5, "--steps", 4, "--json"], capsys, monkeypatch)
+    assert code == 0, err
+    assert len(json.loads(out)["steps"]) == 4 and json.loads(out)["sources"] == 5
+
+
+def test_profile_refuses_unknown_node(tmp_path, net_path, capsys, monkeypatch):
+    code, _, err = run(["profile", net_path, "--from", 999], capsys, monkeypatch)
+    assert_refused(code, err, "node id 999 is not in the network")
