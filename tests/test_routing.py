@@ -315,3 +315,19 @@ def test_route_geometry_on_grid_hand_computed():
     assert r.geometry.length == pytest.approx(450.0)
     c = shapely.get_coordinates(r.geometry)
     assert c[0].tolist() == [50, 20] and c[-1].tolist() == [260, 180]
+
+
+def test_od_mixed_nodes_and_points_agree_with_shortest_path():
+    rng = np.random.default_rng(5)
+    net = random_network(rng, 15, 40, zero_prob=0.0)
+    att = attach_points(net, rng.uniform(0, 5000, (3, 2)), "minutes")
+    nodes = [0, 4, 9]
+    a = od_matrix(net, nodes, att, "minutes")
+    b = od_matrix(net, att, nodes, "minutes")
+    for i, v in enumerate(nodes):
+        for j in range(3):
+            r1 = shortest_path(net, v, att.subset([j]), "minutes")
+            r2 = shortest_path(net, att.subset([j]), v, "minutes")
+            assert a.cost[i, j] == pytest.approx(r1.cost, rel=RTOL) and b.cost[j, i] == pytest.approx(r2.cost, rel=RTOL)
+            if r1.found:
+                assert a.length_m[i, j] == pytest.approx(r1.length_m, rel=RTOL)

@@ -596,8 +596,11 @@ def od_matrix(network: Network, origins, destinations, weight: str = "minutes", 
     Notes
     -----
     One Dijkstra run per origin with predecessors; trip lengths follow the
-    least-cost tree.  Points on the same edge may also travel directly
-    along it.  Cost O(n_origins (m + n log n)).
+    least-cost tree (ties between equal-cost trips go to the shorter
+    arrival).  Points on the same edge may also travel directly along it.
+    A trip from a point to itself walks its access leg out and back (twice
+    the access cost), since every trip joins the network.
+    Cost O(n_origins (m + n log n)).
     """
     _check_weight(weight)
     o_att = origins if isinstance(origins, Attachment) else None
