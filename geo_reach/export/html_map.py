@@ -237,7 +237,9 @@ def _geojson_layer(frame, styles, tip_fields, pop_fields, name, *, point=False, 
                          class_name="gr-tip") if tip_fields else None
     pop = GeoJsonPopup(fields=[f"p{k}" for k in range(len(pop_fields))],
                        aliases=[html.escape(_label(f)) for f in pop_fields], localize=False,
-                       class_name="gr-pop", max_width=360) if pop_fields else None
+                       class_name="gr-pop", max_width=360,
+                       **{"maxHeight": 300, "autoPanPaddingTopLeft": [60, 70],
+                          "autoPanPaddingBottomRight": [300, 50]}) if pop_fields else None
     marker = folium.CircleMarker(location=None, radius=6) if point else None
     return folium.GeoJson(data, name=html.escape(name), tooltip=tip, popup=pop, marker=marker,
                           overlay=overlay, show=show, control=control)
@@ -290,7 +292,8 @@ html, body {{ margin:0; padding:0; height:100%; font-family: system-ui, -apple-s
   font-size:13px; line-height:34px; padding:0 12px; white-space:nowrap; overflow:hidden; text-overflow:ellipsis; }}
 .gr-caution b {{ color:#f0e442; }}
 .gr-legend {{ position:fixed; right:10px; bottom:44px; z-index:1000; background:#ffffffee; padding:6px 10px;
-  border-radius:4px; box-shadow:0 1px 4px #0004; font-size:12px; max-height:60vh; overflow-y:auto; min-width:170px; color:#222; }}
+  border-radius:4px; box-shadow:0 1px 4px #0004; font-size:12px; max-height:60vh; overflow-y:auto; min-width:170px;
+  max-width:250px; color:#222; }}
 .gr-legend h2 {{ font-size:13px; margin:2px 0 4px; }}
 .gr-leg h3 {{ font-size:12px; margin:6px 0 2px; font-weight:600; }}
 .gr-leg ul {{ list-style:none; margin:0; padding:0; }}
@@ -411,7 +414,7 @@ def render_map(*, edges=None, hubs=None, bands=None, weak=None, diameter=None, i
             rows = [(c, html.escape(_shorten(k, 40)), False) for k, c in colours.items() if c != P.NO_VALUE]
             if any(c == P.NO_VALUE for c in colours.values()):
                 rows.append((P.NO_VALUE, "other reasons", False))
-            title_ = "Weak regions by reason" + (" (number = rank, 1 = weakest)" if "rank" in f.columns else "")
+            title_ = "Weak regions by reason" + (" (number: rank, 1 = weakest)" if "rank" in f.columns else "")
             legend.append(_legend_section(group.get_name(), title_, rows, "polygon"))
             toggles[group.get_name()] = group.get_name()
 
@@ -523,13 +526,21 @@ def render_map(*, edges=None, hubs=None, bands=None, weak=None, diameter=None, i
             toggles[lay.get_name()] = lay.get_name()
 
         folium.LayerControl(collapsed=False, position="topright").add_to(fmap)
-        fmap.fit_bounds([[south, west], [north, east]], padding=(20, 20))
+        # keep the features clear of the legend and layer list on the right and the title on top
+        fmap.fit_bounds([[south, west], [north, east]], padding_top_left=(50, 60), padding_bottom_right=(300, 50))
 
         map_id = fmap.get_name()
         layer_map = "{" + ",".join(f"{json.dumps(k)}:{v}" for k, v in toggles.items()) + "}"
+        # drawing order = the order layers were added; a layer switched back on would land on top
+        stack = [c.get_name() for c in fmap._children.values()
+                 if isinstance(c, (folium.GeoJson, folium.FeatureGroup))]
         extra_js.append(
             "(function () {\n"
-            f"  var map = {map_id}, layers = {layer_map};\n"
+            f"  var map = {map_id}, layers = {layer_map}, stack = [{', '.join(stack)}];\n"
+            "  function restack() {\n"
+            "    stack.forEach(function (l) { if (map.hasLayer(l) && l.bringToFront) { l.bringToFront(); } });\n"
+            "  }\n"
+            "  map.on('overlayadd baselayerchange', restack);\n"
             "  function show(layer, on) {\n"
             "    for (var k in layers) { if (layers[k] === layer) {\n"
             "      var s = document.querySelector('.gr-leg[data-layer=\"' + k + '\"]');\n"
