@@ -1,0 +1,37 @@
+"""``geo-reach demo``: the whole study on the invented region, into maps/demo/."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+
+def register(sub):
+    p = sub.add_parser("demo", help="run the whole analysis on the invented demo region",
+                       description="Run data_samples/study.toml (an invented region) with its proposed line "
+                                   "as a scenario, replacing maps/demo/.")
+    p.add_argument("-o", "--output", default=None, metavar="OUTDIR", help="output folder (default maps/demo)")
+    p.add_argument("--quiet", action="store_true")
+    p.set_defaults(func=run)
+
+
+def repo_root() -> Path:
+    return Path(__file__).resolve().parents[2]
+
+
+def run(args):
+    from ..errors import MissingInputError
+    from ..pipeline import run_study
+    from ..study import load_study
+    from .run import print_summary
+
+    root = repo_root()
+    study_path = root / "data_samples" / "study.toml"
+    if not study_path.exists():
+        raise MissingInputError(f"file '{study_path}': the demo study is missing; run geo-reach demo from a "
+                                "checkout of the repository")
+    out = Path(args.output) if args.output else root / "maps" / "demo"
+    study = load_study(study_path)
+    # The demo replaces its own outputs on every run.
+    summary = run_study(study, out, overwrite=True, progress=not args.quiet)
+    print_summary(summary, out)
+    return 0

@@ -1,0 +1,94 @@
+"""``geo-reach run`` and ``geo-reach compare``: a whole study, or its scenarios against the baseline."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+
+def register(sub):
+    p = sub.add_parser("run", help="run everything a study file describes",
+                       description="Run a study (build, access, metrics, surface, scenarios) into a folder: "
+                                   "results.gpkg, GeoTIFFs, styles, summary.json and map.html.")
+    p.add_argument("study", metavar="STUDY.toml")
+    p.add_argument("-o", "--output", metavar="OUTDIR",
+                   help="output folder (default: geo-reach-out/<study name> beside the study file)")
+    p.add_argument("--overwrite", action="store_true", help="replace a folder that already holds results")
+    p.add_argument("--quiet", action="store_true", help="no progress lines")
+    p.set_defaults(func=run)
+
+    c = sub.add_parser("compare", help="compare a study's scenarios with its baseline",
+                       description="Run the baseline and the named scenarios (default: all) and write the "
+                                   "comparison outputs only.")
+    c.add_argument("study", metavar="STUDY.toml")
+    c.add_argument("--scenario", action="append", metavar="NAME", help="a scenario to compare (repeatable)")
+    c.add_argument("-o", "--output", required=True, metavar="OUTDIR")
+    c.add_argument("--overwrite", action="store_true")
+    c.add_argument("--quiet", action="store_true")
+    c.set_defaults(func=run_compare)
+
+
+def default_outdir(study_path: Path) -> Path:
+    return study_path.parent / "geo-reach-out" / study_path.stem
+
+
+def run(args):
+    from ..pipeline import run_study
+    from ..study import load_study
+
+    study = load_study(args.study)
+    out = Path(args.output) if args.output else default_outdir(Path(args.study))
+    summary = run_study(study, out, overwrite=args.overwrite, progress=not args.quiet)
+    print_summary(summary, out)
+    return 0
+
+
+def run_compare(args):
+    from ..pipeline import run_study
+    from ..study import load_study
+
+    study = load_study(args.study)
+    if not study.scenarios:
+        from ..errors import InputError
+
+        raise InputError(f"file '{args.study}': the study has no [scenarios.NAME] table; add one to compare")
+    summary = run_study(study, Path(args.output), overwrite=args.overwrite, scenarios=args.scenario,
+                        only_comparison=True, progress=not args.quiet)
+    print_summary(summary, Path(args.output))
+    return 0
+
+
+def print_summary(summary: dict, out: Path, file=None):
+    """The closing text summary: where the outputs are and the main figures."""
+    file = file or sys.stdout
+    b = summary["baseline"]
+    n = b["network"]
+    m = b["metrics"]
+    p = print
+    p(f"results: {out}", file=file)
+    if (out / "map.html").exists():
+        p(f"map:     {out / 'map.html'}", file=file)
+    p(f"network: {n['nodes']} nodes, {n['edges']} edges, {n['components']} components, "
+      f"{(n['network_length_m'] or 0) / 1000:.1f} km", file=file)
+    d = m["diameter"]
+    mp = m["mean_path"]
+    if d["value"] is not None:
+        p(f"diameter: {d['value']:.1f} {m['weight']} (node {d['from_node']} to {d['to_node']}); "
+          f"mean path {mp['value']:.1f} {m['weight']}", file=file)
+    if "population_total" in b:
+        bands = b["population_by_band"]
+        largest = max(bands, key=float)
+        tot = b["population_total"] or 0
+        p(f"people: {tot:,.0f} in all; within {largest} min: {bands[largest]:,.0f}; "
+          f"beyond {largest} min or unreachable: {b['population_beyond']:,.0f}", file=file)
+    for w in b.get("weak_regions", [])[:3]:
+        p(f"  weak region #{w['rank']}: {w['reason']}, {w['population'] or 0:,.0f} people, {w['area_km2']:.1f} km2",
+          file=file)
+    for r in summary.get("scenario_ranking", []):
+        s = summary["scenarios"][r["scenario"]]
+        newly = s.get("people_newly_within", {})
+        p(f"scenario {r['rank']}. {r['scenario']}: {'; '.join(s['changes']) or 'changes nothing'}; "
+          f"{s.get('new_or_upgraded_km', 0):.1f} km new/upgraded; people newly within "
+          + ", ".join(f"{k} min: {v:+,.0f}" for k, v in newly.items())
+          + f"; person-minutes saved {s.get('person_minutes_saved', 0):,.0f}", file=file)
+    p(summary["caution"], file=file)

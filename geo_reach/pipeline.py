@@ -1,0 +1,898 @@
+"""Run a study: build, access, metrics, surface, bands, regions, scenarios, outputs.
+
+One code path for the whole analysis.  :func:`analyse` computes everything a
+study describes for one set of inputs (the baseline, or a scenario) and
+returns an :class:`Analysis`; :func:`run_study` runs the baseline and the
+scenarios, compares them and writes the outputs into a folder atomically.
+
+Results are model estimates; local surveys, codes and licensed professional
+practice decide.
+"""
+
+from __future__ import annotations
+
+import copy
+import hashlib
+import json
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from . import CAUTION, __version__
+from .errors import InputError, LayerError, OptionError, where
+from .network.build import BuildOptions, LayerSpec, build_network
+from .study import Study
+
+__all__ = ["Analysis", "analyse", "run_study", "holds_results", "layer_specs"]
+
+
+def holds_results(folder) -> bool:
+    """A folder holds results when it contains ``summary.json`` or ``results.gpkg``."""
+    folder = Path(folder)
+    return folder.is_dir() and ((folder / "summary.json").exists() or (folder / "results.gpkg").exists())
+
+
+# --------------------------------------------------------------------------- inputs
+def _ref(study: Study, path: str, layer: str | None):
+    p = study.resolve(path)
+    return f"{p}:{layer}" if layer else str(p)
+
+
+def layer_specs(study: Study, tables=None) -> list[LayerSpec]:
+    """LayerSpecs for ``[[lines]]`` tables (the study's own by default)."""
+    out = []
+    for t in (tables if tables is not None else study.lines):
+        stations = None
+        if t.get("stations"):
+            stations = _ref(study, t["stations"], t.get("stations_layer"))
+        out.append(LayerSpec(
+            source=_ref(study, t["path"], t.get("layer")), mode=t.get("mode", "road"), name=t.get("name"),
+            speed_field=t.get("speed_field"), class_field=t.get("class_field"), class_speeds=t.get("class_speeds"),
+            speed_kmh=t.get("speed_kmh"), oneway_field=t.get("oneway_field"), level_field=t.get("level_field"),
+            all_season_field=t.get("all_season_field"), access_points=stations,
+            boarding_minutes=float(t.get("boarding_minutes", 0.0)), assume_crs=t.get("assume_crs")))
+    return out
+
+
+def build_or_read(study: Study, specs):
+    """Build the network from the line layers, or read the prebuilt one the study names."""
+    pre = study.network.get("prebuilt")
+    if not pre:
+        return build_network(specs, build_options(study))
+    from .ingest.layers import list_layers, read_frame
+    from .network.build import BuildResult
+    from .network.model import Network
+
+    path = study.resolve(pre)
+    net = Network.read(path)
+    issues = read_frame(path, "network_issues") if "network_issues" in list_layers(path) else None
+    if issues is None:
+        import geopandas as gpd
+
+        issues = gpd.GeoDataFrame({"kind": [], "detail": [], "src_layer": [], "src_fid": []}, geometry=[], crs=net.crs)
+    kinds = issues["kind"].value_counts().to_dict() if len(issues) else {}
+    report = {"nodes": net.n_nodes, "edges": net.n_edges, "components": net.n_components,
+              "largest_component_nodes": int((net.component == 0).sum()) if net.n_nodes else 0,
+              "input_length_m": None, "network_length_m": float(net.edge_length_m.sum()),
+              "issues": {k: int(v) for k, v in kinds.items()}, "crs": net.crs.to_string() if net.crs else None}
+    return BuildResult(net, issues.reset_index(drop=True), report)
+
+
+def build_options(study: Study) -> BuildOptions:
+    n = study.network
+    return BuildOptions(crs=n.get("crs"), snap_m=float(n.get("snap_m", 1.0)), dangle_m=n.get("dangle_m"),
+                        access_snap_m=float(n.get("access_snap_m", 100.0)))
+
+
+@dataclass
+class Hubs:
+    """Hub points in the working CRS: ids, kinds, names, and the source frame for output."""
+
+    xy: np.ndarray
+    ids: np.ndarray
+    kinds: np.ndarray | None
+    frame: object  # GeoDataFrame in the working CRS, one row per hub
+
+
+def read_hubs(study: Study, table: dict, crs) -> Hubs:
+    """Read a hubs table (``[hubs]`` or a scenario's ``add_hubs``)."""
+    import shapely
+
+    from .ingest.layers import parse_layer_ref, read_layer
+
+    ref = parse_layer_ref(_ref(study, table["path"], table.get("layer")))
+    gdf = read_layer(ref, "points", assume_crs=table.get("assume_crs"))
+    gdf = gdf[~(gdf.geometry.isna() | gdf.geometry.is_empty)]
+    if len(gdf) == 0:
+        raise LayerError(f"{where(ref.path, ref.layer)}no hub has a point; give a layer of points")
+    gdf = gdf.to_crs(crs)
+    idf = table.get("id_field")
+    if idf:
+        if idf not in gdf.columns:
+            raise InputError(f"{where(ref.path, ref.layer)}has no field '{idf}' (hubs.id_field)")
+        col = gdf[idf]
+        dup = col[col.duplicated()]
+        if len(dup):
+            raise LayerError(f"{where(ref.path, ref.layer, field=idf)}hub id {dup.iloc[0]!r} is used twice; "
+                             "ids must be unique")
+        ids = col.astype(str).to_numpy(object)
+    else:
+        ids = np.array([str(i) for i in range(1, len(gdf) + 1)], dtype=object)
+    kinds = None
+    kf = table.get("kind_field")
+    if kf:
+        if kf not in gdf.columns:
+            raise InputError(f"{where(ref.path, ref.layer)}has no field '{kf}' (hubs.kind_field)")
+        kinds = gdf[kf].astype(str).str.strip().str.lower().to_numpy(object)
+    pts = shapely.get_coordinates(shapely.centroid(gdf.geometry.values))
+    nf = table.get("name_field") or ("name" if "name" in gdf.columns else None)
+    import geopandas as gpd
+
+    frame = gpd.GeoDataFrame({"hub_id": ids, "kind": kinds if kinds is not None else np.full(len(ids), "hub", object),
+                              "name": gdf[nf].astype(str).to_numpy(object) if nf else ids},
+                             geometry=shapely.points(pts), crs=crs)
+    return Hubs(pts, ids, kinds, frame)
+
+
+def merge_hubs(a: Hubs, b: Hubs | None, remove=()) -> Hubs:
+    import geopandas as gpd
+
+    frame = a.frame if b is None else gpd.GeoDataFrame(pd.concat([a.frame, b.frame], ignore_index=True), crs=a.frame.crs)
+    keep = ~frame["hub_id"].isin([str(r) for r in remove]).to_numpy()
+    frame = frame[keep].reset_index(drop=True)
+    if frame["hub_id"].duplicated().any():
+        raise InputError(f"hub id {frame['hub_id'][frame['hub_id'].duplicated()].iloc[0]!r} is used twice "
+                         "after adding the scenario's hubs; ids must be unique")
+    import shapely
+
+    kinds = frame["kind"].to_numpy(object) if a.kinds is not None else None
+    return Hubs(shapely.get_coordinates(frame.geometry.values), frame["hub_id"].to_numpy(object), kinds, frame)
+
+
+# --------------------------------------------------------------------------- analysis
+@dataclass
+class Analysis:
+    """Everything computed for one set of inputs (baseline or one scenario)."""
+
+    build: object
+    hubs: Hubs
+    node_fields: dict = field(default_factory=dict)      # per-node arrays
+    hub_table: object = None
+    node_cost: np.ndarray | None = None                   # any-kind cost (weight unit), NaN = none
+    node_hub: np.ndarray | None = None                    # 0-based hub index, -1 = none
+    kind_costs: dict = field(default_factory=dict)        # kind -> (cost, hub index into hubs)
+    metrics: dict = field(default_factory=dict)
+    diameter_path: object = None
+    profile: object = None
+    surface: object = None
+    grid: object = None
+    population: np.ndarray | None = None
+    kind_surfaces: dict = field(default_factory=dict)
+    bands: object = None
+    pop_stats: object = None
+    kind_pop_stats: dict = field(default_factory=dict)
+    zones: object = None
+    settlements: object = None
+    weak: object = None
+    rai: object = None
+    connection_m: np.ndarray | None = None
+    notes: list = field(default_factory=list)
+
+
+def _kind_groups(hubs: Hubs):
+    if hubs.kinds is None:
+        return []
+    return [(k, np.nonzero(hubs.kinds == k)[0]) for k in sorted(pd.unique(hubs.kinds))]
+
+
+def _route_to_hubs(net, hubs: Hubs, members, routing):
+    from .analysis.attach import attach_points
+    from .analysis.routing import nearest_hub
+
+    att = attach_points(net, hubs.xy[members], routing["weight"], max_access_m=float(routing["max_access_m"]),
+                        walk_kmh=float(routing["walk_kmh"]))
+    cost, hub = nearest_hub(net, att, routing["weight"], routing["direction"])
+    cost = np.where(np.isfinite(cost) & (hub >= 0), cost, np.nan)
+    hub_global = np.where(hub >= 0, members[np.maximum(hub, 0)], -1)
+    return cost, hub_global, att
+
+
+def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profile=True,
+            grid=None, rasters=None, prebuilt=None) -> Analysis:
+    """Compute everything the study describes for these line layers and hubs.
+
+    ``prebuilt`` is a :class:`~geo_reach.network.build.BuildResult` of
+    ``specs`` already made (the baseline's, built once to learn the CRS).
+    """
+    from .analysis import metrics as M
+
+    step = progress or (lambda s: None)
+    if prebuilt is None:
+        step("building the network")
+    res = prebuilt if prebuilt is not None else build_or_read(study, specs)
+    net = res.network
+    out = Analysis(build=res, hubs=hubs)
+    routing = study.routing
+    w = routing["weight"]
+    # ---- access
+    if hubs is not None:
+        step("routing to hubs")
+        allm = np.arange(len(hubs.ids))
+        cost, hub, att = _route_to_hubs(net, hubs, allm, routing)
+        out.node_cost, out.node_hub = cost, hub
+        left = np.nonzero(~att.attached)[0]
+        if len(left):
+            out.notes.append(f"{len(left)} hub(s) farther than {routing['max_access_m']:g} m from the network "
+                             f"left out: {', '.join(map(str, hubs.ids[left][:5]))}")
+        out.node_fields["nearest_hub"] = np.where(hub >= 0, hubs.ids[np.maximum(hub, 0)], None)
+        out.node_fields[f"hub_{w}"] = cost
+        for kind, members in _kind_groups(hubs):
+            kc, kh, _ = _route_to_hubs(net, hubs, members, routing)
+            out.kind_costs[kind] = (kc, kh)
+            out.node_fields[f"nearest_{kind}"] = np.where(kh >= 0, hubs.ids[np.maximum(kh, 0)], None)
+            out.node_fields[f"{kind}_{w}"] = kc
+        # hubs layer: nodes and network length served
+        served_nodes = np.bincount(hub[hub >= 0], minlength=len(hubs.ids))
+        half = np.where(np.isnan(net.cost(w)), 0.0, net.edge_length_m) / 2
+        served_len = np.zeros(len(hubs.ids))
+        for end in (net.edge_from, net.edge_to):
+            h = hub[end]
+            ok = h >= 0
+            served_len += np.bincount(h[ok], weights=half[ok], minlength=len(hubs.ids))
+        t = hubs.frame.copy()
+        t["attached"] = att.attached.astype(np.int32)
+        t["access_m"] = np.where(np.isfinite(att.access_m), att.access_m, np.nan)
+        t["served_nodes"] = served_nodes
+        t["served_km"] = served_len / 1000.0
+        out.hub_table = t
+    # ---- metrics
+    step("network metrics")
+    cc = M.component_counts(net, w)
+    d = M.diameter(net, w)
+    mp = M.mean_path(net, w, exact=bool(study.metrics["exact"]) or None, samples=int(study.metrics["samples"]),
+                     seed=int(study.metrics["seed"]))
+    if net.n_nodes <= 5000:
+        eff = M.global_efficiency(net, w)
+        ecc, clo = M.node_centrality(net, w)
+        out.node_fields["eccentricity"] = ecc
+        out.node_fields["closeness"] = clo
+    else:
+        eff = M.estimate_global_efficiency(net, w, samples=int(study.metrics["samples"]), seed=int(study.metrics["seed"]))
+    out.metrics = {
+        "weight": w, "nodes": net.n_nodes, "edges": net.n_edges, "components": cc.components,
+        "largest_component_nodes": cc.largest_component_nodes,
+        "largest_strong_component_nodes": cc.largest_strong_component_nodes,
+        "diameter": {"value": d.value, "from_node": d.from_node, "to_node": d.to_node, "sssp_runs": d.sssp_runs},
+        "mean_path": {"value": mp.value, "ci95_low": mp.ci95_low, "ci95_high": mp.ci95_high, "exact": mp.exact,
+                      "sources": mp.sources},
+        "global_efficiency": eff,
+    }
+    out.diameter_path = _path_frame(net, d.path_nodes, w, d.value)
+    if with_profile:
+        from .analysis.profile import random_sources, sample_profile
+
+        k = int(study.metrics["profile_sources"])
+        src = random_sources(net, k, seed=int(study.metrics["seed"]))
+        out.profile = sample_profile(net, src, w)
+    # ---- surface
+    if study.surface is not None and hubs is not None and out.node_cost is not None:
+        _surface(study, out, net, hubs, step, grid, rasters)
+    return out
+
+
+def _path_frame(net, path_nodes, weight, value):
+    """The diameter path as one LineString row (edges chained along the node path)."""
+    import geopandas as gpd
+    import shapely
+
+    if path_nodes is None or len(path_nodes) < 2:
+        return gpd.GeoDataFrame({"minutes": [], "length_m": [], "cost": []}, geometry=[], crs=net.crs)
+    adj = net.csr(weight)
+    eids = adj.edge_between(path_nodes[:-1], path_nodes[1:])
+    parts = []
+    for a, e in zip(path_nodes[:-1], eids):
+        g = net.edge_geometry[e]
+        parts.append(g if net.edge_from[e] == a else shapely.reverse(g))
+    coords = np.concatenate([shapely.get_coordinates(p) if i == 0 else shapely.get_coordinates(p)[1:]
+                             for i, p in enumerate(parts)])
+    mins = float(np.nansum(net.edge_minutes[eids]))
+    return gpd.GeoDataFrame({"cost": [float(value)], "weight": [weight], "minutes": [mins],
+                             "length_m": [float(net.edge_length_m[eids].sum())], "edges": [len(eids)],
+                             "from_node": [int(path_nodes[0])], "to_node": [int(path_nodes[-1])]},
+                            geometry=[shapely.LineString(coords)], crs=net.crs)
+
+
+def study_grid(study: Study, net, hubs: Hubs, pop_layer=None):
+    """The analysis grid: bounds of network, hubs and population raster plus the margin (or the extent)."""
+    from .ingest.rasters import Grid
+
+    s = study.surface
+    if "extent" in s:
+        bounds = tuple(float(v) for v in s["extent"])
+        margin = 0.0
+    else:
+        xs = [net.node_x.min(), net.node_x.max(), hubs.xy[:, 0].min(), hubs.xy[:, 0].max()]
+        ys = [net.node_y.min(), net.node_y.max(), hubs.xy[:, 1].min(), hubs.xy[:, 1].max()]
+        if pop_layer is not None:
+            from rasterio.warp import transform_bounds
+
+            h, w = pop_layer.data.shape
+            t = pop_layer.transform
+            b = (t.c, t.f + t.e * h, t.c + t.a * w, t.f)
+            b = transform_bounds(pop_layer.crs, net.crs, *b)
+            xs += [b[0], b[2]]
+            ys += [b[1], b[3]]
+        bounds = (min(xs), min(ys), max(xs), max(ys))
+        margin = float(s["margin_m"])
+    return Grid.from_bounds(bounds, float(s["cell_m"]), margin, crs=net.crs)
+
+
+def load_rasters(study: Study, net, hubs: Hubs):
+    """Read and resample the study's rasters once (the grid is shared by the scenarios)."""
+    from .ingest.rasters import read_raster, resample_to_grid
+
+    s = study.surface
+    pop_layer = read_raster(study.resolve(s["population"])) if "population" in s else None
+    grid = study_grid(study, net, hubs, pop_layer)
+    out = {"grid": grid}
+    if pop_layer is not None:
+        out["population"] = resample_to_grid(pop_layer, grid, "population").data
+    if "terrain" in s:
+        out["terrain"] = resample_to_grid(read_raster(study.resolve(s["terrain"])), grid, "terrain").data
+    if "landcover" in s:
+        lc = resample_to_grid(read_raster(study.resolve(s["landcover"])), grid, "classes").data
+        out["landcover"] = np.where(np.isnan(lc), -1, lc).astype(np.int64)
+    if "barriers" in s:
+        from .ingest.layers import parse_layer_ref, read_layer
+
+        ref = parse_layer_ref(_ref(study, s["barriers"], s.get("barriers_layer")))
+        out["barriers"] = read_layer(ref, "polygons").to_crs(net.crs)
+    if study.settlements is not None and "population" not in out:
+        out["population"] = _settlement_population(study, grid)
+    return out
+
+
+def read_settlements(study: Study, crs):
+    from .ingest.layers import parse_layer_ref, read_layer
+
+    t = study.settlements
+    ref = parse_layer_ref(_ref(study, t["path"], t.get("layer")))
+    gdf = read_layer(ref, "points").to_crs(crs)
+    pf = t["population_field"]
+    if pf not in gdf.columns:
+        raise InputError(f"{where(ref.path, ref.layer)}has no field '{pf}' (settlements.population_field)")
+    pop = pd.to_numeric(gdf[pf], errors="coerce")
+    if (pop < 0).any():
+        fid = gdf.index[(pop < 0).to_numpy()][0]
+        raise InputError(f"{where(ref.path, ref.layer, fid, pf)}negative population; fix the value")
+    gdf = gdf.assign(population=pop.fillna(0.0).to_numpy(float))
+    return gdf
+
+
+def _settlement_population(study, grid):
+    s = read_settlements(study, grid.crs)
+    pop = np.zeros(grid.shape)
+    import shapely
+
+    xy = shapely.get_coordinates(s.geometry.values)
+    r, c = grid.index(xy[:, 0], xy[:, 1])
+    ok = (r >= 0) & (r < grid.height) & (c >= 0) & (c < grid.width)
+    np.add.at(pop, (r[ok], c[ok]), s["population"].to_numpy()[ok])
+    return pop
+
+
+def _surface(study, out, net, hubs, step, grid, rasters):
+    from .analysis.bands import band_polygons, population_stats, rural_access_index, sample_points, zone_table
+    from .analysis.regions import weak_regions
+    from .analysis.surface import compute_surface
+
+    s = study.surface
+    routing = study.routing
+    if rasters is None:
+        step("reading rasters")
+        rasters = load_rasters(study, net, hubs)
+    grid = rasters["grid"]
+    out.grid = grid
+    walk = float(routing["walk_kmh"])
+    kw = dict(walk_kmh=walk, terrain=rasters.get("terrain"), landcover=rasters.get("landcover"),
+              landcover_speeds={int(k): float(v) for k, v in s.get("landcover_speeds", {}).items()} or None,
+              barriers=rasters.get("barriers"), direction=routing["direction"])
+    if routing["weight"] != "minutes":
+        out.notes.append("the travel-time surface uses minutes whatever routing.weight says")
+        from .analysis.routing import nearest_hub  # noqa: F401
+    step("travel-time surface")
+    node_cost = out.node_cost if routing["weight"] == "minutes" else _minutes_costs(study, net, hubs)[0]
+    node_hub = out.node_hub
+    surf = compute_surface(net, node_cost, node_hub, grid, **kw)
+    out.surface = surf
+    pop = rasters.get("population")
+    out.population = pop
+    bands = s["bands"]
+    bands_txt = [f"{b:g}" for b in bands]
+    hub_ids = list(hubs.ids)
+    out.bands = band_polygons(surf.minutes, surf.nearest_hub, grid, bands_txt, population=pop, hub_ids=hub_ids)
+    if pop is not None:
+        out.pop_stats = population_stats(surf.minutes, pop, bands_txt)
+    for kind, (kc, kh) in out.kind_costs.items():
+        if routing["weight"] != "minutes":
+            continue
+        ks = compute_surface(net, kc, kh, grid, **kw)
+        out.kind_surfaces[kind] = ks
+        if pop is not None:
+            out.kind_pop_stats[kind] = population_stats(ks.minutes, pop, bands_txt)
+    if study.zones is not None:
+        from .ingest.layers import parse_layer_ref, read_layer
+
+        z = study.zones
+        ref = parse_layer_ref(_ref(study, z["path"], z.get("layer")))
+        zones = read_layer(ref, "polygons").to_crs(net.crs)
+        if pop is None:
+            out.notes.append("zones given without population: zone tables skipped")
+        else:
+            out.zones = zone_table(surf.minutes, pop, grid, zones, bands_txt, zone_field=z.get("id_field"))
+    if study.settlements is not None:
+        st = read_settlements(study, net.crs)
+        sp = sample_points(surf.minutes, surf.nearest_hub, grid, st, hub_ids=hub_ids)
+        for kind, ks in out.kind_surfaces.items():
+            kp = sample_points(ks.minutes, ks.nearest_hub, grid, st, hub_ids=hub_ids)
+            sp[f"nearest_{kind}"] = kp["hub_id"].to_numpy()
+            sp[f"{kind}_minutes"] = kp["minutes"].to_numpy()
+        out.settlements = sp
+    weak_t = float(s.get("weak_minutes", max(bands)))
+    hub_nodes = _hub_nodes(net, hubs, routing)
+    out.weak = weak_regions(surf.minutes, surf.entry_node, grid, net, node_cost, hub_nodes, weak_t,
+                            population=pop, direction=routing["direction"])
+    # Rural Access Index when roads carry an all-season flag.
+    allseason = net.extra.get("all_season")
+    if pop is not None and allseason is not None and np.isfinite(allseason.astype(float)).any():
+        road = net.edge_mode == "road"
+        out.rai = rural_access_index(pop, grid, net.edge_geometry[road], np.nan_to_num(allseason[road].astype(float)) > 0)
+    if (net.edge_mode == "cable").any():
+        from .analysis.seeding import cable_connection_m
+
+        out.connection_m = cable_connection_m(net, grid)
+
+
+def _minutes_costs(study, net, hubs):
+    r = dict(study.routing, weight="minutes")
+    cost, hub, _ = _route_to_hubs(net, hubs, np.arange(len(hubs.ids)), r)
+    return cost, hub
+
+
+def _hub_nodes(net, hubs, routing):
+    """The node each hub joins the network at (nearest entry; -1 if left out)."""
+    from .analysis.attach import attach_points
+
+    att = attach_points(net, hubs.xy, "minutes", max_access_m=float(routing["max_access_m"]),
+                        walk_kmh=float(routing["walk_kmh"]))
+    out = np.full(len(hubs.ids), -1, np.int64)
+    for i in range(len(hubs.ids)):
+        legs = np.nonzero(att.leg_point == i)[0]
+        if len(legs) == 0:
+            continue
+        lg = legs[np.argmin(att.leg_walk_m[legs])]
+        out[i] = att.leg_node[lg] if att.leg_edge[lg] < 0 else net.edge_from[att.leg_edge[lg]]
+    return out[out >= 0]
+
+
+# --------------------------------------------------------------------------- outputs
+def _nodes_layer(a: Analysis):
+    nodes = a.build.network.nodes_frame()
+    for k, v in a.node_fields.items():
+        nodes[k] = v
+    return nodes
+
+
+def _edges_layer(a: Analysis):
+    """Edges with the cost to the nearest hub at their cheaper end (``hub_minutes``)."""
+    net = a.build.network
+    e = net.edges_frame()
+    if a.node_cost is not None:
+        c = a.node_cost
+        ends = np.vstack([c[net.edge_from], c[net.edge_to]])
+        with np.errstate(all="ignore"):
+            e[f"hub_{a.metrics.get('weight', 'minutes')}"] = np.where(np.all(np.isnan(ends), axis=0), np.nan,
+                                                                      np.nanmin(ends, axis=0))
+    return e
+
+
+def _pop_dict(ps):
+    if ps is None:
+        return None
+    return {"population_total": ps.population_total, "population_by_band": ps.population_by_band,
+            "population_beyond": ps.population_beyond, "population_unreachable": ps.population_unreachable,
+            "population_weighted_minutes": ps.population_weighted_minutes}
+
+
+def summarise(study: Study, a: Analysis) -> dict:
+    r = a.build.report
+    out = {
+        "network": {k: r[k] for k in ("nodes", "edges", "components", "largest_component_nodes",
+                                      "input_length_m", "network_length_m", "issues", "crs")},
+        "metrics": a.metrics,
+    }
+    if a.profile is not None:
+        g = a.profile.growth
+        out["reach_profile"] = {
+            "sources": len(a.profile.sources),
+            "steps": [{"cost": float(c), "nodes": float(n), "length_m": float(l)}
+                      for c, n, l in zip(a.profile.cost, a.profile.nodes, a.profile.length_m)],
+            "growth": {k: v for k, v in g.__dict__.items()} if hasattr(g, "__dict__") else str(g),
+        }
+    if a.hub_table is not None:
+        out["hubs"] = {"count": int(len(a.hub_table)), "attached": int(a.hub_table["attached"].sum()),
+                       "index_to_hub_id": {str(i + 1): str(h) for i, h in enumerate(a.hubs.ids)}}
+    if a.surface is not None:
+        g = a.grid
+        out["surface"] = {"cell_m": g.cell_m, "width": g.width, "height": g.height,
+                          "clipped_slopes": a.surface.clipped_slopes, "seed_cells": a.surface.seed_cells,
+                          "impassable_cells": a.surface.impassable_cells}
+        out.update(_pop_dict(a.pop_stats) or {})
+        if a.kind_pop_stats:
+            out["by_kind"] = {k: _pop_dict(v) for k, v in a.kind_pop_stats.items()}
+        if a.rai is not None:
+            out["rural_access_index"] = {k: v for k, v in a.rai.__dict__.items()
+                                         if isinstance(v, (int, float, str))}
+        if a.weak is not None:
+            top = a.weak.head(5)
+            out["weak_regions"] = [{"rank": int(row["rank"]), "reason": row["reason"],
+                                    "population": float(row["population"]) if pd.notna(row["population"]) else None,
+                                    "area_km2": float(row["area_km2"])} for _, row in top.iterrows()]
+            out["weak_regions_count"] = int(len(a.weak))
+    out["notes"] = list(a.notes)
+    return out
+
+
+def _sha256(path: Path) -> str:
+    h = hashlib.sha256()
+    with open(path, "rb") as f:
+        for chunk in iter(lambda: f.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def _clean(o):
+    if isinstance(o, dict):
+        return {str(k): _clean(v) for k, v in o.items()}
+    if isinstance(o, (list, tuple)):
+        return [_clean(v) for v in o]
+    if isinstance(o, (np.integer,)):
+        return int(o)
+    if isinstance(o, (np.floating, float)):
+        f = float(o)
+        return None if not np.isfinite(f) else round(f, 6)
+    if isinstance(o, np.bool_):
+        return bool(o)
+    if isinstance(o, np.ndarray):
+        return _clean(o.tolist())
+    return o
+
+
+def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, summary: dict):
+    """Write every output of a run into ``folder`` (a fresh temporary folder)."""
+    from .export.gpkg import write_layers
+    from .export.raster import write_cog
+    from .export.styles import write_styles
+
+    layers = {"edges": _edges_layer(base), "nodes": _nodes_layer(base), "network_issues": base.build.issues}
+    if base.hub_table is not None:
+        layers["hubs"] = base.hub_table
+    layers["diameter_path"] = base.diameter_path
+    if base.bands is not None:
+        layers["reach_bands"] = base.bands
+    if base.weak is not None:
+        layers["weak_regions"] = base.weak
+    if base.settlements is not None:
+        layers["settlements"] = base.settlements
+    if base.zones is not None:
+        layers["zones"] = base.zones.zones
+    for name, sc in scenarios.items():
+        for lname, frame in sc["layers"].items():
+            layers[f"{name}_{lname}"] = frame
+    gpkg = folder / "results.gpkg"
+    write_layers(gpkg, layers)
+    write_styles(gpkg, layers)
+    if base.surface is not None:
+        g = base.grid
+        write_cog(folder / "minutes.tif", base.surface.minutes.astype(np.float32), g.transform, g.crs, np.nan)
+        write_cog(folder / "nearest_hub.tif", base.surface.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
+        for kind, ks in base.kind_surfaces.items():
+            write_cog(folder / f"minutes_{kind}.tif", ks.minutes.astype(np.float32), g.transform, g.crs, np.nan)
+            write_cog(folder / f"nearest_{kind}.tif", ks.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
+        if base.connection_m is not None:
+            write_cog(folder / "connection_m.tif", base.connection_m.astype(np.float32), g.transform, g.crs, np.nan)
+        for name, sc in scenarios.items():
+            if sc.get("delta") is not None:
+                write_cog(folder / f"delta_minutes_{name}.tif", sc["delta"].astype(np.float32), g.transform,
+                          g.crs, np.nan)
+    if base.profile is not None and study.outputs.get("profile_png", True):
+        from .analysis.profile import plot_profile
+
+        plot_profile(base.profile, folder / "reach_profile.png", title=f"{study.title}: reach profile")
+    if study.outputs.get("map", True):
+        _write_map(folder / "map.html", study, base, scenarios)
+    (folder / "summary.json").write_text(json.dumps(_clean(summary), indent=2) + "\n")
+
+
+def _write_map(path, study, base, scenarios):
+    from .export.html_map import Comparison, write_map
+
+    edges = _edges_layer(base)
+    if "hub_minutes" not in edges:
+        edges["hub_minutes"] = np.nan
+    issues = base.build.issues
+    kw = dict(hubs=base.hub_table, bands=base.bands[base.bands["hub_id"].isna()] if base.bands is not None else None,
+              weak=base.weak, diameter=base.diameter_path if len(base.diameter_path) else None,
+              issues=issues.rename(columns={"kind": "issue"}) if len(issues) else None,
+              basemap=bool(study.outputs.get("basemap", False)), title=f"geo-reach: {study.title}")
+    if scenarios:
+        name, sc = next(iter(scenarios.items()))
+        after = sc["edges"]
+        if "hub_minutes" not in after:
+            after["hub_minutes"] = np.nan
+        comp = Comparison(before=edges, after=after, change=sc["layers"].get("edge_change"),
+                          before_label="Today", after_label=f"With {name}")
+        write_map(path, comparison=comp, **kw)
+    else:
+        write_map(path, edges=edges, **kw)
+
+
+# --------------------------------------------------------------------------- scenarios
+def scenario_inputs(study: Study, name: str, base_specs, base_hubs: Hubs | None):
+    """Line specs and hubs of scenario ``name`` (validated against the baseline)."""
+    import geopandas as gpd
+
+    from .ingest.layers import parse_layer_ref, read_layer
+
+    sc = study.scenarios[name]
+    specs = [copy.copy(s) for s in base_specs]
+    labels = [s.name or parse_layer_ref(s.source).label for s in specs]
+    changes = []
+    for key in ("close", "upgrade"):
+        for i, item in enumerate(sc.get(key, [])):
+            lab = item.get("layer")
+            if lab not in labels:
+                raise InputError(f"scenarios.{name}.{key}[{i}].layer: '{lab}' is not a line layer of the study "
+                                 f"(layers: {', '.join(labels)})")
+            k = labels.index(lab)
+            s = specs[k]
+            frame = s.source if isinstance(s.source, gpd.GeoDataFrame) else read_layer(parse_layer_ref(s.source), "lines",
+                                                                                       assume_crs=s.assume_crs)
+            fids = list(item.get("fids", []))
+            missing = [f for f in fids if f not in frame.index]
+            if missing:
+                raise InputError(f"scenarios.{name}.{key}[{i}].fids: feature {missing[0]} does not exist in layer "
+                                 f"'{lab}'; use the feature ids shown as src_fid in the edges layer")
+            if key == "close":
+                frame = frame.drop(index=fids)
+                changes.append(f"closed {len(fids)} feature(s) of {lab}")
+            else:
+                frame = frame.copy()
+                col = "__speed_kmh"
+                base_speed = s.speed_field
+                if base_speed is not None:
+                    frame[col] = pd.to_numeric(frame[base_speed], errors="coerce")
+                else:
+                    frame[col] = np.nan
+                frame.loc[fids, col] = float(item["speed_kmh"])
+                s.speed_field = col
+                if s.class_field is None and s.speed_kmh is None and base_speed is None:
+                    from .network.costs import DEFAULT_SPEED_KMH
+
+                    s.speed_kmh = DEFAULT_SPEED_KMH.get(s.mode)
+                changes.append(f"upgraded {len(fids)} feature(s) of {lab} to {float(item['speed_kmh']):g} km/h")
+            s.source = frame
+            s.name = lab
+    added = layer_specs(study, sc.get("add_lines", []))
+    for s in added:
+        changes.append(f"added line layer {s.name or parse_layer_ref(s.source).label}")
+    specs = specs + added
+    hubs = base_hubs
+    if "add_hubs" in sc or sc.get("remove_hubs"):
+        extra = read_hubs(study, sc["add_hubs"], base_hubs.frame.crs) if "add_hubs" in sc else None
+        missing = [r for r in sc.get("remove_hubs", []) if str(r) not in set(map(str, base_hubs.ids))]
+        if missing:
+            raise InputError(f"scenarios.{name}.remove_hubs: hub {missing[0]!r} is not a hub of the study")
+        hubs = merge_hubs(base_hubs, extra, sc.get("remove_hubs", []))
+        if extra is not None:
+            changes.append(f"added {len(extra.ids)} hub(s)")
+        if sc.get("remove_hubs"):
+            changes.append(f"removed {len(sc['remove_hubs'])} hub(s)")
+    kinds = {"lines": bool(added) or any(k in sc for k in ("upgrade",)), "closure": "close" in sc,
+             "hubs": "add_hubs" in sc or bool(sc.get("remove_hubs"))}
+    return specs, hubs, changes, kinds
+
+
+def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, kinds) -> dict:
+    """Scenario minus baseline: figures for the summary and the change layers."""
+    import geopandas as gpd
+
+    out = {"description": study.scenarios[name].get("description", ""), "changes": changes, "layers": {}}
+    bm, sm = base.metrics, scen.metrics
+    out["diameter_change"] = (sm["diameter"]["value"] or 0) - (bm["diameter"]["value"] or 0)
+    out["mean_path_change"] = (sm["mean_path"]["value"] or 0) - (bm["mean_path"]["value"] or 0)
+    # km of new or upgraded line: added layers' length plus upgraded features' length
+    bnet, snet = base.build.network, scen.build.network
+    new_km = 0.0
+    base_layers = set(bnet.edge_src_layer)
+    new_mask = ~np.isin(snet.edge_src_layer, list(base_layers)) & (snet.edge_mode != "transfer")
+    new_km += float(snet.edge_length_m[new_mask].sum()) / 1000
+    for item in study.scenarios[name].get("upgrade", []):
+        m = (snet.edge_src_layer == item["layer"]) & np.isin(snet.edge_src_fid, item["fids"])
+        new_km += float(snet.edge_length_m[m].sum()) / 1000
+    out["new_or_upgraded_km"] = new_km
+    out["changed_anything"] = bool(changes)
+    delta = None
+    if base.surface is not None and scen.surface is not None:
+        a, b = base.surface.minutes, scen.surface.minutes
+        delta = b - a
+        both_nan = np.isnan(a) & np.isnan(b)
+        delta = np.where(both_nan, np.nan, np.where(np.isnan(a), -np.inf, np.where(np.isnan(b), np.inf, delta)))
+        pop = base.population
+        if pop is not None:
+            newly = {}
+            for t in study.surface["bands"]:
+                key = f"{t:g}"
+                wa = np.nan_to_num(pop[(a <= t)]).sum()
+                wb = np.nan_to_num(pop[(b <= t)]).sum()
+                newly[key] = float(wb - wa)
+            out["people_newly_within"] = newly
+            finite = np.isfinite(delta)
+            out["person_minutes_saved"] = float(-(np.nan_to_num(pop[finite]) * delta[finite]).sum())
+            weak_t = float(study.surface.get("weak_minutes", max(study.surface["bands"])))
+            wa = np.nan_to_num(pop[~(a <= weak_t)]).sum()
+            wb = np.nan_to_num(pop[~(b <= weak_t)]).sum()
+            out["people_leaving_weak_regions"] = float(wa - wb)
+        out["delta"] = np.where(np.isfinite(delta), delta, np.nan)
+    out["edges"] = _edges_layer(scen)
+    # per-settlement and per-zone change
+    if base.settlements is not None and scen.settlements is not None:
+        s = base.settlements[["geometry"]].copy()
+        for col in base.settlements.columns:
+            if col not in ("geometry",):
+                s[col] = base.settlements[col].to_numpy()
+        s["minutes_after"] = scen.settlements["minutes"].to_numpy()
+        s["delta_minutes"] = s["minutes_after"] - s["minutes"]
+        out["layers"]["settlements"] = gpd.GeoDataFrame(s, geometry="geometry", crs=base.settlements.crs)
+    if base.zones is not None and scen.zones is not None:
+        z = base.zones.zones.copy()
+        wm = [c for c in z.columns if "weighted" in c or c.endswith("minutes")]
+        for c in wm:
+            z[f"{c}_after"] = scen.zones.zones[c].to_numpy()
+            z[f"{c}_delta"] = z[f"{c}_after"] - z[c]
+        out["layers"]["zones"] = z
+    # edge change layer: per new-network edge, the change of hub minutes at its cheaper end, on shared geometry
+    se = out["edges"]
+    if "hub_minutes" in se:
+        be = _edges_layer(base)
+        import shapely
+
+        tree = shapely.STRtree(be.geometry.values)
+        mid = shapely.line_interpolate_point(se.geometry.values, 0.5, normalized=True)
+        idx = tree.query_nearest(mid, max_distance=1.0, all_matches=False)
+        before = np.full(len(se), np.nan)
+        before[idx[0]] = be["hub_minutes"].to_numpy()[idx[1]]
+        ch = se[["edge_id", "mode", "length_m", "src_layer", "src_fid", "hub_minutes", "geometry"]].copy()
+        ch["minutes_before"] = before
+        ch["delta_minutes"] = ch["hub_minutes"] - before
+        ch = ch.rename(columns={"hub_minutes": "minutes_after"})
+        out["layers"]["edge_change"] = gpd.GeoDataFrame(ch, geometry="geometry", crs=se.crs)
+    out["kinds"] = kinds
+    return out
+
+
+def rank_scenarios(results: dict, largest_band: str) -> list[dict]:
+    """Rank by people newly within the largest band, then person-minutes saved per km of new line.
+
+    Closures and hub-only changes have no new line: they are ranked by
+    person-minutes saved alone, and the ranking says so.
+    """
+    rows = []
+    for name, r in results.items():
+        newly = (r.get("people_newly_within") or {}).get(largest_band, 0.0)
+        pm = r.get("person_minutes_saved", 0.0)
+        km = r.get("new_or_upgraded_km", 0.0)
+        per_km = pm / km if km > 0 else None
+        rows.append({"scenario": name, "people_newly_within_largest_band": newly,
+                     "person_minutes_saved": pm, "person_minutes_saved_per_km": per_km,
+                     "ranked_by": "person-minutes per km of new or upgraded line" if km > 0 else
+                     "person-minutes alone (no new or upgraded line)"})
+    rows.sort(key=lambda r: (-r["people_newly_within_largest_band"],
+                             -(r["person_minutes_saved_per_km"] if r["person_minutes_saved_per_km"] is not None
+                               else r["person_minutes_saved"])))
+    for i, r in enumerate(rows, 1):
+        r["rank"] = i
+    return rows
+
+
+# --------------------------------------------------------------------------- run
+def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_comparison=False,
+              progress=True, log=print) -> dict:
+    """Run the study into ``outdir`` and return the summary.
+
+    The folder is written as a whole: into a temporary folder beside it,
+    renamed into place at the end.  A folder that already holds results is
+    replaced only with ``overwrite``; a failed run leaves it as it was.
+    """
+    from .export.atomic import atomic_dir
+
+    outdir = Path(outdir)
+    if outdir.exists() and not outdir.is_dir():
+        raise InputError(f"file '{outdir}': is a file, not a folder; choose another output folder")
+    if holds_results(outdir) and not overwrite:
+        raise InputError(f"file '{outdir}': the folder already holds results; pass --overwrite to replace them")
+    names = list(study.scenarios) if scenarios is None else list(scenarios)
+    for n in names:
+        if n not in study.scenarios:
+            raise InputError(f"scenario '{n}' is not in the study (scenarios: {', '.join(study.scenarios) or 'none'})")
+    bar = _Progress(progress, log)
+    timing = {"started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())}
+    t0 = time.perf_counter()
+    specs = layer_specs(study)
+    # hubs need the working CRS: read the first line layer's to pick it
+    bar("building the network")
+    pre = build_or_read(study, specs)
+    crs = pre.network.crs
+    hubs = read_hubs(study, study.hubs, crs) if study.hubs else None
+    rasters = None
+    if study.surface is not None and hubs is not None:
+        bar("reading rasters")
+        rasters = load_rasters(study, pre.network, hubs)
+    base = analyse(study, specs, hubs, progress=bar, rasters=rasters, prebuilt=pre)
+    timing["baseline_s"] = round(time.perf_counter() - t0, 3)
+    results = {}
+    for n in names:
+        t1 = time.perf_counter()
+        bar(f"scenario {n}")
+        sspecs, shubs, changes, kinds = scenario_inputs(study, n, specs, hubs)
+        if not changes:
+            log(f"scenario {n}: changes nothing (reported, still mapped)")
+        scen = analyse(study, sspecs, shubs, progress=bar, with_profile=False, rasters=rasters)
+        results[n] = compare(study, n, base, scen, changes, kinds)
+        results[n]["proposal_notes"] = scen.notes + [
+            f"{k} of {v} issue spots in the scenario network" for k, v in scen.build.report["issues"].items()
+            if v and v != base.build.report["issues"].get(k)]
+        timing[f"scenario_{n}_s"] = round(time.perf_counter() - t1, 3)
+        results[n]["reuse"] = ("the scenario network was rebuilt and routed in full; the grid, rasters and "
+                               "hub reading were reused from the baseline")
+    summary = {
+        "tool": "geo-reach", "version": __version__, "caution": CAUTION, "title": study.title,
+        "study": study.raw,
+        "inputs": {str(p.relative_to(study.base)) if p.is_relative_to(study.base) else str(p): _sha256(p)
+                   for p in study.input_files() if p.is_file()},
+        "baseline": summarise(study, base),
+    }
+    if names:
+        largest = f"{max(study.surface['bands']):g}" if study.surface else ""
+        summary["scenarios"] = {n: {k: v for k, v in r.items() if k not in ("layers", "delta", "edges")}
+                                for n, r in results.items()}
+        summary["scenario_ranking"] = rank_scenarios(summary["scenarios"], largest)
+    bar("writing outputs")
+    with atomic_dir(outdir) as tmp:
+        timing["total_s"] = round(time.perf_counter() - t0, 3)
+        summary["timing"] = timing
+        write_outputs(tmp, study, base, results, summary)
+    bar.close()
+    return summary
+
+
+class _Progress:
+    """Step names with elapsed time on stderr (a progress line per long step)."""
+
+    def __init__(self, enabled, log):
+        import sys
+
+        self.enabled = enabled
+        self.t0 = time.perf_counter()
+        self.out = sys.stderr
+
+    def __call__(self, step):
+        if self.enabled:
+            print(f"[{time.perf_counter() - self.t0:6.1f} s] {step} ...", file=self.out, flush=True)
+
+    def close(self):
+        if self.enabled:
+            print(f"[{time.perf_counter() - self.t0:6.1f} s] done", file=self.out, flush=True)

@@ -1,0 +1,315 @@
+"""Study files: the whole analysis described in one TOML file, validated before any work.
+
+A study names the line layers with their cost rules, the hubs, the rasters
+or settlements, zones, barriers, the grid, the thresholds and the scenarios.
+Paths are relative to the study file.  :func:`load_study` validates
+everything up front: an unknown key at any level, a wrong type or a missing
+file is one :class:`~geo_reach.errors.InputError` naming the dotted key and,
+where the text shows it, its line.
+
+Example (the invented demo region ships one as ``data_samples/study.toml``)::
+
+    title = "Example study"
+
+    [network]
+    snap_m = 1.0
+
+    [[lines]]
+    path = "region.gpkg"
+    layer = "roads"
+    mode = "road"
+    class_field = "class"
+
+    [hubs]
+    path = "hubs.geojson"
+    id_field = "hub_id"
+    kind_field = "kind"
+
+    [surface]
+    cell_m = 100
+    bands = [30, 60, 120]
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from .errors import InputError, MissingInputError
+
+__all__ = ["Study", "load_study", "study_from_dict", "SCHEMA"]
+
+# --------------------------------------------------------------------------- schema
+# A schema entry is a type (str, float, int, bool), a ("file", family) pair for
+# a path that must exist, a dict (a table with these keys), [dict] (an array
+# of such tables), ("list", type), ("map", type) (a table of free keys with
+# values of that type), or ("choice", options).
+_FILE = ("file", None)
+_LINE_TABLE = {
+    "path": _FILE, "layer": str, "mode": ("choice", ("road", "rail", "cable")), "name": str,
+    "speed_field": str, "class_field": str, "class_speeds": ("map", float), "speed_kmh": float,
+    "oneway_field": str, "level_field": str, "all_season_field": str,
+    "stations": _FILE, "stations_layer": str, "boarding_minutes": float, "assume_crs": str,
+}
+_POINTS_TABLE = {"path": _FILE, "layer": str, "id_field": str, "kind_field": str, "name_field": str,
+                 "assume_crs": str}
+SCHEMA: dict = {
+    "title": str,
+    "network": {"crs": str, "snap_m": float, "dangle_m": float, "access_snap_m": float, "prebuilt": _FILE},
+    "lines": [_LINE_TABLE],
+    "hubs": _POINTS_TABLE,
+    "routing": {"weight": ("choice", ("minutes", "length_m", "latency_ms", "hops")),
+                "direction": ("choice", ("to-hub", "from-hub")),
+                "max_access_m": float, "walk_kmh": float},
+    "metrics": {"samples": int, "seed": int, "exact": bool, "profile_sources": int},
+    "surface": {"cell_m": float, "margin_m": float, "extent": ("list", float), "terrain": _FILE,
+                "landcover": _FILE, "landcover_speeds": ("map", float), "barriers": _FILE,
+                "barriers_layer": str, "population": _FILE, "bands": ("list", float),
+                "weak_minutes": float},
+    "settlements": {"path": _FILE, "layer": str, "id_field": str, "name_field": str,
+                    "population_field": str},
+    "zones": {"path": _FILE, "layer": str, "id_field": str, "name_field": str},
+    "outputs": {"map": bool, "basemap": bool, "profile_png": bool},
+    "scenarios": ("map", {
+        "description": str,
+        "add_lines": [_LINE_TABLE],
+        "add_hubs": _POINTS_TABLE,
+        "remove_hubs": ("list", str),
+        "close": [{"layer": str, "fids": ("list", int)}],
+        "upgrade": [{"layer": str, "fids": ("list", int), "speed_kmh": float}],
+    }),
+}
+
+
+def _type_name(t) -> str:
+    if isinstance(t, type):
+        return {"str": "a string", "float": "a number", "int": "an integer", "bool": "true or false"}[t.__name__]
+    if isinstance(t, dict):
+        return "a table"
+    if isinstance(t, list):
+        return "an array of tables ([[...]])"
+    kind = t[0]
+    if kind == "file":
+        return "a file path (string)"
+    if kind == "list":
+        return f"an array of {_type_name(t[1]).split(' ', 1)[1]}s"
+    if kind == "map":
+        return "a table"
+    if kind == "choice":
+        return "one of " + ", ".join(repr(o) for o in t[1])
+    return str(t)
+
+
+class _Locator:
+    """Find the line of a dotted key in the TOML text (best effort; tomllib keeps no positions)."""
+
+    def __init__(self, text: str):
+        self.lines = text.splitlines()
+
+    def line_of(self, dotted: str) -> int | None:
+        parts = [p for p in re.split(r"\.", re.sub(r"\[\d+\]", "", dotted))]
+        key = parts[-1]
+        table = ".".join(parts[:-1])
+        current = ""
+        candidates = []
+        for i, raw in enumerate(self.lines, 1):
+            s = raw.strip()
+            m = re.match(r"^\[\[?\s*([^\]]+?)\s*\]\]?", s)
+            if m:
+                current = m.group(1).replace('"', "")
+                if current == ".".join(parts) or (not table and current == key):
+                    candidates.append(i)
+                continue
+            m = re.match(r'^"?([A-Za-z0-9_\-]+)"?\s*=', s)
+            if m and m.group(1) == key and current == table:
+                candidates.append(i)
+        return candidates[0] if candidates else None
+
+
+@dataclass
+class Study:
+    """A validated study: the TOML as read (``raw``), resolved paths, and defaults applied."""
+
+    path: Path | None
+    raw: dict
+    base: Path
+    title: str = "geo-reach study"
+    network: dict = field(default_factory=dict)
+    lines: list = field(default_factory=list)
+    hubs: dict | None = None
+    routing: dict = field(default_factory=dict)
+    metrics: dict = field(default_factory=dict)
+    surface: dict | None = None
+    settlements: dict | None = None
+    zones: dict | None = None
+    outputs: dict = field(default_factory=dict)
+    scenarios: dict = field(default_factory=dict)
+
+    @property
+    def name(self) -> str:
+        return self.path.stem if self.path else "study"
+
+    def input_files(self) -> list[Path]:
+        """Every file the study reads (for checksums in the summary)."""
+        out = []
+
+        def walk(node, schema):
+            if isinstance(schema, dict) and isinstance(node, dict):
+                for k, v in node.items():
+                    walk(v, schema.get(k))
+            elif isinstance(schema, list) and isinstance(node, list):
+                for v in node:
+                    walk(v, schema[0])
+            elif isinstance(schema, tuple) and schema[0] == "map" and isinstance(node, dict):
+                for v in node.values():
+                    walk(v, schema[1])
+            elif schema == _FILE and isinstance(node, str):
+                out.append(self.resolve(node))
+
+        walk(self.raw, SCHEMA)
+        return sorted(set(out))
+
+    def resolve(self, p: str) -> Path:
+        q = Path(p)
+        return q if q.is_absolute() else (self.base / q)
+
+
+def _check(node, schema, dotted, errors, base, loc):
+    def fail(msg, key=dotted):
+        line = loc.line_of(key) if loc else None
+        errors.append(f"{key}{f' (line {line})' if line else ''}: {msg}")
+
+    if isinstance(schema, dict):
+        if not isinstance(node, dict):
+            return fail(f"must be {_type_name(schema)}")
+        for k, v in node.items():
+            sub = f"{dotted}.{k}" if dotted else k
+            if k not in schema:
+                return fail(f"unknown key; expected one of {', '.join(sorted(schema))}", sub)
+            _check(v, schema[k], sub, errors, base, loc)
+        return None
+    if isinstance(schema, list):
+        if not isinstance(node, list) or not all(isinstance(x, dict) for x in node):
+            return fail(f"must be {_type_name(schema)}")
+        for i, v in enumerate(node):
+            _check(v, schema[0], f"{dotted}[{i}]", errors, base, loc)
+        return None
+    if isinstance(schema, tuple):
+        kind = schema[0]
+        if kind == "file":
+            if not isinstance(node, str):
+                return fail("must be a file path (string)")
+            path_part = node
+            q = Path(path_part)
+            q = q if q.is_absolute() else base / q
+            if not q.exists():
+                return fail(f"file '{node}' not found (paths are relative to the study file)")
+            return None
+        if kind == "choice":
+            if node not in schema[1]:
+                return fail(f"{node!r} is not {_type_name(schema)}")
+            return None
+        if kind == "list":
+            if not isinstance(node, list):
+                return fail(f"must be {_type_name(schema)}")
+            for i, v in enumerate(node):
+                _check(v, schema[1], f"{dotted}[{i}]", errors, base, loc)
+            return None
+        if kind == "map":
+            if not isinstance(node, dict):
+                return fail("must be a table")
+            for k, v in node.items():
+                _check(v, schema[1], f"{dotted}.{k}", errors, base, loc)
+            return None
+    if schema is float:
+        if isinstance(node, bool) or not isinstance(node, (int, float)):
+            return fail("must be a number")
+        return None
+    if schema is int:
+        if isinstance(node, bool) or not isinstance(node, int):
+            return fail("must be an integer")
+        return None
+    if schema is bool:
+        if not isinstance(node, bool):
+            return fail("must be true or false")
+        return None
+    if schema is str:
+        if not isinstance(node, str):
+            return fail("must be a string")
+        return None
+    return fail("unsupported value")
+
+
+def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str | None = None) -> Study:
+    """Validate ``raw`` (a parsed study) and return a :class:`Study`.
+
+    Raises
+    ------
+    InputError
+        The first problem found, naming the dotted key (and its line when
+        ``text`` is given).
+    """
+    errors: list[str] = []
+    loc = _Locator(text) if text is not None else None
+    _check(raw, SCHEMA, "", errors, base, loc)
+    where_ = f"file '{path}': " if path else ""
+    if errors:
+        raise InputError(f"{where_}{errors[0]}")
+    if not raw.get("lines") and not raw.get("network", {}).get("prebuilt"):
+        raise InputError(f"{where_}lines: the study names no line layer; add a [[lines]] table with a path")
+    for i, ln in enumerate(raw["lines"]):
+        if "path" not in ln:
+            raise InputError(f"{where_}lines[{i}].path: missing; every [[lines]] table needs a path")
+    for key in ("hubs", "settlements", "zones"):
+        if key in raw and "path" not in raw[key]:
+            raise InputError(f"{where_}{key}.path: missing; the [{key}] table needs a path")
+    if "settlements" in raw and "population_field" not in raw["settlements"]:
+        raise InputError(f"{where_}settlements.population_field: missing; name the field holding each "
+                         "settlement's population")
+    for name, sc in raw.get("scenarios", {}).items():
+        for i, ln in enumerate(sc.get("add_lines", [])):
+            if "path" not in ln:
+                raise InputError(f"{where_}scenarios.{name}.add_lines[{i}].path: missing")
+    surface = raw.get("surface")
+    if surface is not None:
+        bands = surface.get("bands", [30, 60, 120])
+        if not bands or any(b <= 0 for b in bands):
+            raise InputError(f"{where_}surface.bands: give positive minutes, e.g. [30, 60, 120]")
+        if "extent" in surface and len(surface["extent"]) != 4:
+            raise InputError(f"{where_}surface.extent: give [xmin, ymin, xmax, ymax] in the working CRS")
+    return Study(
+        path=path, raw=raw, base=base, title=raw.get("title", path.stem if path else "geo-reach study"),
+        network=dict(raw.get("network", {})), lines=list(raw.get("lines", [])), hubs=raw.get("hubs"),
+        routing={"weight": "minutes", "direction": "to-hub", "max_access_m": 5000.0, "walk_kmh": 5.0,
+                 **raw.get("routing", {})},
+        metrics={"samples": 200, "seed": 0, "exact": False, "profile_sources": 20, **raw.get("metrics", {})},
+        surface=({"cell_m": 100.0, "margin_m": 2000.0, "bands": [30.0, 60.0, 120.0], **surface}
+                 if surface is not None else None),
+        settlements=raw.get("settlements"), zones=raw.get("zones"),
+        outputs={"map": True, "basemap": False, "profile_png": True, **raw.get("outputs", {})},
+        scenarios=dict(raw.get("scenarios", {})),
+    )
+
+
+def load_study(path) -> Study:
+    """Read and validate a study TOML file.
+
+    Raises
+    ------
+    MissingInputError
+        The file does not exist.
+    InputError
+        Not valid TOML (with its line), or a key problem (dotted key and line).
+    """
+    path = Path(path)
+    if not path.exists():
+        raise MissingInputError(f"file '{path}': study file not found; check the path or run geo-reach init")
+    text = path.read_text(encoding="utf-8")
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise InputError(f"file '{path}': not valid TOML ({err}); fix the line shown") from err
+    return study_from_dict(raw, path.parent, path, text)
