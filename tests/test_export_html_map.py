@@ -243,3 +243,13 @@ def test_bad_input(tmp_path, layers):
 def test_custom_caution_is_shown_escaped(layers):
     page = render_map(hubs=layers["hubs"], caution="Check <with> the district office & surveys")
     assert "Check &lt;with&gt; the district office &amp; surveys" in page
+
+
+def test_point_layers_are_circles_never_default_markers(layers):
+    """Leaflet's default marker loads an icon image file; every point layer must use circle markers."""
+    before, after, _ = sample_comparison(layers["edges"])
+    pts = layers["hubs"][["name", "geometry"]].assign(delta_minutes=[-3.0, 0.0, 7.0])
+    page = render_map(issues=layers["issues"], comparison=Comparison(before, after, pts))
+    assert page.count("new L.CircleMarker(") == 2
+    assert "new L.Marker(" not in page and "L.marker(" not in page.split("Leaflet 1.9.4", 1)[1].split("</script>", 1)[1]
+    assert 'gr-sw-point" style="background:' in page  # the change legend shows point swatches

@@ -150,13 +150,13 @@ def test_text_from_data_is_escaped_in_xml():
     assert nasty in lits
 
 
-@pytest.mark.parametrize("kind", ["line", "polygon"])
+@pytest.mark.parametrize("kind", ["line", "polygon", "point"])
 def test_change_style_diverging_and_covering(layers, kind):
     _, _, change = sample_comparison(layers["edges"])
     d = change["delta_minutes"].to_numpy(float)
     _, rules = _check_document(change_sld(d, kind))
     classes = P.change_classes(d)
-    sym = "se:LineSymbolizer" if kind == "line" else "se:PolygonSymbolizer"
+    sym = {"line": "se:LineSymbolizer", "polygon": "se:PolygonSymbolizer", "point": "se:PointSymbolizer"}[kind]
     assert all(r.find(sym, NS) is not None for r in rules)
     for v in list(d) + [-1e5, 1e5, 0.0, -0.5, 0.5]:
         hit = _rule_for(rules, {"delta_minutes": float(v)})
@@ -176,6 +176,9 @@ def test_sld_for_and_write_styles_beside_the_gpkg(tmp_path, layers):
         root = ET.parse(p).getroot()
         assert root.find("sld:NamedLayer/se:Name", NS).text == layer
     assert sld_for("diameter", layers["diameter"]) is None
+    pts = layers["hubs"][["geometry"]].assign(delta_minutes=[-3.0, 0.0, 7.0])
+    assert "PointSymbolizer" in sld_for("scen_settlements", pts)
+    assert "hub_minutes" in sld_for("scen_edges", layers["edges"])
     assert sld_for("summary", layers["hubs"].drop(columns="geometry").copy()) is None
     before = written[0].read_bytes()
     with pytest.raises(OutputExistsError, match="style file already exists"):

@@ -240,6 +240,8 @@ def _geojson_layer(frame, styles, tip_fields, pop_fields, name, *, point=False, 
                        class_name="gr-pop", max_width=360,
                        **{"maxHeight": 300, "autoPanPaddingTopLeft": [60, 70],
                           "autoPanPaddingBottomRight": [300, 50]}) if pop_fields else None
+    # points are always drawn as circles: Leaflet's default marker would load an icon image
+    point = point or bool(frame.geometry.geom_type.isin(["Point", "MultiPoint"]).any())
     marker = folium.CircleMarker(location=None, radius=6) if point else None
     return folium.GeoJson(data, name=html.escape(name), tooltip=tip, popup=pop, marker=marker,
                           overlay=overlay, show=show, control=control)
@@ -466,6 +468,9 @@ def render_map(*, edges=None, hubs=None, bands=None, weak=None, diameter=None, i
             miss = f["delta_minutes"].isna().to_numpy()
             if fam == "polygon":
                 styles = [{"color": c, "weight": 0.3, "fillColor": c, "fillOpacity": 0.7} for c in cols]
+            elif fam == "point":
+                styles = [{"color": P.OUTLINE, "weight": 1, "fill": True, "fillColor": c, "fillOpacity": 0.95,
+                           "radius": 6} for c in cols]
             else:
                 styles = [{"color": c, "weight": 2 if m else 4, "opacity": 0.95, **({"dashArray": "4 4"} if m else {})}
                           for c, m in zip(cols, miss)]
@@ -476,9 +481,8 @@ def render_map(*, edges=None, hubs=None, bands=None, weak=None, diameter=None, i
             rows[0] = (rows[0][0], rows[0][1] + " (faster)", False)
             rows[-1] = (rows[-1][0], rows[-1][1] + " (slower)", False)
             if miss.any():
-                rows.append((P.NO_VALUE, "no route before or after", True))
-            legend.append(_legend_section(lay.get_name(), "Change in minutes (after \u2212 before)", rows,
-                                          "polygon" if fam == "polygon" else "line"))
+                rows.append((P.NO_VALUE, "no value before or after (new, closed or unreachable)", True))
+            legend.append(_legend_section(lay.get_name(), "Change in minutes (after \u2212 before)", rows, fam))
             toggles[lay.get_name()] = lay.get_name()
 
         # diameter path
@@ -497,8 +501,8 @@ def render_map(*, edges=None, hubs=None, bands=None, weak=None, diameter=None, i
             f = frames["issues"]
             fam = _geom_family(f)
             if fam == "point":
-                styles = [{"color": P.OUTLINE, "weight": 1.5, "fill": True, "fillColor": P.ISSUE_COLOUR,
-                           "fillOpacity": 0.95, "radius": 6}] * len(f)
+                styles = [{"color": P.OUTLINE, "weight": 1, "fill": True, "fillColor": P.ISSUE_COLOUR,
+                           "fillOpacity": 0.9, "radius": 4.5}] * len(f)
             else:
                 styles = [{"color": P.ISSUE_COLOUR, "weight": 4, "opacity": 0.9, "fillColor": P.ISSUE_COLOUR,
                            "fillOpacity": 0.4}] * len(f)

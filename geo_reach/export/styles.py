@@ -262,21 +262,27 @@ def change_sld(delta_minutes, geometry: str = "line", layer: str = "change") -> 
 
     Parameters
     ----------
-    geometry : {"line", "polygon"}
-        Lines (network links) or polygons (cells, regions).
+    geometry : {"line", "polygon", "point"}
+        Lines (network links), polygons (cells, regions) or points (settlements).
     """
-    if geometry not in ("line", "polygon"):
-        raise OptionError(f"geometry must be 'line' or 'polygon', not {geometry!r}")
+    draw = {"line": lambda r, c: _line(r, c, 2.5),
+            "polygon": lambda r, c: _polygon(r, c, 0.75, width=0.2),
+            "point": lambda r, c: _circle(r, c, 8.0)}
+    if geometry not in draw:
+        raise OptionError(f"geometry must be 'line', 'polygon' or 'point', not {geometry!r}")
     classes = P.change_classes(np.asarray(list(delta_minutes), dtype=float))
     root, fts = _document(layer, "Change in minutes (after minus before)",
                           "Negative: faster after the change; positive: slower. Model estimates only.")
     for i, c in enumerate(classes):
         rule = _rule(fts, f"change_{i + 1}", f"{c.label} min")
         _range_filter(rule, "delta_minutes", c.lo, c.hi)
-        (_line(rule, c.colour, 2.5) if geometry == "line" else _polygon(rule, c.colour, 0.75, width=0.2))
-    rule = _rule(fts, "no_value", "no value (no route before or after)")
+        draw[geometry](rule, c.colour)
+    rule = _rule(fts, "no_value", "no value before or after (new, closed or unreachable)")
     _null_filter(rule, "delta_minutes")
-    (_line(rule, P.NO_VALUE, 1.2, dash="4 3") if geometry == "line" else _polygon(rule, P.NO_VALUE, 0.4, width=0.2))
+    if geometry == "line":
+        _line(rule, P.NO_VALUE, 1.2, dash="4 3")
+    else:
+        draw[geometry](rule, P.NO_VALUE)
     return _text(root)
 
 
@@ -284,6 +290,8 @@ def _geometry_kind(frame) -> str:
     types = set(frame.geometry.geom_type.dropna().unique()) if len(frame) else set()
     if types and types <= {"Polygon", "MultiPolygon"}:
         return "polygon"
+    if types and types <= {"Point", "MultiPoint"}:
+        return "point"
     return "line"
 
 
@@ -303,7 +311,7 @@ def sld_for(name: str, frame) -> str | None:
         return reach_bands_sld(frame["band_minutes"], layer=name)
     if name == "weak_regions" and "reason" in cols:
         return weak_regions_sld(frame["reason"], layer=name)
-    if "hub_minutes" in cols and _geometry_kind(frame) == "line" and name.startswith("edges"):
+    if "hub_minutes" in cols and _geometry_kind(frame) == "line" and (name == "edges" or name.endswith("_edges")):
         return edges_sld(frame["hub_minutes"], layer=name)
     if name == "hubs" and "kind" in cols:
         return hubs_sld(frame["kind"], layer=name)
