@@ -832,11 +832,12 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
     timing = {"started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())}
     t0 = time.perf_counter()
     specs = layer_specs(study)
-    # hubs need the working CRS: read the first line layer's to pick it
-    bar("building the network")
+    # Everything that can be refused is checked before the long steps start.
     pre = build_or_read(study, specs)
     crs = pre.network.crs
     hubs = read_hubs(study, study.hubs, crs) if study.hubs else None
+    planned = {n: scenario_inputs(study, n, specs, hubs) for n in names}
+    bar("network built")
     rasters = None
     if study.surface is not None and hubs is not None:
         bar("reading rasters")
@@ -847,7 +848,7 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
     for n in names:
         t1 = time.perf_counter()
         bar(f"scenario {n}")
-        sspecs, shubs, changes, kinds = scenario_inputs(study, n, specs, hubs)
+        sspecs, shubs, changes, kinds = planned[n]
         if not changes:
             log(f"scenario {n}: changes nothing (reported, still mapped)")
         scen = analyse(study, sspecs, shubs, progress=bar, with_profile=False, rasters=rasters)

@@ -1,0 +1,184 @@
+"""Study files and the pipeline: validation, runs, scenarios, determinism."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+import rasterio
+
+from geo_reach.errors import InputError
+from geo_reach.study import load_study
+
+sys.path.insert(0, str(Path(__file__).parent))
+from studykit import write_study  # noqa: E402
+
+
+def cli(*args):
+    p = subprocess.run([sys.executable, "-m", "geo_reach", *map(str, args)], capture_output=True, text=True)
+    return p.returncode, p.stdout, p.stderr
+
+
+def one_line_error(args, *words):
+    code, out, err = cli(*args)
+    assert code == 2, err
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert len(lines) == 1, err
+    for w in words:
+        assert w in lines[0], (w, lines[0])
+    return lines[0]
+
+
+# ----------------------------------------------------------------------------- validation
+@pytest.mark.parametrize("extra, key", [
+    ("\n[routing]\nspeedy = 3\n", "routing.speedy"),
+    ("\n[scenarios.north_link]\nspeed_kmh = 40\n", "scenarios.north_link.speed_kmh"),
+    ("\n[routing]\nwalk_kmh = \"fast\"\n", "routing.walk_kmh"),
+    ("\n[outputs]\nmap = 1\n", "outputs.map"),
+])
+def test_unknown_key_or_wrong_type_names_the_dotted_key_and_line(tmp_path, extra, key):
+    p = write_study(tmp_path, extra=extra, proposal=False)
+    with pytest.raises(InputError) as e:
+        load_study(p)
+    msg = str(e.value)
+    assert key in msg
+    line_no = next(i for i, ln in enumerate(p.read_text().splitlines(), 1)
+                   if ln.strip().startswith(key.split(".")[-1]) or ln.strip() == f"[{key}]")
+    assert f"line {line_no}" in msg
+
+
+def test_missing_file_names_the_key(tmp_path):
+    p = write_study(tmp_path, proposal=False)
+    p.write_text(p.read_text().replace('population = "pop.tif"', 'population = "nope.tif"'))
+    with pytest.raises(InputError, match=r"surface\.population.*nope\.tif"):
+        load_study(p)
+
+
+def test_duplicate_scenario_names_are_refused(tmp_path):
+    """TOML itself forbids defining a table twice; the message carries the parser's line."""
+    p = write_study(tmp_path)
+    p.write_text(p.read_text() + '\n[scenarios.far_link]\ndescription = "again"\n')
+    msg = one_line_error(["run", p, "-o", tmp_path / "out"], "study.toml", "line")
+    assert not (tmp_path / "out").exists(), msg
+
+
+def test_closing_a_feature_that_does_not_exist(tmp_path):
+    p = write_study(tmp_path, extra='\n[scenarios.shut]\nclose = [{ layer = "roads", fids = [9999] }]\n')
+    one_line_error(["run", p, "-o", tmp_path / "out"], "scenarios.shut.close", "9999")
+    assert not (tmp_path / "out").exists()
+
+
+# ----------------------------------------------------------------------------- running
+@pytest.fixture(scope="module")
+def ran(tmp_path_factory):
+    d = tmp_path_factory.mktemp("study")
+    p = write_study(d)
+    out = d / "out"
+    code, stdout, err = cli("run", p, "-o", out, "--quiet")
+    assert code == 0, err
+    return p, out, stdout
+
+
+def test_run_writes_the_promised_outputs(ran):
+    import pyogrio
+
+    p, out, stdout = ran
+    layers = set(pyogrio.list_layers(out / "results.gpkg")[:, 0])
+    assert {"edges", "nodes", "hubs", "network_issues", "diameter_path", "reach_bands", "weak_regions",
+            "settlements", "zones"} <= layers
+    assert {"far_link_settlements", "far_link_zones", "far_link_edge_change"} <= layers
+    for f in ("minutes.tif", "nearest_hub.tif", "minutes_clinic.tif", "delta_minutes_far_link.tif",
+              "summary.json", "map.html", "reach_profile.png"):
+        assert (out / f).exists(), f
+    s = json.loads((out / "summary.json").read_text())
+    assert s["caution"].startswith("Model estimates")
+    b = s["baseline"]
+    assert b["population_total"] == pytest.approx(3600.0)           # 60 x 60 cells of one person
+    largest = b["population_by_band"]["60"]
+    assert largest + b["population_beyond"] == pytest.approx(b["population_total"])
+    assert "map:" in stdout and "Model estimates" in stdout
+
+
+def test_nodes_layer_merges_build_access_and_metrics(ran):
+    import geopandas as gpd
+
+    _, out, _ = ran
+    n = gpd.read_file(out / "results.gpkg", layer="nodes")
+    for f in ("node_id", "degree", "component", "entry", "nearest_hub", "hub_minutes", "nearest_clinic",
+              "clinic_minutes", "nearest_market", "market_minutes", "eccentricity", "closeness"):
+        assert f in n.columns, f
+
+
+def test_hand_checked_figures(ran):
+    """The grid is 3 km x 3 km (grid metres) of 30 km/h streets: corner to corner is 6 km of
+    street.  On the ground that is 6000 / 0.9996 m, since the grid sits on the UTM central
+    meridian where the scale factor is k0 = 0.9996 (the UTM definition, common practice):
+    6002.4 m at 30 km/h = 12.0048 minutes."""
+    _, out, _ = ran
+    s = json.loads((out / "summary.json").read_text())
+    assert s["baseline"]["metrics"]["diameter"]["value"] == pytest.approx(6000 / 0.9996 / 30_000 * 60, rel=2e-5)
+
+
+def test_scenario_figures(ran):
+    _, out, _ = ran
+    s = json.loads((out / "summary.json").read_text())
+    sc = s["scenarios"]
+    assert sc["far_link"]["new_or_upgraded_km"] == pytest.approx(2.828, rel=0.01)   # the proposed diagonal
+    assert sc["new_clinic"]["new_or_upgraded_km"] == 0
+    for name in ("far_link", "new_clinic"):
+        assert sc[name]["person_minutes_saved"] >= 0
+        assert all(v >= 0 for v in sc[name]["people_newly_within"].values())
+    ranks = {r["scenario"]: r for r in s["scenario_ranking"]}
+    assert "alone" in ranks["new_clinic"]["ranked_by"]
+    with rasterio.open(out / "delta_minutes_far_link.tif") as ds:
+        d = ds.read(1, masked=True)
+    assert float(d.max()) <= 1e-9      # adding a line never makes a cell slower
+
+
+def test_refuses_a_folder_holding_results_and_keeps_it(ran):
+    p, out, _ = ran
+    before = (out / "summary.json").read_bytes()
+    one_line_error(["run", p, "-o", out], "already holds results", "--overwrite")
+    assert (out / "summary.json").read_bytes() == before
+
+
+def test_failed_run_leaves_old_results(ran, tmp_path):
+    p, out, _ = ran
+    import shutil
+
+    d = tmp_path / "copy"
+    shutil.copytree(p.parent, d, ignore=shutil.ignore_patterns("out"))
+    old = tmp_path / "old"
+    shutil.copytree(out, old)
+    (d / "study.toml").write_text((d / "study.toml").read_text() + '\n[scenarios.shut]\nclose = [{ layer = "roads", fids = [9999] }]\n')
+    one_line_error(["run", d / "study.toml", "-o", old, "--overwrite"], "9999")
+    assert (old / "summary.json").read_bytes() == (out / "summary.json").read_bytes()
+
+
+def test_same_study_twice_gives_identical_summary_and_rasters(ran, tmp_path):
+    p, out, _ = ran
+    out2 = tmp_path / "again"
+    code, _, err = cli("run", p, "-o", out2, "--quiet")
+    assert code == 0, err
+    a = json.loads((out / "summary.json").read_text())
+    b = json.loads((out2 / "summary.json").read_text())
+    a.pop("timing"); b.pop("timing")
+    assert a == b
+    for f in ("minutes.tif", "nearest_hub.tif", "delta_minutes_far_link.tif"):
+        with rasterio.open(out / f) as x, rasterio.open(out2 / f) as y:
+            assert np.array_equal(x.read(1), y.read(1), equal_nan=True)
+    assert (out / "map.html").read_bytes() == (out2 / "map.html").read_bytes()
+
+
+def test_scenario_that_changes_nothing_is_reported_and_still_mapped(tmp_path):
+    p = write_study(tmp_path, extra='\n[scenarios.idle]\ndescription = "nothing"\n', proposal=False)
+    code, out, err = cli("run", p, "-o", tmp_path / "o", "--quiet")
+    assert code == 0, err
+    s = json.loads((tmp_path / "o" / "summary.json").read_text())
+    assert s["scenarios"]["idle"]["changed_anything"] is False
+    assert "changes nothing" in out + err
+    assert (tmp_path / "o" / "map.html").exists()
