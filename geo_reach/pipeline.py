@@ -336,14 +336,20 @@ def load_rasters(study: Study, net, hubs: Hubs):
 
     s = study.surface
     pop_layer = read_raster(study.resolve(s["population"])) if "population" in s else None
+    if pop_layer is not None:
+        _check_overlap(pop_layer, net, float(s["margin_m"]))
     grid = study_grid(study, net, hubs, pop_layer)
     out = {"grid": grid}
     if pop_layer is not None:
         out["population"] = resample_to_grid(pop_layer, grid, "population").data
     if "terrain" in s:
-        out["terrain"] = resample_to_grid(read_raster(study.resolve(s["terrain"])), grid, "terrain").data
+        tl = read_raster(study.resolve(s["terrain"]))
+        _check_overlap(tl, net, float(s["margin_m"]))
+        out["terrain"] = resample_to_grid(tl, grid, "terrain").data
     if "landcover" in s:
-        lc = resample_to_grid(read_raster(study.resolve(s["landcover"])), grid, "classes").data
+        ll = read_raster(study.resolve(s["landcover"]))
+        _check_overlap(ll, net, float(s["margin_m"]))
+        lc = resample_to_grid(ll, grid, "classes").data
         out["landcover"] = np.where(np.isnan(lc), -1, lc).astype(np.int64)
     if "barriers" in s:
         from .ingest.layers import parse_layer_ref, read_layer
@@ -353,6 +359,24 @@ def load_rasters(study: Study, net, hubs: Hubs):
     if study.settlements is not None and "population" not in out:
         out["population"] = _settlement_population(study, grid)
     return out
+
+
+def _check_overlap(layer, net, margin_m):
+    """Refuse a raster lying wholly outside the network's extent (plus the margin)."""
+    from rasterio.warp import transform_bounds
+
+    h, w = layer.data.shape
+    t = layer.transform
+    xs = (t.c, t.c + t.a * w)
+    ys = (t.f, t.f + t.e * h)
+    b = transform_bounds(layer.crs, net.crs, min(xs), min(ys), max(xs), max(ys))
+    nb = (net.node_x.min() - margin_m, net.node_y.min() - margin_m, net.node_x.max() + margin_m,
+          net.node_y.max() + margin_m)
+    if b[0] > nb[2] or b[2] < nb[0] or b[1] > nb[3] or b[3] < nb[1]:
+        raise InputError(f"file '{layer.path}': the raster does not overlap the network "
+                         f"(raster {b[0]:.0f},{b[1]:.0f} - {b[2]:.0f},{b[3]:.0f}; network "
+                         f"{nb[0]:.0f},{nb[1]:.0f} - {nb[2]:.0f},{nb[3]:.0f} in {net.crs.to_string()}); "
+                         "check the raster's CRS and extent")
 
 
 def read_settlements(study: Study, crs):
@@ -897,3 +921,66 @@ class _Progress:
     def close(self):
         if self.enabled:
             print(f"[{time.perf_counter() - self.t0:6.1f} s] done", file=self.out, flush=True)
+
+
+def run_surface(study: Study, outdir, *, overwrite=False, progress=True) -> dict:
+    """The ``surface`` command's run: the study's baseline, written as the surface outputs.
+
+    ``OUTDIR/minutes.tif``, ``nearest_hub.tif`` (and per kind), ``reach.gpkg``
+    (``reach_bands``, ``weak_regions``, plus ``settlements``/``zones``) and
+    ``summary.json`` with the population figures at its top level.
+    """
+    from .export.atomic import atomic_dir
+    from .export.gpkg import write_layers
+    from .export.raster import write_cog
+    from .export.styles import write_styles
+
+    outdir = Path(outdir)
+    if outdir.exists() and not outdir.is_dir():
+        raise InputError(f"file '{outdir}': is a file, not a folder; choose another output folder")
+    if holds_results(outdir) and not overwrite:
+        raise InputError(f"file '{outdir}': the folder already holds results; pass --overwrite to replace them")
+    if study.surface is None or study.hubs is None:
+        raise InputError("a surface needs hubs and a [surface] table")
+    bar = _Progress(progress, print)
+    t0 = time.perf_counter()
+    specs = layer_specs(study)
+    pre = build_or_read(study, specs)
+    hubs = read_hubs(study, study.hubs, pre.network.crs)
+    bar("reading rasters")
+    rasters = load_rasters(study, pre.network, hubs)
+    a = analyse(study, specs, hubs, progress=bar, rasters=rasters, prebuilt=pre, with_profile=False)
+    base = summarise(study, a)
+    summary = {"tool": "geo-reach", "version": __version__, "caution": CAUTION,
+               "population_total": base.get("population_total"),
+               "population_by_band": base.get("population_by_band"),
+               "population_beyond": base.get("population_beyond"),
+               "population_unreachable": base.get("population_unreachable"),
+               "population_weighted_minutes": base.get("population_weighted_minutes"),
+               **{k: v for k, v in base.items() if not k.startswith("population_")},
+               "study": study.raw}
+    bar("writing outputs")
+    with atomic_dir(outdir) as tmp:
+        g = a.grid
+        write_cog(tmp / "minutes.tif", a.surface.minutes.astype(np.float32), g.transform, g.crs, np.nan)
+        write_cog(tmp / "nearest_hub.tif", a.surface.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
+        for kind, ks in a.kind_surfaces.items():
+            write_cog(tmp / f"minutes_{kind}.tif", ks.minutes.astype(np.float32), g.transform, g.crs, np.nan)
+            write_cog(tmp / f"nearest_{kind}.tif", ks.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
+        if a.connection_m is not None:
+            write_cog(tmp / "connection_m.tif", a.connection_m.astype(np.float32), g.transform, g.crs, np.nan)
+        layers = {"reach_bands": a.bands, "weak_regions": a.weak}
+        if a.settlements is not None:
+            layers["settlements"] = a.settlements
+        if a.zones is not None:
+            layers["zones"] = a.zones.zones
+        write_layers(tmp / "reach.gpkg", layers)
+        write_styles(tmp / "reach.gpkg", layers)
+        if a.settlements is not None:
+            a.settlements.drop(columns="geometry").to_csv(tmp / "settlements.csv", index=False)
+        if a.zones is not None:
+            a.zones.zones.drop(columns="geometry", errors="ignore").to_csv(tmp / "zones.csv", index=False)
+        summary["timing"] = {"total_s": round(time.perf_counter() - t0, 3)}
+        (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2) + "\n")
+    bar.close()
+    return summary

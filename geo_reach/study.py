@@ -260,7 +260,7 @@ def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str |
         raise InputError(f"{where_}{errors[0]}")
     if not raw.get("lines") and not raw.get("network", {}).get("prebuilt"):
         raise InputError(f"{where_}lines: the study names no line layer; add a [[lines]] table with a path")
-    for i, ln in enumerate(raw["lines"]):
+    for i, ln in enumerate(raw.get("lines", [])):
         if "path" not in ln:
             raise InputError(f"{where_}lines[{i}].path: missing; every [[lines]] table needs a path")
     for key in ("hubs", "settlements", "zones"):
