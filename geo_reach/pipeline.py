@@ -468,7 +468,7 @@ def _surface(study, out, net, hubs, step, grid, rasters):
     weak_t = float(s.get("weak_minutes", max(bands)))
     hub_nodes = _hub_nodes(net, hubs, routing)
     out.weak = weak_regions(surf.minutes, surf.entry_node, grid, net, node_cost, hub_nodes, weak_t,
-                            population=pop, direction=routing["direction"])
+                            population=pop, direction=routing["direction"], passable=surf.flat_kmh > 0)
     # Rural Access Index when roads carry an all-season flag.
     allseason = net.extra.get("all_season")
     if pop is not None and allseason is not None and np.isfinite(allseason.astype(float)).any():
@@ -516,10 +516,7 @@ def _edges_layer(a: Analysis):
     e = net.edges_frame()
     if a.node_cost is not None:
         c = a.node_cost
-        ends = np.vstack([c[net.edge_from], c[net.edge_to]])
-        with np.errstate(all="ignore"):
-            e[f"hub_{a.metrics.get('weight', 'minutes')}"] = np.where(np.all(np.isnan(ends), axis=0), np.nan,
-                                                                      np.nanmin(ends, axis=0))
+        e[f"hub_{a.metrics.get('weight', 'minutes')}"] = np.fmin(c[net.edge_from], c[net.edge_to])
     return e
 
 
@@ -803,6 +800,9 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
         ch["minutes_before"] = before
         ch["delta_minutes"] = ch["hub_minutes"] - before
         ch = ch.rename(columns={"hub_minutes": "minutes_after"})
+        # Only what changed: new or closed edges and edges whose minutes moved by more than a second.
+        moved = ~(np.abs(ch["delta_minutes"].to_numpy()) < 1 / 60)
+        ch = ch[moved]
         out["layers"]["edge_change"] = gpd.GeoDataFrame(ch, geometry="geometry", crs=se.crs)
     out["kinds"] = kinds
     return out

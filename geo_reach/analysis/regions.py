@@ -232,7 +232,7 @@ def _assign_groups(pre, parent, cut, group, rooted_at_hub):
 
 
 def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, threshold_minutes: float,
-                 population=None, direction: str = "to-hub"):
+                 population=None, direction: str = "to-hub", passable=None):
     """The weak-region layer: far, single-link and hub-less areas, ranked by population.
 
     Parameters
@@ -255,6 +255,9 @@ def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, thres
         People per cell (population fields are NaN without it).
     direction : {"to-hub", "from-hub"}
         As used for the surface (for the entry points' minutes).
+    passable : ndarray of bool, shape ``grid.shape``, optional
+        Cells one can be in (False for barriers such as open water); impassable
+        cells are never part of a ``beyond_threshold`` region.
 
     Returns
     -------
@@ -301,6 +304,8 @@ def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, thres
     # -- beyond the threshold: 8-connected components of far or unreachable cells
     with np.errstate(invalid="ignore"):
         far = ~(minutes <= threshold_minutes)
+        if passable is not None:
+            far &= np.asarray(passable, dtype=bool)
     labels, n_far = ndimage.label(far, structure=np.ones((3, 3), bool))
     if n_far:
         polys = _polygons_by_value(labels.astype(np.int32), far, grid.transform)
