@@ -151,6 +151,17 @@ def test_efficiency_zero_cost_is_inf_and_estimate_is_exact_with_all_sources():
     assert M.estimate_global_efficiency(net, "hops", samples=30) == pytest.approx(M.global_efficiency(net, "hops"))
 
 
+def test_one_way_zero_cost_arc_is_not_taken_for_symmetric():
+    # regression: a one-way free link (cost 0) made the graph look symmetric when compared by value.
+    # Cycle 0-1-2-3 two-way at 1 minute plus a one-way 0 -> 2 at 0 minutes: d(0, 2) = 0 but d(2, 0) = 2.
+    net = make_network([(0, 1), (1, 2), (2, 3), (3, 0), (0, 2)], minutes=[1, 1, 1, 1, 0],
+                       oneway=[False, False, False, False, True])
+    assert not M._is_symmetric(net.csr("minutes").matrix)
+    d = M.diameter(net, "minutes")
+    assert d.value == M.diameter_brute_force(net, "minutes") == 2.0
+    assert d.sssp_runs % 2 == 0
+
+
 def test_components_ignore_direction_strong_ones_do_not():
     # 0 -> 1 -> 2 one-way chain plus a separate pair 3-4: 2 weak components, strong ones of size 1 / 2.
     net = make_network([(0, 1), (1, 2), (3, 4)], oneway=[True, True, False])

@@ -135,11 +135,17 @@ class Diameter:
 
 
 def _is_symmetric(m: sp.csr_array) -> bool:
+    """True when every stored arc has its reverse at the same cost.
+
+    Compared structurally (explicit zero-cost arcs count as arcs, unlike in
+    ``m != m.T``); both matrices have sorted indices and no duplicates.
+    """
     t = sp.csr_array(m.T)
-    if t.nnz != m.nnz:
-        return False
-    d = (m != t)
-    return d.nnz == 0
+    t.sort_indices()
+    m = sp.csr_array(m)
+    m.sort_indices()
+    return (np.array_equal(m.indptr, t.indptr) and np.array_equal(m.indices, t.indices)
+            and np.array_equal(m.data, t.data))
 
 
 def diameter(network: Network, weight: str = "minutes") -> Diameter:
