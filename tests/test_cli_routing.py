@@ -157,7 +157,8 @@ def test_access_reports_far_and_lone_hubs(tmp_path, net_path, capsys, monkeypatc
     out = tmp_path / "acc.gpkg"
     code, _, err = run(["access", net_path, "--hubs", hubs, "-o", out], capsys, monkeypatch)
     assert code == 0, err
-    assert "1 hubs farther than --max-access-m 5000 m" in err and "id 3" in err
+    # hub 3 is reported with its real distance to the grid corner (4 km, 3 km): hypot(16, 27) km
+    assert "1 hubs farther than --max-access-m 5000 m" in err and f"id 3 ({np.hypot(16000, 27000):,.0f} m)" in err
     assert "alone in a component of their own" in err and "id 2" in err
     h = pyogrio.read_dataframe(out, layer="hubs")
     assert h["attached"].tolist() == [1, 1, 0] and h["alone"].tolist() == [0, 1, 0]

@@ -280,6 +280,10 @@ def test_attach_modes_and_distance_limit():
     assert att.attached.tolist() == [True, True, True, False]
     assert att.access_m[3] == pytest.approx(np.hypot(500, 19500))
     assert np.isinf(one_to_all(net, att, "minutes")[3]).all()
+    # without the station, the real distance to the road is reported
+    road_only = make_network([(0, 1)], [[0, 0], [1000, 0]])
+    far = attach_points(road_only, [[500, 20000]], "minutes", max_access_m=5000)
+    assert not far.attached[0] and far.access_m[0] == pytest.approx(20000.0)
 
 
 def test_attach_options_refused():

@@ -331,6 +331,8 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
     # --- keep the nearest entries (ties kept) within max_access_m
     access = np.full(p, np.inf)
     np.minimum.at(access, leg_point, leg_walk)
+    if p and places["tree"] is not None:
+        access = np.minimum(access, near)  # real distance also for points beyond max_access_m
     keep = (leg_walk <= access[leg_point] + TIE_M) & (leg_walk <= max_access_m)
     order = np.argsort(leg_point[keep], kind="stable")
     leg_point, leg_edge, leg_node, leg_frac, leg_walk = (a[keep][order] for a in
