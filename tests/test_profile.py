@@ -103,6 +103,13 @@ def test_sampled_profile_is_the_mean_of_single_profiles():
         assert p.nodes[i] == pytest.approx(np.mean(vals))
 
 
+def test_growth_fit_ignores_plateaus_of_fine_steps():
+    # cycle of 1-minute links profiled in 0.25-minute steps: a staircase 0,0,0,2,2,2,2,4,...; the fit
+    # keeps the first step of each plateau (1, 2, 3 ... minutes -> 2, 4, 6 ... nodes) and finds it linear.
+    p = reach_profile(cycle(40), 0, "minutes", step=0.25)
+    assert p.growth.kind == "linear" and p.growth.exponent == pytest.approx(1.0, abs=1e-9)
+
+
 def test_growth_undetermined_with_too_few_steps():
     g = classify_growth([1.0, 2.0], [1.0, 2.0], 10.0)
     assert g.kind == "undetermined" and g.exponent is None and g.rate is None

@@ -171,8 +171,11 @@ def classify_growth(cost, nodes, reachable: float) -> Growth:
     and at most ``EARLY_FRACTION`` (half) of the reachable nodes, i.e.
     before the profile bends towards saturation; if fewer than 3, take every
     step short of saturation; with fewer than 3 still the class is
-    ``undetermined``.  Fit by least squares (i) ``log nodes = a + p log cost``
-    (power law) and (ii) ``log nodes = a + r cost`` (exponential).  The fit
+    ``undetermined``.  Where the steps are finer than the link costs the
+    profile is a staircase; only the first step of each plateau (the
+    smallest cost reaching that count) is kept.  Fit by least squares
+    (i) ``log nodes = a + p log cost`` (power law) and
+    (ii) ``log nodes = a + r cost`` (exponential).  The fit
     with the smaller residual sum of squares wins.  A power law with
     ``|p - 1| <= 0.25`` is ``linear`` (a chain or ring, nodes = 2k on a
     cycle); any other exponent is ``polynomial`` (about 2 for a mesh); the
@@ -192,6 +195,12 @@ def classify_growth(cost, nodes, reachable: float) -> Growth:
     use = (nodes > 0) & (cost > 0) & (nodes <= EARLY_FRACTION * reachable)
     if use.sum() < MIN_FIT_POINTS:
         use = (nodes > 0) & (cost > 0) & (nodes < reachable)
+    # collapse plateaus (steps finer than the link costs): keep the first step reaching each count
+    idx = np.nonzero(use)[0]
+    first = np.ones(len(idx), dtype=bool)
+    first[1:] = nodes[idx][1:] != nodes[idx][:-1]
+    use = np.zeros_like(use)
+    use[idx[first]] = True
     if use.sum() < MIN_FIT_POINTS:
         return Growth("undetermined", None, None, int(use.sum()))
     x, y = cost[use], np.log(nodes[use])
@@ -323,7 +332,8 @@ def plot_profile(profile: ReachProfile, path, *, title: str | None = None) -> No
     src = (f"node {int(profile.sources[0])}" if len(profile.sources) == 1
            else f"mean of {len(profile.sources)} sources")
     fig.suptitle(title or f"Reach profile from {src}: growth {g.kind} ({detail})")
-    fig.text(0.01, 0.005, CAUTION, fontsize=6, color="#555555")
+    fig.get_layout_engine().set(rect=(0, 0.05, 1, 0.95))  # keep the bottom strip for the caution
+    fig.text(0.01, 0.01, CAUTION, fontsize=6.5, color="#555555")
     with atomic_path(path, suffix=".png") as tmp:
         fig.savefig(tmp, dpi=120, format="png")
     plt.close(fig)
