@@ -13,7 +13,7 @@ import networkx as nx
 import numpy as np
 import pytest
 import shapely
-from hypothesis import given, settings, strategies as st
+from hypothesis import assume, given, settings, strategies as st
 from pyproj import Geod, Transformer
 
 from geo_reach.network.build import BuildOptions, LayerSpec, build_network, check_layers
@@ -214,6 +214,12 @@ def test_noding_matches_shapely_node(raw, seed):
         lines.append(shifted([(x0, y0), mid, (x1, y1)]))
     if len(lines) < 2:
         return
+    # Below 1 mm we join on purpose (numeric noise; the builder's documented rule) where
+    # exact GEOS noding keeps a hair-thin gap: leave such near-touches out of this comparison.
+    ends = shapely.points(np.concatenate([shapely.get_coordinates(shapely.boundary(g)) for g in lines]))
+    for i, g in enumerate(lines):
+        d = shapely.distance(ends, g)
+        assume(not np.any((d > 0) & (d < 2e-3)))
     g = gpd.GeoDataFrame(geometry=lines, crs=UTM)
     r = build_network([LayerSpec(g)], BuildOptions(snap_m=0.0, dangle_m=0.0))
     ref = shapely.get_parts(shapely.node(shapely.MultiLineString(lines)))

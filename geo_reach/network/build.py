@@ -162,12 +162,16 @@ def working_crs(frames, crs=None) -> CRS:
     from pyproj.aoi import AreaOfInterest
     from pyproj.database import query_utm_crs_info
 
+    from pyproj import Transformer as _T
+
     boxes = []
     for f in frames:
         g = f.geometry
         g = g[~(g.isna() | g.is_empty)]
         if len(g):
-            boxes.append(g.to_crs(4326).total_bounds)
+            tb = g.total_bounds
+            tr = _T.from_crs(CRS.from_user_input(f.crs), 4326, always_xy=True)
+            boxes.append(tr.transform_bounds(*tb, densify_pts=21))
     b = np.array(boxes)
     lon = (b[:, 0].min() + b[:, 2].max()) / 2
     lat = (b[:, 1].min() + b[:, 3].max()) / 2
@@ -400,11 +404,11 @@ def _remove_duplicate_features(table, specs_labels, issues, report):
     """Drop exact duplicate lines (same vertices, either direction) within one mode and level."""
     if len(table) == 0:
         return table
-    norm = shapely.normalize(shapely.set_precision(table["geom"].to_numpy(), NOISE_M))
+    rounded = shapely.transform(table["geom"].to_numpy(), lambda c: np.round(c / NOISE_M) * NOISE_M)
+    norm = shapely.normalize(rounded)
     wkb = shapely.to_wkb(norm)
     # One-way lines in opposite directions are a dual carriageway drawn twice, not a duplicate.
-    direction = np.where(table["oneway"].to_numpy(),
-                         np.where(shapely.equals_exact(shapely.set_precision(table["geom"].to_numpy(), NOISE_M), norm, 0), 1, 2), 0)
+    direction = np.where(table["oneway"].to_numpy(), np.where(shapely.equals_exact(rounded, norm, 0), 1, 2), 0)
     key = pd.DataFrame({"w": wkb, "m": table["mode"].to_numpy(), "l": table["level"].to_numpy(), "d": direction})
     dup = key.duplicated(keep="first").to_numpy()
     if dup.any():
@@ -424,16 +428,20 @@ def _remove_duplicate_features(table, specs_labels, issues, report):
 
 
 # --------------------------------------------------------------- topology
-def _segment_pairs(x0, y0, x1, y1, seg_line, group, level, line_start, line_end):
+def _segment_pairs(x0, y0, x1, y1, seg_line, group, level, line_start, line_end, tree=None):
     """All pairs of segments that touch or cross, as the nodes they make.
 
     Returns arrays describing split events: (segment, t, x, y, kind) where
     kind 0 = a vertex of that segment becomes a node (t in {0, 1}), kind 1 =
     a new vertex is inserted at parameter t; plus kept crossings.
     """
-    segs = shapely.linestrings(np.stack([np.column_stack([x0, y0]), np.column_stack([x1, y1])], axis=1))
-    tree = shapely.STRtree(segs)
-    a, b = tree.query(segs, predicate="intersects")
+    if tree is None:
+        segs = shapely.linestrings(np.stack([np.column_stack([x0, y0]), np.column_stack([x1, y1])], axis=1))
+        tree = shapely.STRtree(segs)
+    else:
+        segs = tree.geometries
+    # Bounding-box candidates only: the exact test below is ours (cheaper than a GEOS predicate per pair).
+    a, b = tree.query(segs)
     m = a < b
     a, b = a[m], b[m]
     # Same group (mode) only; neighbours along the same line share their vertex by construction.
@@ -628,6 +636,8 @@ class _Topology:
         self.last = self.first + ncoord - 1
         self.nlines = len(geoms)
         self.group = table["mode"].to_numpy()
+        self.line_label = np.array(labels, dtype=object)[table["layer"].to_numpy()]
+        self.line_fid = table["fid"].to_numpy()
         self.level = table["level"].to_numpy()
         # split events: vertex rows that are nodes; new vertices (line, vertex pos as float, x, y)
         self.node_row = np.zeros(len(xy), bool)
@@ -645,7 +655,7 @@ class _Topology:
         self.new_x.append(np.asarray(x, float)); self.new_y.append(np.asarray(y, float))
 
     def _line_label(self, line):
-        return self.labels[self.t["layer"].iat[line]], self.t["fid"].iat[line]
+        return self.line_label[line], self.line_fid[line]
 
     def run(self, specs, frames):
         xy, vline = self.xy, self.vline
@@ -655,7 +665,9 @@ class _Topology:
         x0, y0, x1, y1 = xy[seg, 0], xy[seg, 1], xy[seg + 1, 0], xy[seg + 1, 1]
         line_start = seg == self.first[sl]
         line_end = seg + 1 == self.last[sl]
-        ev = _segment_pairs(x0, y0, x1, y1, sl, self.group[sl], self.level[sl], line_start, line_end)
+        self.segs = shapely.linestrings(np.stack([np.column_stack([x0, y0]), np.column_stack([x1, y1])], axis=1))
+        self.seg_tree = shapely.STRtree(self.segs)
+        ev = _segment_pairs(x0, y0, x1, y1, sl, self.group[sl], self.level[sl], line_start, line_end, self.seg_tree)
         ev_seg, ev_t, ev_x, ev_y, ev_new, kx, ky, ka, kb = ev
         # Vertex nodes
         vert = ~ev_new
@@ -691,14 +703,15 @@ class _Topology:
         line = np.concatenate(self.new_line)[:k]
         x = np.concatenate(self.new_x)[:k]
         y = np.concatenate(self.new_y)[:k]
-        alive = np.concatenate(self.new_alive)[:k] if hasattr(self, "new_alive") else np.ones(k, bool)
-        lines_at = {}
-        for ln, xx, yy in zip(line[alive], x[alive], y[alive]):
-            lines_at.setdefault((round(xx / NOISE_M), round(yy / NOISE_M)), []).append(ln)
-        for (ix, iy), lns in lines_at.items():
-            lab, fid = self._line_label(lns[0])
-            self.issues.add("crossing_split", ix * NOISE_M, iy * NOISE_M,
-                            f"lines crossing with no shared vertex were split ({len(set(lns))} line(s) cut)", lab, fid)
+        key = np.column_stack([np.round(x / NOISE_M), np.round(y / NOISE_M)]).astype(np.int64)
+        _, first, inv, count = np.unique(key, axis=0, return_index=True, return_inverse=True, return_counts=True)
+        nlines = np.zeros(len(first), np.int64)
+        pairs = np.unique(np.column_stack([inv.ravel(), line]), axis=0)
+        np.add.at(nlines, pairs[:, 0], 1)
+        for f, n in zip(first, nlines):
+            self.issues.add("crossing_split", x[f], y[f],
+                            f"lines crossing with no shared vertex were split ({n} line(s) cut)",
+                            self.line_label[line[f]], self.line_fid[line[f]])
 
     # ----------------------------------------------------------------
     def _line_nodes_positions(self):
@@ -730,7 +743,6 @@ class _Topology:
         ends = np.full(nl, -np.inf)
         np.maximum.at(ends, li, pi)
         xy = self.xy
-        geoms = self.t["geom"].to_numpy()
         seglen = np.zeros(len(xy))
         same = self.vline[1:] == self.vline[:-1]
         d = np.hypot(*(xy[1:] - xy[:-1]).T)
@@ -747,36 +759,47 @@ class _Topology:
         # The end must be free: no other line end within the tolerance (else it is a junction, joined later).
         ends_xy = np.concatenate([xy[self.first], xy[self.last]])
         tree = cKDTree(ends_xy)
-        cnt = np.array([len(v) for v in tree.query_ball_point(ends_xy, snap)])
+        cnt = tree.query_ball_point(ends_xy, snap, return_length=True)
         free_start, free_end = cnt[:nl] <= 1, cnt[nl:] <= 1
         has = np.isfinite(starts)
         ds = np.where(has, along(np.arange(nl), np.where(has, starts, 0.0)), np.inf)
         de = np.where(has, total - along(np.arange(nl), np.where(has, ends, 0.0)), np.inf)
         self.trim_start = np.where((ds < snap) & (ds > 0) & free_start & (ds < total / 2), starts, np.nan)
         self.trim_end = np.where((de < snap) & (de > 0) & free_end & (de < total / 2), ends, np.nan)
+        delta = np.zeros(len(xy) + 1, np.int64)
         for which, posarr, dist in (("start", self.trim_start, ds), ("end", self.trim_end, de)):
-            for ln in np.nonzero(~np.isnan(posarr))[0]:
-                p = posarr[ln]
-                g = geoms[ln]
-                L = shapely.length(g)
-                a = along(np.array([ln]), np.array([p]))[0]
-                cut = shapely.ops_substring(g, 0, a) if False else None
-                from shapely.ops import substring
-                stub = substring(g, 0, a) if which == "start" else substring(g, a, L)
-                c = shapely.get_coordinates(stub)
-                self.report["trimmed_length_m"] += float(geodesic_lengths(c, np.zeros(len(c), np.int64), 1, self.crs)[0])
-                # delete rows strictly beyond the node; the node itself stays (vertex or new vertex)
-                fr, lr = self.first[ln], self.last[ln]
-                if which == "start":
-                    self.deleted[fr:fr + int(np.ceil(p))] = True
-                    node_xy = c[-1]
-                else:
-                    self.deleted[fr + int(np.floor(p)) + 1:lr + 1] = True
-                    node_xy = c[0]
-                if dist[ln] >= NOISE_M:
-                    lab, fid = self._line_label(ln)
-                    self.issues.add("gap_joined", node_xy[0], node_xy[1],
-                                    f"overshoot of {dist[ln]:.2f} m past a junction trimmed", lab, fid)
+            ln = np.nonzero(~np.isnan(posarr))[0]
+            if len(ln) == 0:
+                continue
+            p = posarr[ln]
+            fr, lr = self.first[ln], self.last[ln]
+            k = np.floor(p).astype(np.int64)
+            f = p - k
+            r0 = fr + k
+            r1 = np.minimum(r0 + 1, lr)
+            node = xy[r0] + f[:, None] * (xy[r1] - xy[r0])
+            # the stub: start .. node, or node .. end; rows strictly beyond the node are deleted
+            if which == "start":
+                lo, hi = fr, r0 + 1                       # rows [lo, hi) then the node
+                cut_lo, cut_hi = fr, fr + np.ceil(p).astype(np.int64)
+            else:
+                lo, hi = r0 + 1, lr + 1                   # the node then rows [lo, hi)
+                cut_lo, cut_hi = r0 + 1, lr + 1
+            n = hi - lo
+            owner = np.repeat(np.arange(len(ln)), n)
+            rows = np.repeat(lo, n) + (np.arange(n.sum()) - np.repeat(np.cumsum(n) - n, n))
+            pts = np.concatenate([xy[rows], node])
+            own = np.concatenate([owner, np.arange(len(ln))])
+            seq = np.concatenate([rows - np.repeat(lo, n), np.where(which == "start", n, -1)])
+            order = np.lexsort((seq, own))
+            self.report["trimmed_length_m"] += float(geodesic_lengths(pts[order], own[order], len(ln), self.crs).sum())
+            np.add.at(delta, cut_lo, 1)
+            np.add.at(delta, cut_hi, -1)
+            for i in np.nonzero(dist[ln] >= NOISE_M)[0]:
+                self.issues.add("gap_joined", node[i, 0], node[i, 1],
+                                f"overshoot of {dist[ln[i]]:.2f} m past a junction trimmed",
+                                self.line_label[ln[i]], self.line_fid[ln[i]])
+        self.deleted |= np.cumsum(delta)[:-1] > 0
         self.end_free = np.concatenate([np.isnan(self.trim_start), np.isnan(self.trim_end)])
 
     def _drop_overshoot_crossings(self, ends, eline, exy, snap):
@@ -786,28 +809,26 @@ class _Topology:
         line = np.concatenate(self.new_line)[:k]
         ex = np.concatenate(self.new_x)[:k]
         ey = np.concatenate(self.new_y)[:k]
-        bad = np.zeros(k, bool)
-        order = np.argsort(line, kind="stable")
-        sl = line[order]
-        for e in ends:
-            ln = eline[e]
-            lo, hi = np.searchsorted(sl, ln), np.searchsorted(sl, ln, side="right")
-            idx = order[lo:hi]
-            near = idx[np.hypot(ex[idx] - exy[e, 0], ey[idx] - exy[e, 1]) < snap]
-            bad[near] = True
-        if not bad.any():
+        # pair every event with the joined ends of its own line (at most two per line)
+        ev = pd.DataFrame({"line": line, "ev": np.arange(k)})
+        en = pd.DataFrame({"line": eline[ends], "end": ends})
+        m = ev.merge(en, on="line")
+        if len(m) == 0:
             return
-        keys = set(zip(np.round(ex[bad] / NOISE_M).astype(np.int64), np.round(ey[bad] / NOISE_M).astype(np.int64)))
-        kx, ky = np.round(ex / NOISE_M).astype(np.int64), np.round(ey / NOISE_M).astype(np.int64)
-        drop = np.array([(a, b) in keys for a, b in zip(kx, ky)])
-        self.new_alive = [~drop]
-        # collapse the event lists to the survivors (they are only ever read concatenated)
-        self.new_line = [line[~drop]]
-        self.new_pos = [np.concatenate(self.new_pos)[:k][~drop]]
-        self.new_x = [ex[~drop]]
-        self.new_y = [ey[~drop]]
-        self.n_crossing_events = int((~drop).sum())
-        self.new_alive = [np.ones(self.n_crossing_events, bool)]
+        evi, eni = m["ev"].to_numpy(), m["end"].to_numpy()
+        near = np.hypot(ex[evi] - exy[eni, 0], ey[evi] - exy[eni, 1]) < snap
+        if not near.any():
+            return
+        key = np.column_stack([np.round(ex / NOISE_M), np.round(ey / NOISE_M)]).astype(np.int64)
+        _, kid = np.unique(key, axis=0, return_inverse=True)
+        kid = kid.ravel()
+        drop = np.isin(kid, np.unique(kid[evi[near]]))
+        keep = ~drop
+        self.new_line = [line[keep]]
+        self.new_pos = [np.concatenate(self.new_pos)[:k][keep]]
+        self.new_x = [ex[keep]]
+        self.new_y = [ey[keep]]
+        self.n_crossing_events = int(keep.sum())
 
     def _end_rows(self):
         return np.concatenate([self.first, self.last])
@@ -833,24 +854,30 @@ class _Topology:
                 ok = (emode[i] == emode[j]) & (eline[i] != eline[j])
                 i, j = i[ok], j[ok]
                 lab = _union_find_labels(2 * nl, i, j)
-                members = np.concatenate([i, j])
+                members = np.unique(np.concatenate([i, j]))
                 joined_any[members] = True
-                for comp in np.unique(lab[members]):
-                    mem = np.nonzero(lab == comp)[0]
-                    pts = exy[mem]
-                    # representative: the point most members already share (within 1 mm), ties -> lowest index
-                    dd = np.hypot(pts[:, None, 0] - pts[None, :, 0], pts[:, None, 1] - pts[None, :, 1])
-                    rep = int(np.argmax((dd < NOISE_M).sum(axis=1)))
-                    target = pts[rep]
-                    moves = np.hypot(*(pts - target).T)
-                    self.end_target[mem] = target
-                    span = moves.max()
-                    self.report["joined_gap_length_m"] += float(moves.sum())
-                    if span >= NOISE_M:
-                        l0 = eline[mem[np.argmax(moves)]]
-                        labl, fid = self._line_label(l0)
-                        self.issues.add("gap_joined", target[0], target[1],
-                                        f"gap of {span:.2f} m between {len(mem)} line ends joined", labl, fid)
+                ml = lab[members]
+                # representative: the point most members already share (to 1 mm), ties -> lowest index
+                kx = np.round(exy[members, 0] / NOISE_M).astype(np.int64)
+                ky = np.round(exy[members, 1] / NOISE_M).astype(np.int64)
+                df = pd.DataFrame({"lab": ml, "kx": kx, "ky": ky, "m": members})
+                df["n"] = df.groupby(["lab", "kx", "ky"])["m"].transform("size")
+                df = df.sort_values(["lab", "n", "m"], ascending=[True, False, True], kind="stable")
+                rep = df.groupby("lab", sort=False)["m"].first()
+                target = exy[rep.loc[ml].to_numpy()]
+                moves = np.hypot(*(exy[members] - target).T)
+                self.end_target[members] = target
+                self.report["joined_gap_length_m"] += float(moves.sum())
+                g = pd.DataFrame({"lab": ml, "move": moves, "m": members})
+                span = g.groupby("lab")["move"].max()
+                size = g.groupby("lab")["m"].size()
+                worst = g.sort_values("move", ascending=False, kind="stable").groupby("lab")["m"].first()
+                for lb in span.index[span.to_numpy() >= NOISE_M]:
+                    t = exy[rep.loc[lb]]
+                    l0 = eline[worst.loc[lb]]
+                    self.issues.add("gap_joined", t[0], t[1],
+                                    f"gap of {span.loc[lb]:.2f} m between {size.loc[lb]} line ends joined",
+                                    self.line_label[l0], self.line_fid[l0])
         # A joined end that overshot its junction also crossed a line there: that crossing is an
         # artefact of the overshoot, so its new vertices are dropped (on both lines).
         self._drop_overshoot_crossings(np.nonzero(joined_any)[0], eline, exy, snap)
@@ -860,11 +887,10 @@ class _Topology:
         if len(dead) and snap > 0:
             seg = self.seg
             sl = self.vline[seg]
-            segs = shapely.linestrings(np.stack([self.xy[seg], self.xy[seg + 1]], axis=1))
-            tree = shapely.STRtree(segs)
             pts = shapely.points(exy[dead])
-            pi, si = tree.query(pts, predicate="dwithin", distance=snap)
-            ok = (emode[dead[pi]] == self.group[sl[si]]) & (eline[dead[pi]] != sl[si])
+            pi, si = self.seg_tree.query(pts, predicate="dwithin", distance=snap)
+            ok = ((emode[dead[pi]] == self.group[sl[si]]) & (eline[dead[pi]] != sl[si])
+                  & ~self.deleted[seg[si]] & ~self.deleted[seg[si] + 1])
             pi, si = pi[ok], si[ok]
             if len(pi):
                 ex, ey = exy[dead[pi], 0], exy[dead[pi], 1]
@@ -1218,49 +1244,51 @@ class _Topology:
         dead = np.nonzero(deg == 1)[0]
         if len(dead) == 0:
             return
-        # the one edge at each dead end
-        ends = np.concatenate([net.edge_from, net.edge_to])
-        eidx = np.concatenate([np.arange(net.n_edges), np.arange(net.n_edges)])
-        where_dead = np.isin(ends, dead)
-        edge_of = dict(zip(ends[where_dead], eidx[where_dead]))
+        # the one edge at each dead end, and the node at its other end
+        own = np.full(net.n_nodes, -1, np.int64)
+        own[net.edge_to] = np.arange(net.n_edges)
+        own[net.edge_from] = np.arange(net.n_edges)
+        own_e = own[dead]
+        other = np.where(net.edge_from[own_e] == dead, net.edge_to[own_e], net.edge_from[own_e])
         far = 10.0 * snap
-        tree = shapely.STRtree(net.edge_geometry)
         pts = shapely.points(net.node_x[dead], net.node_y[dead])
-        pi, ei = tree.query(pts, predicate="dwithin", distance=far) if far > 0 else (np.zeros(0, int), np.zeros(0, int))
-        best = {}
-        for p, e in zip(pi, ei):
-            n = dead[p]
-            own = edge_of[n]
-            other = net.edge_to[own] if net.edge_from[own] == n else net.edge_from[own]
-            if e == own or net.edge_from[e] == other or net.edge_to[e] == other:
-                continue
-            if net.edge_mode[e] != net.edge_mode[own] or net.edge_mode[e] == "transfer":
-                continue
-            d = shapely.distance(pts[p], net.edge_geometry[e])
-            if d <= far and (n not in best or d < best[n][0]):
-                best[n] = (d, e)
-        reported = set()
-        for n, (d, e) in sorted(best.items()):
-            q = shapely.get_coordinates(shapely.shortest_line(pts[np.searchsorted(dead, n)], net.edge_geometry[e]))
-            key = tuple(np.round(q[1] / 0.01).astype(int))
-            # A pair of dead ends facing each other is one gap.
-            partner = net.edge_from[e] if np.hypot(*(q[1] - [net.node_x[net.edge_from[e]], net.node_y[net.edge_from[e]]])) < NOISE_M else (
-                net.edge_to[e] if np.hypot(*(q[1] - [net.node_x[net.edge_to[e]], net.node_y[net.edge_to[e]]])) < NOISE_M else None)
-            if partner is not None and (partner, n) in reported:
-                continue
-            reported.add((n, partner))
-            own = edge_of[n]
-            mid = (q[0] + q[1]) / 2
-            self.issues.add("unjoined_gap", mid[0], mid[1],
-                            f"gap of {d:.2f} m left open (more than the {snap:g} m tolerance); join it in the source if real",
-                            net.edge_src_layer[own], net.edge_src_fid[own])
+        if far > 0:
+            tree = shapely.STRtree(net.edge_geometry)
+            pi, ei = tree.query(pts, predicate="dwithin", distance=far)
+            oe = own_e[pi]
+            ok = ((ei != oe) & (net.edge_from[ei] != other[pi]) & (net.edge_to[ei] != other[pi])
+                  & (net.edge_mode[ei] == net.edge_mode[oe]) & (net.edge_mode[ei] != "transfer"))
+            pi, ei = pi[ok], ei[ok]
+            d = shapely.distance(pts[pi], net.edge_geometry[ei])
+            order = np.lexsort((d, pi))
+            pi, ei, d = pi[order], ei[order], d[order]
+            first = np.ones(len(pi), bool)
+            first[1:] = pi[1:] != pi[:-1]
+            pi, ei, d = pi[first], ei[first], d[first]
+            if len(pi):
+                seg = shapely.shortest_line(pts[pi], net.edge_geometry[ei])
+                q = shapely.get_coordinates(seg).reshape(-1, 2, 2)
+                # a pair of dead ends facing each other is one gap: keep it once
+                partner = np.full(len(pi), -1, np.int64)
+                for end in (net.edge_from, net.edge_to):
+                    hit = np.hypot(q[:, 1, 0] - net.node_x[end[ei]], q[:, 1, 1] - net.node_y[end[ei]]) < NOISE_M
+                    partner = np.where(hit & (partner < 0), end[ei], partner)
+                me = dead[pi]
+                pos = {n: k for k, n in enumerate(me)}
+                keep = np.ones(len(pi), bool)
+                for k, (n, pt) in enumerate(zip(me, partner)):
+                    j = pos.get(pt)
+                    if j is not None and partner[j] == n and j < k:
+                        keep[k] = False
+                mid = (q[:, 0] + q[:, 1]) / 2
+                for k in np.nonzero(keep)[0]:
+                    e = own_e[pi[k]]
+                    self.issues.add("unjoined_gap", mid[k, 0], mid[k, 1],
+                                    f"gap of {d[k]:.2f} m left open (more than the {snap:g} m tolerance); "
+                                    "join it in the source if real", net.edge_src_layer[e], net.edge_src_fid[e])
         # dangles: short dead-end edges hanging off a junction
-        for n in dead:
-            e = edge_of[n]
-            other = net.edge_to[e] if net.edge_from[e] == n else net.edge_from[e]
-            if net.edge_mode[e] == "transfer":
-                continue
-            if net.edge_length_m[e] < dangle and deg[other] >= 3:
-                self.issues.add("dangle", net.node_x[n], net.node_y[n],
-                                f"dead end of {net.edge_length_m[e]:.2f} m off a junction (shorter than {dangle:g} m): "
-                                "an overshoot or a real stub?", net.edge_src_layer[e], net.edge_src_fid[e])
+        stub = (net.edge_mode[own_e] != "transfer") & (net.edge_length_m[own_e] < dangle) & (deg[other] >= 3)
+        for n, e in zip(dead[stub], own_e[stub]):
+            self.issues.add("dangle", net.node_x[n], net.node_y[n],
+                            f"dead end of {net.edge_length_m[e]:.2f} m off a junction (shorter than {dangle:g} m): "
+                            "an overshoot or a real stub?", net.edge_src_layer[e], net.edge_src_fid[e])
