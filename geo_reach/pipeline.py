@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 from . import CAUTION, __version__
-from .errors import InputError, LayerError, OptionError, where
+from .errors import InputError, LayerError, where
 from .network.build import BuildOptions, LayerSpec, build_network
 from .study import Study
 
@@ -182,24 +182,6 @@ class Analysis:
     notes: list = field(default_factory=list)
 
 
-def _kind_groups(hubs: Hubs):
-    if hubs.kinds is None:
-        return []
-    return [(k, np.nonzero(hubs.kinds == k)[0]) for k in sorted(pd.unique(hubs.kinds))]
-
-
-def _route_to_hubs(net, hubs: Hubs, members, routing):
-    from .analysis.attach import attach_points
-    from .analysis.routing import nearest_hub
-
-    att = attach_points(net, hubs.xy[members], routing["weight"], max_access_m=float(routing["max_access_m"]),
-                        walk_kmh=float(routing["walk_kmh"]))
-    cost, hub = nearest_hub(net, att, routing["weight"], routing["direction"])
-    cost = np.where(np.isfinite(cost) & (hub >= 0), cost, np.nan)
-    hub_global = np.where(hub >= 0, members[np.maximum(hub, 0)], -1)
-    return cost, hub_global, att
-
-
 def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profile=True,
             grid=None, rasters=None, prebuilt=None) -> Analysis:
     """Compute everything the study describes for these line layers and hubs.
@@ -219,34 +201,19 @@ def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profi
     w = routing["weight"]
     # ---- access
     if hubs is not None:
+        from .analysis.access import hub_access
+
         step("routing to hubs")
-        allm = np.arange(len(hubs.ids))
-        cost, hub, att = _route_to_hubs(net, hubs, allm, routing)
-        out.node_cost, out.node_hub = cost, hub
-        left = np.nonzero(~att.attached)[0]
-        if len(left):
-            out.notes.append(f"{len(left)} hub(s) farther than {routing['max_access_m']:g} m from the network "
-                             f"left out: {', '.join(map(str, hubs.ids[left][:5]))}")
-        out.node_fields["nearest_hub"] = np.where(hub >= 0, hubs.ids[np.maximum(hub, 0)], None)
-        out.node_fields[f"hub_{w}"] = cost
-        for kind, members in _kind_groups(hubs):
-            kc, kh, _ = _route_to_hubs(net, hubs, members, routing)
-            out.kind_costs[kind] = (kc, kh)
-            out.node_fields[f"nearest_{kind}"] = np.where(kh >= 0, hubs.ids[np.maximum(kh, 0)], None)
-            out.node_fields[f"{kind}_{w}"] = kc
-        # hubs layer: nodes and network length served
-        served_nodes = np.bincount(hub[hub >= 0], minlength=len(hubs.ids))
-        half = np.where(np.isnan(net.cost(w)), 0.0, net.edge_length_m) / 2
-        served_len = np.zeros(len(hubs.ids))
-        for end in (net.edge_from, net.edge_to):
-            h = hub[end]
-            ok = h >= 0
-            served_len += np.bincount(h[ok], weights=half[ok], minlength=len(hubs.ids))
+        acc = hub_access(net, hubs.xy, hubs.ids, hubs.kinds, w, routing["direction"],
+                         max_access_m=float(routing["max_access_m"]), walk_kmh=float(routing["walk_kmh"]))
+        out.notes += acc.notes
+        out.node_cost, out.node_hub = acc.node_cost, acc.node_hub
+        out.kind_costs = acc.kind_costs
+        out.node_fields.update(acc.node_fields)
         t = hubs.frame.copy()
-        t["attached"] = att.attached.astype(np.int32)
-        t["access_m"] = np.where(np.isfinite(att.access_m), att.access_m, np.nan)
-        t["served_nodes"] = served_nodes
-        t["served_km"] = served_len / 1000.0
+        for c in acc.hubs.columns:
+            if c not in ("hub_id", "kind"):
+                t[c] = acc.hubs[c].to_numpy()
         out.hub_table = t
     # ---- metrics
     step("network metrics")
@@ -426,7 +393,6 @@ def _surface(study, out, net, hubs, step, grid, rasters):
               barriers=rasters.get("barriers"), direction=routing["direction"])
     if routing["weight"] != "minutes":
         out.notes.append("the travel-time surface uses minutes whatever routing.weight says")
-        from .analysis.routing import nearest_hub  # noqa: F401
     step("travel-time surface")
     node_cost = out.node_cost if routing["weight"] == "minutes" else _minutes_costs(study, net, hubs)[0]
     node_hub = out.node_hub
@@ -481,9 +447,12 @@ def _surface(study, out, net, hubs, step, grid, rasters):
 
 
 def _minutes_costs(study, net, hubs):
-    r = dict(study.routing, weight="minutes")
-    cost, hub, _ = _route_to_hubs(net, hubs, np.arange(len(hubs.ids)), r)
-    return cost, hub
+    from .analysis.access import hub_access
+
+    r = study.routing
+    acc = hub_access(net, hubs.xy, hubs.ids, None, "minutes", r["direction"],
+                     max_access_m=float(r["max_access_m"]), walk_kmh=float(r["walk_kmh"]))
+    return acc.node_cost, acc.node_hub
 
 
 def _hub_nodes(net, hubs, routing):

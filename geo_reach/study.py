@@ -36,7 +36,6 @@ import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
 
 from .errors import InputError, MissingInputError
 

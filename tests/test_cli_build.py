@@ -7,7 +7,6 @@ import subprocess
 import sys
 
 import geopandas as gpd
-import numpy as np
 import pyogrio
 import pytest
 import shapely

@@ -114,39 +114,46 @@ def _sift_down(hk, hi, pos, i, size):
 
 @numba.njit(cache=True, nogil=True)
 def _kernel(pace, elev, use_elev, dist, lab, nrows, ncols, cell_m, travel_sign, slope_limit,
-            best_slope, decay, hk, hi, pos):
+            best_slope, decay, seed_order, hk, hi, pos):
     """Dijkstra over the implicit 8-neighbour grid.
 
     ``dist`` holds the seed minutes on entry (inf = no seed) and the result on
-    exit; ``lab`` the seed labels likewise.  ``pos`` is -1 (never queued),
-    >= 0 (heap slot) or -2 (settled).  ``travel_sign`` is +1 when the move
-    u -> v is travelled u -> v (from-hub), -1 when travelled v -> u (to-hub).
+    exit; ``lab`` the seed labels likewise.  The seeds are not put in the
+    heap: ``seed_order`` lists them by increasing seed minutes and is merged
+    with the heap, which so only ever holds the frontier of cells reached by
+    a move.  ``pos`` is -1 (not in the heap), >= 0 (heap slot) or -2
+    (settled).  ``travel_sign`` is +1 when the move u -> v is travelled
+    u -> v (from-hub), -1 when travelled v -> u (to-hub).
     """
     n = nrows * ncols
-    size = 0
     for i in range(n):
         pos[i] = -1
-        if dist[i] < np.inf:
-            hk[size] = dist[i]
-            hi[size] = i
-            pos[i] = size
-            size += 1
-    for i in range((size >> 1) - 1, -1, -1):
-        _sift_down(hk, hi, pos, i, size)
+    size = 0
+    ns = seed_order.shape[0]
+    si = 0
     diag = cell_m * math.sqrt(2.0)
     dr = (-1, -1, -1, 0, 0, 1, 1, 1)
     dc = (-1, 0, 1, -1, 1, -1, 0, 1)
     off_best = abs(best_slope)
-    while size > 0:
-        u = hi[0]
-        du = hk[0]
-        pos[u] = -2
-        size -= 1
-        if size > 0:
-            hk[0] = hk[size]
-            hi[0] = hi[size]
-            pos[hi[0]] = 0
-            _sift_down(hk, hi, pos, 0, size)
+    while size > 0 or si < ns:
+        # the next cell to settle: the heap top or the next seed, whichever is cheaper
+        if si < ns and (size == 0 or dist[seed_order[si]] <= hk[0]):
+            u = seed_order[si]
+            si += 1
+            if pos[u] != -1:
+                continue  # settled already, or reached by a move for less than its seed (it is in the heap)
+            du = dist[u]
+            pos[u] = -2
+        else:
+            u = hi[0]
+            du = hk[0]
+            pos[u] = -2
+            size -= 1
+            if size > 0:
+                hk[0] = hk[size]
+                hi[0] = hi[size]
+                pos[hi[0]] = 0
+                _sift_down(hk, hi, pos, 0, size)
         pu = pace[u]
         if not (pu < np.inf):
             continue  # seeded but impassable: keeps its cost, spreads nowhere
@@ -284,8 +291,10 @@ def accumulate(flat_kmh, seed_minutes, cell_m: float, seed_label=None, elevation
     use_elev = elevation is not None
     elev = elevation.ravel() if use_elev else np.zeros(1)
     sign = -1.0 if direction == "to-hub" else 1.0
+    seeded = np.flatnonzero(np.isfinite(dist)).astype(idx)
+    seed_order = seeded[np.argsort(dist[seeded], kind="stable")]
     _kernel(pace, elev, use_elev, dist, lab, nrows, ncols, float(cell_m), sign, float(slope_limit),
-            TOBLER_BEST_SLOPE, TOBLER_DECAY, hk, hi, pos)
+            TOBLER_BEST_SLOPE, TOBLER_DECAY, seed_order, hk, hi, pos)
     del hk, hi, pos
     dist = dist.reshape(nrows, ncols)
     dist[np.isinf(dist)] = np.nan

@@ -540,7 +540,6 @@ def _tree_lengths(g: _Graph, network: Network, pred: np.ndarray, att: Attachment
     Pointer jumping: O(N log depth) per tree, fully vectorised.
     """
     b, n_all = pred.shape
-    rows = np.repeat(np.arange(b), n_all)
     head = np.tile(np.arange(n_all), b)
     tail = pred.ravel()
     has = tail >= 0

@@ -16,7 +16,7 @@ from ..errors import GeoReachError, InputError
 __all__ = ["main", "build_parser"]
 
 #: Subcommand modules, in the order ``--help`` lists them.
-COMMANDS = ["build", "check", "access", "route", "od", "metrics", "profile", "surface", "run", "demo"]
+COMMANDS = ["build", "check", "access", "route", "od", "metrics", "profile", "surface", "run", "init", "demo"]
 
 
 class _Parser(argparse.ArgumentParser):

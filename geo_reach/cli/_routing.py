@@ -7,8 +7,9 @@ destinations) with their ids and kinds.
 
 from __future__ import annotations
 
+from ..analysis.access import kind_name  # noqa: F401  (re-exported for the CLI modules)
+
 import json
-import re
 import sys
 from dataclasses import dataclass
 
@@ -75,12 +76,6 @@ def dump_json(obj) -> str:
 def cost_field(weight: str) -> str:
     """The field suffix for a weight: minutes, length_m, hops, latency_ms."""
     return weight
-
-
-def kind_name(kind) -> str:
-    """A hub kind as a field-name part: lower case, letters/digits/underscore."""
-    s = re.sub(r"[^0-9a-z]+", "_", str(kind).strip().lower()).strip("_")
-    return s or "kind"
 
 
 def load_network(path, weight: str):

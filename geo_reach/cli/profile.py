@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import sys
 
-import numpy as np
 
 from ..errors import OptionError
 from ._routing import add_weight, dump_json, load_network, note, report_excluded

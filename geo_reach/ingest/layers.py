@@ -11,9 +11,6 @@ import warnings
 from dataclasses import dataclass
 from pathlib import Path
 
-import numpy as np
-import pandas as pd
-
 from ..errors import CRSError, InputError, LayerError, MissingInputError, where
 
 __all__ = ["LayerRef", "parse_layer_ref", "list_layers", "read_frame", "read_layer", "GEOM_FAMILIES"]

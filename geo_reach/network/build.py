@@ -285,8 +285,6 @@ def _prepare(specs, frames, crs, issues, report):
                             "reason": "no geometry" if null[i] else "empty geometry"})
             issues.add("dropped_feature", None, None, "no geometry" if null[i] else "empty geometry", label, fids[i])
         keep &= ~(null | empty)
-        if shapely.has_z(geoms[keep]).any() or shapely.has_m(geoms[keep]).any() if hasattr(shapely, "has_m") else False:
-            pass
         zm = np.zeros(n, bool)
         zm[keep] = shapely.has_z(geoms[keep])
         if hasattr(shapely, "has_m"):
@@ -332,14 +330,15 @@ def _prepare(specs, frames, crs, issues, report):
         idx = idx[~nonline]
         g = geoms[idx]
         multi = shapely.get_num_geometries(g)
-        report["multipart_features"] += int(((multi > 1) & (shapely.get_type_id(g) != 1)).sum())
+        is_multi = (multi > 1) & (shapely.get_type_id(g) != 1)
+        report["multipart_features"] += int(is_multi.sum())
+        for k in np.nonzero(is_multi)[0]:
+            c = shapely.get_coordinates(shapely.point_on_surface(g[k]))[0]
+            issues.add("geometry_repaired", c[0], c[1], f"multi-part line split into {multi[k]} lines",
+                       label, fids[idx[k]])
         part, owner = shapely.get_parts(g, return_index=True)
         owner = idx[owner]
         ptype = shapely.get_type_id(part)
-        part = np.where(ptype == 2, shapely.linestrings(shapely.get_coordinates(part[ptype == 2]),
-                                                         indices=np.repeat(np.arange((ptype == 2).sum()),
-                                                                           shapely.get_num_coordinates(part[ptype == 2])))
-                        if (ptype == 2).any() else part, part) if False else part
         if (ptype == 2).any():  # LinearRing -> LineString
             part = part.copy()
             part[ptype == 2] = [shapely.LineString(shapely.get_coordinates(r)) for r in part[ptype == 2]]
@@ -508,9 +507,6 @@ def _segment_pairs(x0, y0, x1, y1, seg_line, group, level, line_start, line_end,
                 inside = (tt > et) & (tt < 1 - et)
                 ev_seg.append(s_on[inside]); ev_t.append(tt[inside])
                 ev_x.append(ex[inside]); ev_y.append(ey[inside]); ev_new.append(np.ones(inside.sum(), bool))
-                # and the point's own vertex is a node on its segment
-                for s2, t2 in ((s_pt, 0.0),):
-                    pass
             # both ends of the overlapping piece are nodes on the point segment too
             ev_seg.append(s_pt); ev_t.append(np.zeros(len(s_pt))); ev_x.append(x0[s_pt]); ev_y.append(y0[s_pt])
             ev_new.append(np.zeros(len(s_pt), bool))
@@ -738,10 +734,15 @@ class _Topology:
         li, pi = line[interior], pos[interior]
         if len(li) == 0:
             return
+        # (line, pos) come sorted by line then position: first and last of each run
         starts = np.full(nl, np.inf)
-        np.minimum.at(starts, li, pi)
         ends = np.full(nl, -np.inf)
-        np.maximum.at(ends, li, pi)
+        head = np.ones(len(li), bool)
+        head[1:] = li[1:] != li[:-1]
+        tail = np.ones(len(li), bool)
+        tail[:-1] = li[1:] != li[:-1]
+        starts[li[head]] = pi[head]
+        ends[li[tail]] = pi[tail]
         xy = self.xy
         seglen = np.zeros(len(xy))
         same = self.vline[1:] == self.vline[:-1]
@@ -757,10 +758,12 @@ class _Topology:
 
         total = cum[self.last] - cum[self.first]
         # The end must be free: no other line end within the tolerance (else it is a junction, joined later).
-        ends_xy = np.concatenate([xy[self.first], xy[self.last]])
-        tree = cKDTree(ends_xy)
-        cnt = tree.query_ball_point(ends_xy, snap, return_length=True)
-        free_start, free_end = cnt[:nl] <= 1, cnt[nl:] <= 1
+        pinv, pcount, pxy, pairs = self._places()
+        crowded = pcount > 1
+        crowded[pairs[:, 0]] = True
+        crowded[pairs[:, 1]] = True
+        free = ~crowded[pinv]
+        free_start, free_end = free[:nl], free[nl:]
         has = np.isfinite(starts)
         ds = np.where(has, along(np.arange(nl), np.where(has, starts, 0.0)), np.inf)
         de = np.where(has, total - along(np.arange(nl), np.where(has, ends, 0.0)), np.inf)
@@ -830,6 +833,31 @@ class _Topology:
         self.new_y = [ey[keep]]
         self.n_crossing_events = int(keep.sum())
 
+    def _places(self):
+        """Line ends grouped by place (to 1 mm, per mode), and pairs of places within the tolerance.
+
+        Returns ``pinv`` (place of each end, ends ordered as :meth:`_end_rows`),
+        ``pcount`` (ends per place), ``pxy`` (place coordinates: its first end)
+        and ``pairs`` (place index pairs closer than ``snap_m``, any mode).
+        Computed once, before any end moves.
+        """
+        if getattr(self, "_place_cache", None) is None:
+            nl = self.nlines
+            exy = self.xy[self._end_rows()]
+            emode = self.group[np.concatenate([np.arange(nl), np.arange(nl)])]
+            kx = np.round(exy[:, 0] / NOISE_M).astype(np.int64)
+            ky = np.round(exy[:, 1] / NOISE_M).astype(np.int64)
+            pinv = pd.DataFrame({"m": emode, "x": kx, "y": ky}).groupby(["m", "x", "y"], sort=False).ngroup().to_numpy()
+            npl = int(pinv.max()) + 1 if len(pinv) else 0
+            pcount = np.bincount(pinv, minlength=npl)
+            pfirst = np.full(npl, len(pinv), np.int64)
+            np.minimum.at(pfirst, pinv, np.arange(len(pinv)))
+            pxy = exy[pfirst]
+            r = max(self.o.snap_m, NOISE_M)
+            pairs = cKDTree(pxy).query_pairs(r, output_type="ndarray") if npl else np.zeros((0, 2), np.int64)
+            self._place_cache = (pinv, pcount, pxy, pairs)
+        return self._place_cache
+
     def _end_rows(self):
         return np.concatenate([self.first, self.last])
 
@@ -847,36 +875,47 @@ class _Topology:
         self.end_target = exy.copy()
         joined_any = np.zeros(2 * nl, bool)
         if len(idx) and snap > 0:
-            tree = cKDTree(exy[idx])
-            pairs = tree.query_pairs(max(snap, NOISE_M), output_type="ndarray")
+            # Ends at one place (to 1 mm, per mode) already meet: group them first, then join places.
+            pinv_all, pcount, pxy, pairs = self._places()
+            pinv = pinv_all[idx]
+            npl = len(pcount)
+            pfirst = np.full(npl, 2 * nl, np.int64)
+            np.minimum.at(pfirst, pinv_all, np.arange(2 * nl))
+            pmode = emode[pfirst]
+            pline = eline[pfirst]
             if len(pairs):
-                i, j = idx[pairs[:, 0]], idx[pairs[:, 1]]
-                ok = (emode[i] == emode[j]) & (eline[i] != eline[j])
+                i, j = pairs[:, 0], pairs[:, 1]
+                ok = (pmode[i] == pmode[j]) & ~((pcount[i] == 1) & (pcount[j] == 1) & (pline[i] == pline[j]))
                 i, j = i[ok], j[ok]
-                lab = _union_find_labels(2 * nl, i, j)
-                members = np.unique(np.concatenate([i, j]))
-                joined_any[members] = True
-                ml = lab[members]
-                # representative: the point most members already share (to 1 mm), ties -> lowest index
-                kx = np.round(exy[members, 0] / NOISE_M).astype(np.int64)
-                ky = np.round(exy[members, 1] / NOISE_M).astype(np.int64)
-                df = pd.DataFrame({"lab": ml, "kx": kx, "ky": ky, "m": members})
-                df["n"] = df.groupby(["lab", "kx", "ky"])["m"].transform("size")
-                df = df.sort_values(["lab", "n", "m"], ascending=[True, False, True], kind="stable")
-                rep = df.groupby("lab", sort=False)["m"].first()
-                target = exy[rep.loc[ml].to_numpy()]
-                moves = np.hypot(*(exy[members] - target).T)
-                self.end_target[members] = target
-                self.report["joined_gap_length_m"] += float(moves.sum())
-                g = pd.DataFrame({"lab": ml, "move": moves, "m": members})
-                span = g.groupby("lab")["move"].max()
-                size = g.groupby("lab")["m"].size()
-                worst = g.sort_values("move", ascending=False, kind="stable").groupby("lab")["m"].first()
-                for lb in span.index[span.to_numpy() >= NOISE_M]:
-                    t = exy[rep.loc[lb]]
-                    l0 = eline[worst.loc[lb]]
-                    self.issues.add("gap_joined", t[0], t[1],
-                                    f"gap of {span.loc[lb]:.2f} m between {size.loc[lb]} line ends joined",
+            else:
+                i = j = np.zeros(0, np.int64)
+            plab = _union_find_labels(npl, i, j)
+            # representative place of each cluster: the most shared, ties -> first seen
+            order = np.lexsort((pfirst, -pcount, plab))
+            first_of = np.ones(npl, bool)
+            first_of[1:] = plab[order][1:] != plab[order][:-1]
+            rep = np.empty(plab.max() + 1, np.int64)
+            rep[plab[order][first_of]] = order[first_of]
+            target_place = rep[plab]                       # place -> representative place
+            csize = np.bincount(plab)
+            multi = (csize[plab[pinv]] > 1) | (pcount[pinv] > 1)
+            # a place shared only by the two ends of one closed line is not a junction with others
+            joined_any[idx[multi]] = True
+            self.end_target[idx] = pxy[target_place[pinv]]
+            moved_place = np.nonzero(target_place != np.arange(npl))[0]
+            if len(moved_place):
+                moves_p = np.hypot(*(pxy[moved_place] - pxy[target_place[moved_place]]).T)
+                self.report["joined_gap_length_m"] += float((moves_p * pcount[moved_place]).sum())
+                span = np.zeros(npl)
+                np.maximum.at(span, target_place[moved_place], moves_p)
+                worst = np.full(npl, -1, np.int64)
+                o = np.argsort(-moves_p, kind="stable")
+                worst[target_place[moved_place][o][::-1]] = moved_place[o][::-1]
+                nends = np.bincount(plab, weights=pcount)
+                for rp in np.nonzero(span >= NOISE_M)[0]:
+                    l0 = pline[worst[rp]]
+                    self.issues.add("gap_joined", pxy[rp, 0], pxy[rp, 1],
+                                    f"gap of {span[rp]:.2f} m between {int(nends[plab[rp]])} line ends joined",
                                     self.line_label[l0], self.line_fid[l0])
         # A joined end that overshot its junction also crossed a line there: that crossing is an
         # artefact of the overshoot, so its new vertices are dropped (on both lines).
@@ -1038,7 +1077,6 @@ class _Topology:
         if self.new_line:
             nl_ = np.concatenate(self.new_line); np_ = np.concatenate(self.new_pos)
             nx_ = np.concatenate(self.new_x); ny_ = np.concatenate(self.new_y)
-            alive = ~self.deleted[self.first[nl_] + np.floor(np_).astype(np.int64)] | (np_ == np.floor(np_))
             line = np.concatenate([line, nl_]); pos = np.concatenate([pos, np_])
             X = np.concatenate([X, nx_]); Y = np.concatenate([Y, ny_])
             isnode = np.concatenate([isnode, np.ones(len(nl_), bool)])
@@ -1056,9 +1094,6 @@ class _Topology:
         # Collapse consecutive rows of one line at the same place (within 1 mm).
         dup = np.zeros(len(line), bool)
         close = (line[1:] == line[:-1]) & (np.hypot(X[1:] - X[:-1], Y[1:] - Y[:-1]) < NOISE_M)
-        # keep the node flag on the surviving row
-        for k in np.nonzero(close)[0]:
-            pass
         if close.any():
             # merge row k+1 into row k (keeping k's coordinates unless k+1 is the node)
             k = np.nonzero(close)[0]

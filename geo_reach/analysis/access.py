@@ -1,0 +1,180 @@
+"""Hub access for every node: the nearest hub (per kind) and its cost, and what each hub serves.
+
+One code path for ``geo-reach access`` and for the access step of a study run.
+
+Results are model estimates; local surveys, codes and licensed professional
+practice decide.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from ..errors import LayerError
+from .attach import attach_points
+from .routing import nearest_hub
+
+__all__ = ["HubAccess", "hub_access", "kind_name"]
+
+
+def kind_name(kind) -> str:
+    """A hub kind as a field-name part: lower case, letters/digits/underscore.
+
+    >>> kind_name("Health Post")
+    'health_post'
+    """
+    s = re.sub(r"[^0-9a-z]+", "_", str(kind).strip().lower()).strip("_")
+    return s or "kind"
+
+
+@dataclass
+class HubAccess:
+    """Result of :func:`hub_access`.
+
+    Attributes
+    ----------
+    node_fields : dict of str to ndarray, each shape (n_nodes,)
+        ``nearest_hub`` and ``hub_<weight>`` for all hubs, then
+        ``nearest_<kind>`` and ``<kind>_<weight>`` per kind (nulls where no
+        hub is reachable).
+    node_cost : ndarray of float64, shape (n_nodes,)
+        Cost to the nearest hub of any kind (NaN = none reachable).
+    node_hub : ndarray of int64, shape (n_nodes,)
+        0-based index of that hub (-1 = none).
+    kind_costs : dict of kind to (cost, hub index) arrays
+    hubs : pandas.DataFrame, one row per hub
+        ``hub_id``, ``kind`` (when kinds are given), ``attached``,
+        ``access_m``, ``served_nodes``, ``served_length_m``, ``component``,
+        ``alone``.
+    notes : list of str
+        What was left out or is suspect (hubs beyond reach, hubs alone in a
+        component, nodes reaching no hub).
+    """
+
+    node_fields: dict
+    node_cost: np.ndarray
+    node_hub: np.ndarray
+    kind_costs: dict
+    hubs: pd.DataFrame
+    notes: list = field(default_factory=list)
+
+
+def _id_column(values, present):
+    vals = np.asarray(values, dtype=object)
+    if len(vals) and all(isinstance(v, (int, np.integer)) for v in vals[present]):
+        out = pd.array(np.where(present, vals, 0).astype(np.int64), dtype="Int64")
+        out[~present] = pd.NA
+        return out
+    return pd.Series(np.where(present, vals, None), dtype=object).to_numpy()
+
+
+def hub_access(network, xy, ids, kinds=None, weight: str = "minutes", direction: str = "to-hub", *,
+               max_access_m: float = 5000.0, walk_kmh: float = 5.0) -> HubAccess:
+    """Nearest hub and cost for every node, for all hubs and per hub kind.
+
+    Parameters
+    ----------
+    network : Network
+    xy : ndarray of float64, shape (n_hubs, 2)
+        Hub points in the network's working CRS (metres).
+    ids : array_like, shape (n_hubs,)
+        Hub ids (written in ``nearest_*`` fields).
+    kinds : array_like of str, shape (n_hubs,), optional
+        Hub kinds; each kind gets its own pair of fields.
+    weight, direction, max_access_m, walk_kmh
+        As in :func:`geo_reach.analysis.routing.nearest_hub` and
+        :func:`geo_reach.analysis.attach.attach_points`.
+
+    Returns
+    -------
+    HubAccess
+
+    Raises
+    ------
+    LayerError
+        Two kinds would give the same field name.
+    """
+    net = network
+    ids = np.asarray(ids, dtype=object)
+    n_hub = len(ids)
+    groups = [(None, np.arange(n_hub))]
+    if kinds is not None:
+        kinds = np.asarray(kinds, dtype=object)
+        names = {}
+        for k in pd.unique(kinds):
+            nm = kind_name(k)
+            if nm in names and names[nm] != k:
+                raise LayerError(f"hub kinds {names[nm]!r} and {k!r} give the same field name '{nm}'; "
+                                 "rename one of them")
+            names[nm] = k
+        groups += [(nm, np.nonzero(kinds == k)[0]) for nm, k in sorted(names.items())]
+    notes = []
+    fields = {}
+    attached = np.zeros(n_hub, bool)
+    access_m = np.full(n_hub, np.inf)
+    comp = np.full(n_hub, -1, np.int64)
+    node_cost = node_hub = None
+    kind_costs = {}
+    for name, members in groups:
+        att = attach_points(net, xy[members], weight, max_access_m=max_access_m, walk_kmh=walk_kmh)
+        cost, hub = nearest_hub(net, att, weight, direction)
+        has = (hub >= 0) & np.isfinite(cost)
+        cost = np.where(has, cost, np.nan)
+        hub_all = np.where(has, members[np.maximum(hub, 0)], -1)
+        col_id = "nearest_hub" if name is None else f"nearest_{name}"
+        col_cost = f"hub_{weight}" if name is None else f"{name}_{weight}"
+        per_node = np.empty(net.n_nodes, dtype=object)
+        per_node[has] = ids[hub_all[has]]
+        fields[col_id] = _id_column(per_node, has)
+        fields[col_cost] = cost
+        if name is None:
+            node_cost, node_hub = cost, hub_all
+            attached[:] = att.attached
+            access_m[:] = att.access_m
+            first_leg = np.full(n_hub, -1)
+            first_leg[att.leg_point[::-1]] = np.arange(len(att.leg_point))[::-1]
+            for i, lg in enumerate(first_leg):
+                if lg >= 0:
+                    nd = att.leg_node[lg] if att.leg_edge[lg] < 0 else net.edge_from[att.leg_edge[lg]]
+                    comp[i] = net.component[nd]
+            left = np.nonzero(~att.attached)[0]
+            if len(left):
+                sample = ", ".join(f"id {ids[i]} ({att.access_m[i]:,.0f} m)" if np.isfinite(att.access_m[i])
+                                   else f"id {ids[i]} (no network to join)" for i in left[:3])
+                notes.append(f"{len(left)} hubs farther than --max-access-m {max_access_m:g} m from the network "
+                             f"are left out: {sample}{' ...' if len(left) > 3 else ''}")
+        else:
+            kind_costs[name] = (cost, hub_all)
+        unreached = int((~has).sum())
+        if unreached:
+            notes.append(f"{unreached} of {net.n_nodes} nodes reach no {'hub' if name is None else name} "
+                         f"(null {col_id}, {col_cost})")
+    # what each hub serves (all kinds together): nodes, and half of each routable edge per end
+    served_nodes = np.bincount(node_hub[node_hub >= 0], minlength=n_hub)
+    half = np.where(np.isnan(net.cost(weight)), 0.0, net.edge_length_m) / 2.0
+    served_len = np.zeros(n_hub)
+    for end in (net.edge_from, net.edge_to):
+        h = node_hub[end]
+        ok = h >= 0
+        served_len += np.bincount(h[ok], weights=half[ok], minlength=n_hub)
+    alone = np.array([comp[i] > 0 and np.sum(comp == comp[i]) == 1 for i in range(n_hub)], dtype=bool)
+    if alone.any():
+        first = np.nonzero(alone)[0][:3]
+        notes.append(f"{int(alone.sum())} hubs are alone in a component of their own, cut off from the largest "
+                     "network component: " + ", ".join(f"id {ids[i]} (component {comp[i]}, "
+                                                       f"{int(np.sum(net.component == comp[i]))} nodes)" for i in first))
+    data = {"hub_id": ids}
+    if kinds is not None:
+        data["kind"] = kinds
+    data.update({"attached": attached.astype(np.int32),
+                 "access_m": np.where(np.isfinite(access_m), access_m, np.nan),
+                 "served_nodes": served_nodes, "served_length_m": served_len,
+                 "component": comp, "alone": alone.astype(np.int32)})
+    frame = pd.DataFrame(data)
+    if all(isinstance(v, (int, np.integer)) for v in ids):
+        frame["hub_id"] = frame["hub_id"].astype(np.int64)
+    return HubAccess(fields, node_cost, node_hub, kind_costs, frame, notes)
