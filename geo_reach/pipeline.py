@@ -640,40 +640,58 @@ def scenario_inputs(study: Study, name: str, base_specs, base_hubs: Hubs | None)
     sc = study.scenarios[name]
     specs = [copy.copy(s) for s in base_specs]
     labels = [s.name or parse_layer_ref(s.source).label for s in specs]
+    # a [[lines]] table is named by its label (name, else layer name, else file stem) or its layer name
+    index = {}
+    for i, (t, lab) in enumerate(zip(study.lines, labels)):
+        index.setdefault(lab, i)
+        if t.get("layer"):
+            index.setdefault(t["layer"], i)
     changes = []
+    upgraded = {}
     for key in ("close", "upgrade"):
         for i, item in enumerate(sc.get(key, [])):
             lab = item.get("layer")
-            if lab not in labels:
+            if lab not in index:
                 raise InputError(f"scenarios.{name}.{key}[{i}].layer: '{lab}' is not a line layer of the study "
                                  f"(layers: {', '.join(labels)})")
-            k = labels.index(lab)
+            k = index[lab]
             s = specs[k]
+            lab = labels[k]
             frame = s.source if isinstance(s.source, gpd.GeoDataFrame) else read_layer(parse_layer_ref(s.source), "lines",
                                                                                        assume_crs=s.assume_crs)
-            fids = list(item.get("fids", []))
+            if "within" in item:
+                ref = parse_layer_ref(_ref(study, item["within"], item.get("within_layer")))
+                poly = read_layer(ref, "polygons").to_crs(frame.crs)
+                hit = frame.geometry.intersects(poly.union_all()) & frame.geometry.notna()
+                fids = list(frame.index[hit.to_numpy()])
+                how = f"inside {ref.label}"
+            else:
+                fids = list(item.get("fids", []))
+                how = "by id"
             missing = [f for f in fids if f not in frame.index]
             if missing:
                 raise InputError(f"scenarios.{name}.{key}[{i}].fids: feature {missing[0]} does not exist in layer "
                                  f"'{lab}'; use the feature ids shown as src_fid in the edges layer")
             if key == "close":
                 frame = frame.drop(index=fids)
-                changes.append(f"closed {len(fids)} feature(s) of {lab}")
+                changes.append(f"closed {len(fids)} feature(s) of {lab} {how}")
             else:
+                from .network.costs import feature_speeds
+
                 frame = frame.copy()
                 col = "__speed_kmh"
-                base_speed = s.speed_field
-                if base_speed is not None:
-                    frame[col] = pd.to_numeric(frame[base_speed], errors="coerce")
+                speed, _, _, _ = feature_speeds(frame, s.mode, s.speed_field, s.class_field, s.class_speeds, s.speed_kmh)
+                frame[col] = speed
+                sel = frame.index.isin(fids)
+                if "speed_kmh" in item:
+                    frame.loc[sel, col] = float(item["speed_kmh"])
+                    what = f"set to {float(item['speed_kmh']):g} km/h"
                 else:
-                    frame[col] = np.nan
-                frame.loc[fids, col] = float(item["speed_kmh"])
+                    frame.loc[sel, col] = frame.loc[sel, col] * float(item["speed_factor"])
+                    what = f"speed x {float(item['speed_factor']):g}"
                 s.speed_field = col
-                if s.class_field is None and s.speed_kmh is None and base_speed is None:
-                    from .network.costs import DEFAULT_SPEED_KMH
-
-                    s.speed_kmh = DEFAULT_SPEED_KMH.get(s.mode)
-                changes.append(f"upgraded {len(fids)} feature(s) of {lab} to {float(item['speed_kmh']):g} km/h")
+                changes.append(f"{len(fids)} feature(s) of {lab} {how}: {what}")
+                upgraded.setdefault(lab, []).extend(int(f) for f in fids)
             s.source = frame
             s.name = lab
     added = layer_specs(study, sc.get("add_lines", []))
@@ -692,7 +710,8 @@ def scenario_inputs(study: Study, name: str, base_specs, base_hubs: Hubs | None)
         if sc.get("remove_hubs"):
             changes.append(f"removed {len(sc['remove_hubs'])} hub(s)")
     kinds = {"lines": bool(added) or any(k in sc for k in ("upgrade",)), "closure": "close" in sc,
-             "hubs": "add_hubs" in sc or bool(sc.get("remove_hubs"))}
+             "hubs": "add_hubs" in sc or bool(sc.get("remove_hubs")), "upgraded": upgraded,
+             "added_layers": [s.name or parse_layer_ref(s.source).label for s in added]}
     return specs, hubs, changes, kinds
 
 
@@ -710,9 +729,23 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
     base_layers = set(bnet.edge_src_layer)
     new_mask = ~np.isin(snet.edge_src_layer, list(base_layers)) & (snet.edge_mode != "transfer")
     new_km += float(snet.edge_length_m[new_mask].sum()) / 1000
-    for item in study.scenarios[name].get("upgrade", []):
-        m = (snet.edge_src_layer == item["layer"]) & np.isin(snet.edge_src_fid, item["fids"])
+    for lab, fids in kinds.get("upgraded", {}).items():
+        m = (snet.edge_src_layer == lab) & np.isin(snet.edge_src_fid, fids)
         new_km += float(snet.edge_length_m[m].sum()) / 1000
+    # a proposed layer that touches nothing forms components of its own: report it
+    for lab in kinds.get("added_layers", []):
+        mine = snet.edge_src_layer == lab
+        if not mine.any():
+            continue
+        comps = np.unique(snet.component[snet.edge_from[mine]])
+        others = ~mine & (snet.edge_mode != "transfer")
+        shared = np.isin(snet.component[snet.edge_from[others]], comps).any()
+        if not shared:
+            msg = (f"proposed layer {lab} touches nothing in the network (no junction within the "
+                   f"{build_options(study).snap_m:g} m tolerance and no declared station); it was kept as a "
+                   "separate part and changes no trip")
+            changes.append(msg)
+            out["touches_nothing"] = out.get("touches_nothing", []) + [lab]
     out["new_or_upgraded_km"] = new_km
     out["changed_anything"] = bool(changes)
     delta = None

@@ -77,8 +77,9 @@ SCHEMA: dict = {
         "add_lines": [_LINE_TABLE],
         "add_hubs": _POINTS_TABLE,
         "remove_hubs": ("list", str),
-        "close": [{"layer": str, "fids": ("list", int)}],
-        "upgrade": [{"layer": str, "fids": ("list", int), "speed_kmh": float}],
+        "close": [{"layer": str, "fids": ("list", int), "within": _FILE, "within_layer": str}],
+        "upgrade": [{"layer": str, "fids": ("list", int), "within": _FILE, "within_layer": str,
+                     "speed_kmh": float, "speed_factor": float}],
     }),
 }
 
@@ -272,6 +273,18 @@ def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str |
         for i, ln in enumerate(sc.get("add_lines", [])):
             if "path" not in ln:
                 raise InputError(f"{where_}scenarios.{name}.add_lines[{i}].path: missing")
+        for key in ("close", "upgrade"):
+            for i, item in enumerate(sc.get(key, [])):
+                at = f"{where_}scenarios.{name}.{key}[{i}]"
+                if "layer" not in item:
+                    raise InputError(f"{at}.layer: missing; name the line layer (its [[lines]] name or layer)")
+                if ("fids" in item) == ("within" in item):
+                    raise InputError(f"{at}: give either fids (source feature ids) or within (a polygon layer)")
+                if key == "upgrade" and ("speed_kmh" in item) == ("speed_factor" in item):
+                    raise InputError(f"{at}: give either speed_kmh or speed_factor (e.g. 0.5 for a wet-season slowdown)")
+                for k in ("speed_kmh", "speed_factor"):
+                    if k in item and item[k] <= 0:
+                        raise InputError(f"{at}.{k}: must be positive; close the features instead")
     surface = raw.get("surface")
     if surface is not None:
         bands = surface.get("bands", [30, 60, 120])

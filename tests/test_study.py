@@ -182,3 +182,42 @@ def test_scenario_that_changes_nothing_is_reported_and_still_mapped(tmp_path):
     assert s["scenarios"]["idle"]["changed_anything"] is False
     assert "changes nothing" in out + err
     assert (tmp_path / "o" / "map.html").exists()
+
+
+def test_upgrade_and_closure_inside_a_polygon(tmp_path):
+    """A wet-season slowdown inside a polygon is never faster; a closure by polygon never faster either;
+    an upgrade by id never slower (costs are monotone in edge costs: Dijkstra 1959, relaxation)."""
+    import geopandas as gpd
+    import shapely
+
+    from studykit import CRS, X0, Y0
+
+    extra = '''
+[scenarios.wet]
+upgrade = [{ layer = "roads", within = "net.gpkg", within_layer = "mud", speed_factor = 0.5 }]
+
+[scenarios.shut]
+close = [{ layer = "roads", within = "net.gpkg", within_layer = "mud" }]
+
+[scenarios.fast]
+upgrade = [{ layer = "roads", fids = [1, 2], speed_kmh = 60 }]
+
+[scenarios.island]
+add_lines = [{ path = "net.gpkg", layer = "island", speed_field = "speed" }]
+'''
+    p = write_study(tmp_path, extra=extra, proposal=False)
+    gpd.GeoDataFrame(geometry=[shapely.box(X0 + 900, Y0 - 100, X0 + 2100, Y0 + 1100)], crs=CRS).to_file(
+        tmp_path / "net.gpkg", layer="mud")
+    gpd.GeoDataFrame({"speed": [30.0]}, geometry=[shapely.LineString([(X0 + 4000, Y0), (X0 + 4000, Y0 + 900)])],
+                     crs=CRS).to_file(tmp_path / "net.gpkg", layer="island")
+    code, out, err = cli("run", p, "-o", tmp_path / "o", "--quiet")
+    assert code == 0, err
+    s = json.loads((tmp_path / "o" / "summary.json").read_text())["scenarios"]
+    assert any("inside mud" in c for c in s["wet"]["changes"])
+    assert s["fast"]["new_or_upgraded_km"] > 0
+    assert "island" in s["island"]["touches_nothing"]
+    for name, sign in (("wet", 1), ("shut", 1), ("fast", -1)):
+        with rasterio.open(tmp_path / "o" / f"delta_minutes_{name}.tif") as ds:
+            d = ds.read(1, masked=True).compressed()
+        assert (sign * d >= -1e-9).all(), name
+        assert np.abs(d).max() > 0, name
