@@ -1,16 +1,38 @@
 """geo-reach: how well places are connected over road, rail and cable networks.
 
+The Python API in one place::
+
+    import geo_reach as gr
+    result = gr.build_network([gr.LayerSpec("roads.gpkg:roads", class_field="class")])
+    cost, hub = gr.nearest_hub(result.network, [0, 42])
+    study = gr.load_study("study.toml"); gr.run_study(study, "out/")
+
 Results are model estimates; local surveys, codes and licensed professional
 practice decide.
 """
 
 __version__ = "0.1.0"
 
-from .errors import GeoReachError, InputError  # noqa: E402
-from .network.model import Network, WEIGHTS  # noqa: E402
-
 #: The caution every report and map carries.
 CAUTION = ("Model estimates only: local surveys, codes and licensed professional practice "
            "decide health, emergency and investment choices.")
 
-__all__ = ["Network", "WEIGHTS", "GeoReachError", "InputError", "CAUTION", "__version__"]
+from .errors import GeoReachError, InputError  # noqa: E402
+from .network.model import Network, WEIGHTS  # noqa: E402
+from .network.build import BuildOptions, BuildResult, LayerSpec, build_network, check_layers  # noqa: E402
+from .analysis.attach import attach_points  # noqa: E402
+from .analysis.access import hub_access  # noqa: E402
+from .analysis.routing import nearest_hub, od_matrix, one_to_all, shortest_path  # noqa: E402
+from .analysis.metrics import diameter, global_efficiency, mean_path  # noqa: E402
+from .analysis.profile import reach_profile  # noqa: E402
+from .analysis.surface import compute_surface  # noqa: E402
+from .study import load_study  # noqa: E402
+from .pipeline import run_study  # noqa: E402
+
+__all__ = [
+    "CAUTION", "__version__", "GeoReachError", "InputError", "Network", "WEIGHTS",
+    "BuildOptions", "BuildResult", "LayerSpec", "build_network", "check_layers",
+    "attach_points", "hub_access", "nearest_hub", "od_matrix", "one_to_all", "shortest_path",
+    "diameter", "global_efficiency", "mean_path", "reach_profile", "compute_surface",
+    "load_study", "run_study",
+]

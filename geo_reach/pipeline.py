@@ -561,12 +561,36 @@ def _clean(o):
     return o
 
 
-def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, summary: dict):
-    """Write every output of a run into ``folder`` (a fresh temporary folder)."""
+def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, summary: dict,
+                  only_comparison: bool = False):
+    """Write every output of a run into ``folder`` (a fresh temporary folder).
+
+    With ``only_comparison`` (``geo-reach compare``) only the scenario layers,
+    the change rasters, the map and the summary are written.
+    """
     from .export.gpkg import write_layers
     from .export.raster import write_cog
     from .export.styles import write_styles
 
+    if only_comparison:
+        layers = {}
+        for name, sc in scenarios.items():
+            for lname, frame in sc["layers"].items():
+                layers[f"{name}_{lname}"] = frame
+        gpkg = folder / "comparison.gpkg"
+        if layers:
+            write_layers(gpkg, layers)
+            write_styles(gpkg, layers)
+        if base.surface is not None:
+            g = base.grid
+            for name, sc in scenarios.items():
+                if sc.get("delta") is not None:
+                    write_cog(folder / f"delta_minutes_{name}.tif", sc["delta"].astype(np.float32), g.transform,
+                              g.crs, np.nan)
+        if study.outputs.get("map", True):
+            _write_map(folder / "map.html", study, base, scenarios)
+        (folder / "summary.json").write_text(json.dumps(_clean(summary), indent=2) + "\n")
+        return
     layers = {"edges": _edges_layer(base), "nodes": _nodes_layer(base), "network_issues": base.build.issues}
     if base.hub_table is not None:
         layers["hubs"] = base.hub_table
@@ -901,7 +925,7 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
     with atomic_dir(outdir) as tmp:
         timing["total_s"] = round(time.perf_counter() - t0, 3)
         summary["timing"] = timing
-        write_outputs(tmp, study, base, results, summary)
+        write_outputs(tmp, study, base, results, summary, only_comparison=only_comparison)
     bar.close()
     return summary
 

@@ -221,3 +221,16 @@ add_lines = [{ path = "net.gpkg", layer = "island", speed_field = "speed" }]
             d = ds.read(1, masked=True).compressed()
         assert (sign * d >= -1e-9).all(), name
         assert np.abs(d).max() > 0, name
+
+
+def test_compare_writes_only_the_comparison(ran, tmp_path):
+    p, _, _ = ran
+    out = tmp_path / "cmp"
+    code, stdout, err = cli("compare", p, "--scenario", "far_link", "-o", out, "--quiet")
+    assert code == 0, err
+    files = {f.name for f in out.iterdir()}
+    assert {"comparison.gpkg", "delta_minutes_far_link.tif", "summary.json", "map.html"} <= files
+    assert "minutes.tif" not in files and "results.gpkg" not in files and "delta_minutes_new_clinic.tif" not in files
+    s = json.loads((out / "summary.json").read_text())
+    assert list(s["scenarios"]) == ["far_link"]
+    one_line_error(["compare", p, "--scenario", "nope", "-o", tmp_path / "x"], "nope")
