@@ -160,11 +160,6 @@ def read_sources(args) -> list[Source]:
 
     out = []
     for arg in args:
-        p = Path(arg)
-        if p.suffix.lower() in RASTER_SUFFIXES or (not p.exists() and ":" not in arg
-                                                     and p.suffix.lower() in RASTER_SUFFIXES):
-            out.append(_read_raster_source(arg, p))
-            continue
         ref = parse_layer_ref(arg)
         if not ref.path.exists():
             raise MissingInputError(f"{where(ref.path)}not found; check the path")
@@ -300,7 +295,7 @@ class LineTable:
     mode: str
     mode_why: str
     name: str | None = None
-    entries: list = field(default_factory=list)      # (key, toml value or None if commented, comment)
+    entries: list = field(default_factory=list)      # (key, toml value, comment, active); key '#' = a note
     class_rows: list = field(default_factory=list)   # (class, speed, active, comment)
     class_note: str = ""
     stations: Source | None = None
@@ -355,7 +350,7 @@ def line_suggestions(src: Source) -> LineTable:
     frame = src.frame
     n = len(frame)
     if mode == "cable":
-        t.entries.append(("#", None, "cable links cost signal latency (ms), not speed: no speed fields needed"))
+        t.entries.append(("#", None, "cable links cost signal latency (ms), not speed: no speed fields needed", None))
         return t
     # ---- speed
     speed_note = None
@@ -363,13 +358,13 @@ def line_suggestions(src: Source) -> LineTable:
         share, med, filled = _positive_share(frame[c])
         if share >= 0.5:
             t.entries.append(("speed_field", _q(c), f"field '{_safe(c)}' looks like a speed: {share:.0%} of "
-                              f"{filled} filled values are positive numbers (median {_num(med)}), read as km/h"))
+                              f"{filled} filled values are positive numbers (median {_num(med)}), read as km/h", True))
             break
-        speed_note = (f"field '{_safe(c)}' is named like a speed but only {share:.0%} of its {filled} filled "
-                      "values are positive numbers")
+        speed_note = (c, f"field '{_safe(c)}' is named like a speed but only {share:.0%} of its {filled} filled "
+                         "values are positive numbers")
     else:
         if speed_note:
-            t.entries.append(("speed_field", None, speed_note))
+            t.entries.append(("speed_field", _q(speed_note[0]), speed_note[1], False))
     # ---- class
     table = {k.lower(): v for k, v in DEFAULT_CLASS_SPEEDS_KMH.items()}
     best = None
@@ -387,7 +382,7 @@ def line_suggestions(src: Source) -> LineTable:
         if usable:
             t.entries.append(("class_field", _q(c), f"field '{_safe(c)}' looks like a road class: {distinct} "
                               f"value{'s' if distinct != 1 else ''} found, {known:.0%} of features in the default "
-                              "speed table"))
+                              "speed table", True))
             counts = vals.value_counts()
             order = sorted(counts.index, key=lambda v: (-counts[v], v))
             for v in order[:MAX_CLASSES]:
@@ -402,16 +397,16 @@ def line_suggestions(src: Source) -> LineTable:
                 t.class_note = (f"{len(order) - MAX_CLASSES} more values ({rest} features) not listed: they use "
                                 "the default table if it knows them, else speed_kmh or the road default")
         else:
-            t.entries.append(("class_field", None, f"field '{_safe(c)}' is named like a class but has {distinct} "
-                              f"different values, only {known:.0%} of features in the default table"))
+            t.entries.append(("class_field", _q(c), f"field '{_safe(c)}' is named like a class but has {distinct} "
+                              f"different values, only {known:.0%} of features in the default table", False))
     elif mode == "rail" and best is not None:
         t.entries.append(("#", None, f"field '{_safe(best[0])}' may be a rail class; rail speeds are best set as "
-                          "speed_kmh or a speed field"))
-    if not any(k in ("speed_field", "class_field") and v is not None for k, v, _ in t.entries):
+                          "speed_kmh or a speed field", None))
+    if not any(k in ("speed_field", "class_field") and active for k, _, _, active in t.entries):
         d = DEFAULT_SPEED_KMH[mode]
-        t.entries.append(("speed_kmh", None, f"no usable speed or class field: every feature gets the {mode} "
+        t.entries.append(("speed_kmh", _num(d), f"no usable speed or class field: every feature gets the {mode} "
                           f"default of {_num(d)} km/h unless you set speed_kmh"
-                          + ("; for rail give the average speed with stops" if mode == "rail" else "")))
+                          + ("; for rail give the average speed with stops" if mode == "rail" else ""), False))
     # ---- one-way
     c = _field(frame, ONEWAY_FIELDS)
     if c is not None:
@@ -425,11 +420,11 @@ def line_suggestions(src: Source) -> LineTable:
             if set(vals.unique()) & {"t", "f"}:
                 extra = "; note 'f' reads as forward (one-way), not false"
             t.entries.append(("oneway_field", _q(c), f"field '{_safe(c)}' looks like a one-way flag: {oneway_n} "
-                              f"one-way of {n} features (yes/1 forward, -1 reverse){extra}"))
+                              f"one-way of {n} features (yes/1 forward, -1 reverse){extra}", True))
         else:
             odd = sorted({v for v, k in zip(vals, known) if not k})
-            t.entries.append(("oneway_field", None, f"field '{_safe(c)}' is named like a one-way flag but values "
-                              f"such as {_examples(odd)} are not yes/no/1/-1"))
+            t.entries.append(("oneway_field", _q(c), f"field '{_safe(c)}' is named like a one-way flag but values "
+                              f"such as {_examples(odd)} are not yes/no/1/-1", False))
     # ---- level
     c = _field(frame, LEVEL_FIELDS)
     if c is not None:
@@ -442,10 +437,10 @@ def line_suggestions(src: Source) -> LineTable:
             lv = sorted(num.dropna().unique())
             t.entries.append(("level_field", _q(c), f"field '{_safe(c)}' looks like a vertical level: numbers "
                               f"({', '.join(_num(x) for x in lv[:6])}{'...' if len(lv) > 6 else ''}); crossings "
-                              "at different levels stay unjoined"))
+                              "at different levels stay unjoined", True))
         else:
-            t.entries.append(("level_field", None, f"field '{_safe(c)}' is named like a level but holds words "
-                              f"(e.g. {_examples(_norm_values(vals).unique())}); levels must be numbers"))
+            t.entries.append(("level_field", _q(c), f"field '{_safe(c)}' is named like a level but holds words "
+                              f"(e.g. {_examples(_norm_values(vals).unique())}); levels must be numbers", False))
     # ---- all-season (roads)
     c = _field(frame, ALL_SEASON_FIELDS) if mode == "road" else None
     if c is not None:
@@ -456,10 +451,10 @@ def line_suggestions(src: Source) -> LineTable:
         share = float(ok.mean()) if len(vals) else 0.0
         if share >= 0.9:
             t.entries.append(("all_season_field", _q(c), f"field '{_safe(c)}' looks like an all-season flag "
-                              f"(1/0 or yes/no): {share:.0%} of {len(vals)} filled values"))
+                              f"(1/0 or yes/no): {share:.0%} of {len(vals)} filled values", True))
         else:
-            t.entries.append(("all_season_field", None, f"field '{_safe(c)}' is named like an all-season flag but "
-                              f"holds words (e.g. {_examples(vals[~ok].unique())}); the flag needs 1/0 or yes/no"))
+            t.entries.append(("all_season_field", _q(c), f"field '{_safe(c)}' is named like an all-season flag but "
+                              f"holds words (e.g. {_examples(vals[~ok].unique())}); the flag needs 1/0 or yes/no", False))
     return t
 
 
@@ -507,7 +502,7 @@ def _id_field(frame, prefer=()):
     """A field with unique, filled values, named like an id."""
     geom = frame.geometry.name
     cands = [c for c in frame.columns if c != geom and (str(c).lower() in prefer or str(c).lower() in ID_FIELDS
-                                                         or str(c).lower().endswith("_id"))]
+                                                         or str(c).lower().endswith("id"))]
     cands.sort(key=lambda c: (str(c).lower() not in prefer, str(c).lower() not in ID_FIELDS, str(c)))
     for c in cands:
         col = frame[c]
@@ -579,7 +574,6 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
     """
     from .. import CAUTION
     from ..errors import InputError
-    from ..network.costs import DEFAULT_SPEED_KMH
 
     out = Path(out)
     base = out.parent if str(out.parent) else Path(".")
@@ -602,7 +596,7 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
     have_rail = any(t.mode == "rail" for t in tables)
     have_cable = any(t.mode == "cable" for t in tables)
 
-    hubs, settlements, zones, barriers, extra_points, extra_polys = [], [], [], [], [], []
+    hubs, settlements, zones, barriers, extra_points = [], [], [], [], []
     for s in sources:
         if s.family == "points":
             role, why = classify_points(s, have_rail, have_cable)
@@ -656,16 +650,11 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
         if s.crs is None:
             w.setting("assume_crs", _q("EPSG:NNNN"), "the layer has no CRS: give its EPSG code", commented=True)
             notes.append(f"{s.arg}: no CRS; set assume_crs in the study")
-        for key, value, why in t.entries:
+        for key, value, why, active in t.entries:
             if key == "#":
                 w.note(why)
-            elif value is None:
-                sample = {"speed_field": _q("speed"), "class_field": _q("class"), "oneway_field": _q("oneway"),
-                          "level_field": _q("level"), "all_season_field": _q("all_season"),
-                          "speed_kmh": _num(DEFAULT_SPEED_KMH.get(t.mode, 40.0))}[key]
-                w.setting(key, sample, why, commented=True)
             else:
-                w.setting(key, value, why)
+                w.setting(key, value, why, commented=not active)
         if t.stations is not None:
             st, why = t.stations
             w.setting("stations", _q(_rel(st.path, base)), f"points where trips {'board' if t.mode == 'rail' else 'join'}"
@@ -801,8 +790,8 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
         if t.name:
             parts.append(f"name = {_q(t.name)}")
         parts.append(f"mode = {_q(t.mode)}")
-        for key, value, why in t.entries:
-            if key != "#" and value is not None:
+        for key, value, why, active in t.entries:
+            if key != "#" and active:
                 parts.append(f"{key} = {value}")
                 w.note(f"{key}: {why}")
         active = [(v, sp) for v, sp, a, _ in t.class_rows if a]
