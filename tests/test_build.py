@@ -68,7 +68,8 @@ def test_hand_worked_faults():
     assert r.report["dropped_features"] == [{"src_layer": "layer1", "src_fid": 9, "reason": "no geometry"}]
     assert k["gap_joined"] == 4          # 0.5 end gap, 0.6 T, 0.5 T, 0.7 overshoot
     assert k["unjoined_gap"] == 1
-    assert k["crossing_split"] == 2      # (50, 0) and the overshoot crossing at (80, 0)
+    # one point per spot: the overshoot at (80, 0) is reported as a trimmed overshoot, not also as a crossing
+    assert k["crossing_split"] == 1      # (50, 0) only
     assert r.report["issues"]["gap_joined"] == 4
     gaps = r.issues[r.issues.kind == "unjoined_gap"]
     assert gaps.geometry.iloc[0].distance(shapely.Point(X0 + 200, Y0 + 1.5)) < 1e-6

@@ -644,6 +644,7 @@ class _Topology:
         self.trim_start = np.full(self.nlines, np.nan)
         self.trim_end = np.full(self.nlines, np.nan)
         self.end_free = np.ones(2 * self.nlines, bool)
+        self.trimmed_nodes = []      # where an overshoot was cut back (already reported there)
 
     # ----------------------------------------------------------------
     def _add_new(self, line, pos, x, y):
@@ -700,6 +701,14 @@ class _Topology:
         x = np.concatenate(self.new_x)[:k]
         y = np.concatenate(self.new_y)[:k]
         key = np.column_stack([np.round(x / NOISE_M), np.round(y / NOISE_M)]).astype(np.int64)
+        if self.trimmed_nodes:
+            # one point per spot: a trimmed overshoot is reported as such, not also as a crossing
+            t = np.concatenate(self.trimmed_nodes)
+            tk = {(int(a), int(b)) for a, b in np.round(t / NOISE_M).astype(np.int64)}
+            keep = np.array([(int(a), int(b)) not in tk for a, b in key], dtype=bool)
+            line, x, y, key = line[keep], x[keep], y[keep], key[keep]
+            if len(key) == 0:
+                return
         _, first, inv, count = np.unique(key, axis=0, return_index=True, return_inverse=True, return_counts=True)
         nlines = np.zeros(len(first), np.int64)
         pairs = np.unique(np.column_stack([inv.ravel(), line]), axis=0)
@@ -798,6 +807,7 @@ class _Topology:
             self.report["trimmed_length_m"] += float(geodesic_lengths(pts[order], own[order], len(ln), self.crs).sum())
             np.add.at(delta, cut_lo, 1)
             np.add.at(delta, cut_hi, -1)
+            self.trimmed_nodes.append(node)
             for i in np.nonzero(dist[ln] >= NOISE_M)[0]:
                 self.issues.add("gap_joined", node[i, 0], node[i, 1],
                                 f"overshoot of {dist[ln[i]]:.2f} m past a junction trimmed",
