@@ -27,6 +27,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 
 from ..errors import InputError, OptionError
@@ -253,17 +254,20 @@ def seed_raster(points: EntryPoints, grid) -> Seeds:
     rows, cols = grid.index(points.x, points.y)
     ok = (rows >= 0) & np.isfinite(points.minutes)
     cell = rows[ok] * grid.width + cols[ok]
-    mins = points.minutes[ok]
-    via = points.via_node[ok]
-    order = np.lexsort((mins, cell))
-    cell, mins, via = cell[order], mins[order], via[order]
-    first = np.ones(cell.size, dtype=bool)
-    first[1:] = cell[1:] != cell[:-1]
     out_m = np.full(grid.width * grid.height, np.inf)
     out_v = np.full(grid.width * grid.height, -1, dtype=np.int64)
-    out_m[cell[first]] = mins[first]
-    out_v[cell[first]] = via[first]
+    _scatter_min(cell, points.minutes[ok], points.via_node[ok].astype(np.int64), out_m, out_v)
     return Seeds(out_m.reshape(grid.shape), out_v.reshape(grid.shape))
+
+
+@numba.njit(cache=True, nogil=True)
+def _scatter_min(cell, minutes, via, out_m, out_v):
+    """Keep, per cell, the cheapest point (the first one among equals)."""
+    for i in range(cell.shape[0]):
+        c = cell[i]
+        if minutes[i] < out_m[c]:
+            out_m[c] = minutes[i]
+            out_v[c] = via[i]
 
 
 def cable_connection_m(network, grid, chunk_rows: int = 256) -> np.ndarray:

@@ -127,7 +127,7 @@ def compute_surface(network, node_cost, node_hub, grid, walk_kmh: float = 5.0, t
 
     Notes
     -----
-    Memory about 96 bytes per cell at peak (see
+    Memory about 128 bytes per cell at peak (see
     :data:`~geo_reach.ingest.rasters.SURFACE_BYTES_PER_CELL`).
     """
     if direction not in DIRECTIONS:

@@ -42,11 +42,13 @@ __all__ = [
 ]
 
 #: Working memory one grid cell costs during a surface computation, bytes.
-#: Float64 minutes, pace and elevation, seed minutes, int32 labels twice, the
-#: heap (float64 key + int32 item) and its int32 position map, plus masks and
-#: temporaries of the band and region steps.  Measured peaks stay below this
-#: (see benchmarks/RESULTS.md, section "Surface").
-SURFACE_BYTES_PER_CELL = 96
+#: Counted from :func:`~geo_reach.analysis.surface.compute_surface`: float64
+#: speed, pace, seed minutes, minutes and elevation (40), int64 seed node,
+#: seed label, propagated label and entry node (32), the heap's float64 keys
+#: and int32 items and positions (16), the int32 hub raster and masks and
+#: temporaries (about 40).  The benchmark's measured peak is in
+#: benchmarks/RESULTS.md, section "Surface".
+SURFACE_BYTES_PER_CELL = 128
 
 #: The resampling each kind of raster gets.
 RESAMPLING_KINDS = ("population", "terrain", "classes")
