@@ -148,3 +148,28 @@ def test_weak_regions_refusals():
         weak_regions(m, np.zeros(gr.shape, int), gr, net, cost, [0], threshold_minutes=0)
     with pytest.raises(OptionError, match="hub node ids"):
         weak_regions(m, np.zeros(gr.shape, int), gr, net, cost, [99], threshold_minutes=5)
+
+
+def test_bridges_and_sides_on_real_streets():
+    # libpysal's GeoDaNet street layer (real digitised streets, shipped with the package). Nodes are the
+    # noded line ends (coordinates rounded to 0.1 ft); references: networkx.bridges and the brute-force sides.
+    import os
+
+    import geopandas as gpd
+    import libpysal
+
+    path = os.path.join(os.path.dirname(libpysal.examples.__file__), "geodanet", "streets.shp")
+    # noded by GEOS (union of all lines splits them where they cross), so dead ends become bridges
+    lines = shapely.get_parts(shapely.union_all(gpd.read_file(path).geometry.values))
+    ends = np.array([[g.coords[0], g.coords[-1]] for g in lines]).round(1)
+    keys, inv = np.unique(ends.reshape(-1, 2), axis=0, return_inverse=True)
+    uv = inv.reshape(-1, 2)
+    n = len(keys)
+    ours = bridges(n, uv[:, 0], uv[:, 1])
+    got = {frozenset(map(int, e)) for e, f in zip(uv, ours) if f}
+    assert got == _nx_bridges(n, uv[:, 0], uv[:, 1]) and len(got) > 0
+    net = net_from_edges(keys, uv)
+    hubs = {0, n // 2}
+    sides = bridge_sides(net, sorted(hubs))
+    expect = _brute_force_sides(n, uv[:, 0], uv[:, 1], hubs)
+    assert {x for x in range(n) if sides.group[x] >= 0} == set(expect) and len(expect) > 0
