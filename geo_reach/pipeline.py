@@ -672,7 +672,7 @@ def scenario_inputs(study: Study, name: str, base_specs, base_hubs: Hubs | None)
             index.setdefault(t["layer"], i)
     changes = []
     upgraded = {}
-    for key in ("close", "upgrade"):
+    for key in ("upgrade", "close"):   # upgrades first, so a scenario may upgrade and close one feature
         for i, item in enumerate(sc.get(key, [])):
             lab = item.get("layer")
             if lab not in index:
@@ -811,22 +811,22 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
             z[f"{c}_after"] = scen.zones.zones[c].to_numpy()
             z[f"{c}_delta"] = z[f"{c}_after"] - z[c]
         out["layers"]["zones"] = z
-    # edge change layer: per new-network edge, the change of hub minutes at its cheaper end, on shared geometry
+    # edge change layer: each scenario edge's minutes to the nearest hub (at its cheaper end) against
+    # the baseline's minutes at the same places (nodes matched by position, to 1 mm); a scenario
+    # node the baseline lacks (a new junction, a new line) has no "before".
     se = out["edges"]
-    if "hub_minutes" in se:
-        be = _edges_layer(base)
-        import shapely
+    if "hub_minutes" in se and base.node_cost is not None:
+        from scipy.spatial import cKDTree
 
-        tree = shapely.STRtree(be.geometry.values)
-        mid = shapely.line_interpolate_point(se.geometry.values, 0.5, normalized=True)
-        idx = tree.query_nearest(mid, max_distance=1.0, all_matches=False)
-        before = np.full(len(se), np.nan)
-        before[idx[0]] = be["hub_minutes"].to_numpy()[idx[1]]
+        tree = cKDTree(np.column_stack([bnet.node_x, bnet.node_y]))
+        d, k = tree.query(np.column_stack([snet.node_x, snet.node_y]))
+        before_node = np.where(d < 1e-3, base.node_cost[k], np.nan)
+        before = np.fmin(before_node[snet.edge_from], before_node[snet.edge_to])
         ch = se[["edge_id", "mode", "length_m", "src_layer", "src_fid", "hub_minutes", "geometry"]].copy()
         ch["minutes_before"] = before
         ch["delta_minutes"] = ch["hub_minutes"] - before
         ch = ch.rename(columns={"hub_minutes": "minutes_after"})
-        # Only what changed: new or closed edges and edges whose minutes moved by more than a second.
+        # Only what changed: new edges and edges whose minutes moved by more than a second.
         moved = ~(np.abs(ch["delta_minutes"].to_numpy()) < 1 / 60)
         ch = ch[moved]
         out["layers"]["edge_change"] = gpd.GeoDataFrame(ch, geometry="geometry", crs=se.crs)

@@ -138,6 +138,8 @@ def test_access_per_kind_with_ids(tmp_path, net_path, capsys, monkeypatch):
 
 def test_access_direction_on_one_way_network(tmp_path, capsys, monkeypatch):
     # chain of one-way links 0 -> 1 -> ... -> 4 (1 km, 1 min); hub at node 4's position.
+    # --max-access-m 100: the hub may only join at node 4 (with the default 5 km it could also walk
+    # to an earlier link, a legitimate but slower outreach trip).
     net = make_network([(i, i + 1) for i in range(4)], np.array([(X0 + 1000.0 * i, Y0) for i in range(5)]),
                        oneway=True)
     object.__setattr__(net, "crs", UTM)
@@ -145,7 +147,8 @@ def test_access_direction_on_one_way_network(tmp_path, capsys, monkeypatch):
     hubs = write_points(tmp_path / "h.gpkg", [(X0 + 4000, Y0)])
     for direction, expect in (("to-hub", [4.0, 3.0, 2.0, 1.0, 0.0]), ("from-hub", [None, None, None, None, 0.0])):
         out = tmp_path / f"{direction}.gpkg"
-        code, _, err = run(["access", path, "--hubs", hubs, "--direction", direction, "-o", out], capsys, monkeypatch)
+        code, _, err = run(["access", path, "--hubs", hubs, "--direction", direction, "--max-access-m", "100",
+                            "-o", out], capsys, monkeypatch)
         assert code == 0, err
         got = pyogrio.read_dataframe(out, layer="nodes")["hub_minutes"].tolist()
         assert [None if np.isnan(v) else v for v in got] == expect

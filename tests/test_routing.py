@@ -156,10 +156,13 @@ def test_shortest_path_respects_one_way():
 
 # ---------------------------------------------------------------- off-network points
 def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs):
-    """Slow reference: split each point's nearest road edge at the projection, add the point as a node.
+    """Slow reference: split every road edge within ``max_access_m`` of a point at the point's
+    projection, and join the point to each cut by a walking leg.
 
-    Nearest edge by brute force over all edges (shapely distance per edge).  Several points
-    on one edge split it in order of position.  Returns the networkx cost for each (i, j) pair.
+    Distances by brute force over all edges (shapely distance per edge).  Several points
+    on one edge split it in order of position.  Each point is two nodes: one only left (the
+    origin side) and one only arrived at (the destination side), so no trip passes through a
+    point.  Returns the networkx cost for each (i, j) pair.
     """
     c = net.cost(weight)
     g = to_networkx(net, weight)
@@ -173,10 +176,9 @@ def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs
                 if net.edge_mode[e] == "road" and not np.isnan(c[e])}
         if not dist or min(dist.values()) > max_access_m:
             continue
-        near = min(dist.values())
         pnode[i] = base + i
-        for e, d in dist.items():  # every edge tied at the nearest distance (parallel edges, junctions)
-            if d <= near + 1e-6:
+        for e, d in dist.items():  # every edge within reach: the search picks the cheapest entry
+            if d <= max_access_m:
                 f = net.edge_geometry[e].line_locate_point(p, normalized=True)
                 cuts.setdefault(e, []).append((f, i, d))
     h = nx.DiGraph()
@@ -193,8 +195,8 @@ def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs
             pieces = [(a[1], b[1], (b[0] - a[0]) * c[e]) for a, b in zip(chain[:-1], chain[1:])]
             for k, (f, i, d) in enumerate(stops):
                 w = float(walk_cost(d, weight, walk_kmh))
-                h.add_edge(pnode[i], ("cut", e, k), w=w)
-                h.add_edge(("cut", e, k), pnode[i], w=w)
+                h.add_edge(("out", pnode[i]), ("cut", e, k), w=w)
+                h.add_edge(("cut", e, k), ("in", pnode[i]), w=w)
         for a, b, w in pieces:
             # a zero-length piece joins two cuts at one place: passable both ways even if one-way
             for s, t in ([(a, b)] if net.edge_oneway[e] and w > 0 else [(a, b), (b, a)]):
@@ -206,7 +208,7 @@ def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs
             out.append(np.inf)
             continue
         try:
-            out.append(nx.dijkstra_path_length(h, pnode[i], pnode[j], weight="w"))
+            out.append(nx.dijkstra_path_length(h, ("out", pnode[i]), ("in", pnode[j]), weight="w"))
         except nx.NetworkXNoPath:
             out.append(np.inf)
     return np.array(out)
@@ -259,22 +261,39 @@ def test_attach_hand_computed_one_way_split():
     assert nearest_hub(net, att_h, "hops", "to-hub").cost[0] == pytest.approx(0.3)
 
 
+def test_cheapest_entry_not_nearest():
+    """Hand-worked: a hub 20 m from a 6 km/h track and 200 m from a 60 km/h road, a node 3 km along.
+
+    Via the track: 20 m walk (0.24 min at 5 km/h) + 3 km at 6 km/h (30 min) = 30.24 min.
+    Via the road:  200 m walk (2.4 min) + 3 km at 60 km/h (3 min) = 5.4 min, the cheapest entry."""
+    xy = [[0, 0], [3000, 0], [0, 220], [3000, 220]]
+    net = make_network([(0, 1), (2, 3)], xy, minutes=np.array([30.0, 3.0]))
+    att = attach_points(net, [[0, 20]], "minutes", max_access_m=5000, walk_kmh=5.0)
+    cost, _ = nearest_hub(net, att, "minutes", "to-hub")
+    assert cost[3] == pytest.approx(200 / 5000 * 60 + 3.0)
+    # node 1 (the track's far end) is only on the track: 0.24 + 30 = 30.24 min
+    assert cost[1] == pytest.approx(20 / 5000 * 60 + 30.0)
+
+
 def test_attach_modes_and_distance_limit():
     # road 0-1 at y=0; rail 2-3 at y=500 (node 2 a station, node 3 not); transfer 1-2.
     xy = [[0, 0], [1000, 0], [0, 500], [1000, 500]]
     net = make_network([(0, 1), (2, 3), (1, 2)], xy, mode=np.array(["road", "rail", "transfer"], object),
                        entry=np.array([True, True, True, False]))
     att = attach_points(net, [[900, 480], [10, 490], [500, 260], [500, 20000]], "minutes", max_access_m=5000)
-    # point 0 is nearest the rail line but may not enter it between stations: nearest entry is
-    # station node 2 (distance hypot(900, 20)) vs the road at 480 m -> road.
+    # point 0 is nearest the rail line but may not enter it between stations: its entries are
+    # the road at 480 m and station node 2 at hypot(900, 20); the nearest (access_m) is the road.
     legs0 = np.nonzero(att.leg_point == 0)[0]
-    assert att.leg_edge[legs0].tolist() == [0] and att.leg_walk_m[legs0][0] == pytest.approx(480.0)
-    # point 1 is 10 m from station node 2: joins at the node
+    assert sorted(zip(att.leg_edge[legs0].tolist(), att.leg_node[legs0].tolist())) == [(-1, 2), (0, -1)]
+    assert sorted(att.leg_walk_m[legs0]) == pytest.approx([480.0, np.hypot(900, 20)])
+    assert att.access_m[0] == pytest.approx(480.0)
+    # point 1 is hypot(10, 10) m from station node 2 (and 490 m from the road): its nearest entry is the node
     legs1 = np.nonzero(att.leg_point == 1)[0]
-    assert att.leg_node[legs1].tolist() == [2] and att.leg_edge[legs1].tolist() == [-1]
+    assert 2 in att.leg_node[legs1].tolist() and att.access_m[1] == pytest.approx(np.hypot(10, 10))
     # point 2 lies 240 m from the transfer edge, 260 m from the road: transfers are never entered
     legs2 = np.nonzero(att.leg_point == 2)[0]
-    assert att.leg_edge[legs2].tolist() == [0]
+    assert 2 not in att.leg_edge[legs2].tolist() and 0 in att.leg_edge[legs2].tolist()
+    assert att.access_m[2] == pytest.approx(260.0)
     # point 3 is beyond max_access_m: reported with its real distance (to station node 2 at (0, 500)),
     # not attached
     assert att.attached.tolist() == [True, True, True, False]
@@ -312,8 +331,10 @@ def test_od_nodes_match_one_to_all_and_lengths_follow_least_cost_path():
 def test_route_geometry_on_grid_hand_computed():
     # 3 x 4 grid, 100 m spacing.  From (50, 20) [edge 0-1, 20 m off] to (260, 180) [edge 10-11, 20 m off]:
     # 20 walk + 50 to node 1 + 300 on the grid + 60 along edge 10-11 + 20 walk = 450 m.
+    # (max_access_m 25 m keeps only those two edges: on length_m a longer walk to another edge
+    # would otherwise be a legitimate, cheaper entry.)
     net = grid(3, 4, spacing=100.0)
-    att = attach_points(net, [[50, 20], [260, 180]], "length_m")
+    att = attach_points(net, [[50, 20], [260, 180]], "length_m", max_access_m=25.0)
     r = shortest_path(net, att.subset([0]), att.subset([1]), "length_m")
     assert r.cost == pytest.approx(450.0) and r.length_m == pytest.approx(450.0) and r.access_m == pytest.approx(40.0)
     assert r.geometry.length == pytest.approx(450.0)
@@ -335,3 +356,16 @@ def test_od_mixed_nodes_and_points_agree_with_shortest_path():
             assert a.cost[i, j] == pytest.approx(r1.cost, rel=RTOL) and b.cost[j, i] == pytest.approx(r2.cost, rel=RTOL)
             if r1.found:
                 assert a.length_m[i, j] == pytest.approx(r1.length_m, rel=RTOL)
+
+
+def test_adding_a_road_near_a_hub_never_makes_trips_dearer():
+    """Regression: with only the nearest entry kept, a new road passing closer to a hub took over
+    its connection and node 0's cost rose from 0.12 to 4.02 min.  Shortest-path costs can only
+    fall when arcs are added (path-relaxation property; Cormen et al. 2009, ch. 24, from memory)."""
+    before = make_network([(0, 1)], [[0, 0], [1000, 0]], minutes=np.array([1.0]))
+    after = make_network([(0, 1), (1, 2)], [[0, 0], [1000, 0], [0, 12]], minutes=np.array([1.0, 1.0]))
+    hub = [[0, 10]]
+    c0, _ = nearest_hub(before, attach_points(before, hub, "minutes"), "minutes", "to-hub")
+    c1, _ = nearest_hub(after, attach_points(after, hub, "minutes"), "minutes", "to-hub")
+    assert c0[0] == pytest.approx(10 / 5000 * 60)
+    assert np.all(c1[:2] <= c0 + 1e-12)

@@ -234,3 +234,23 @@ def test_compare_writes_only_the_comparison(ran, tmp_path):
     s = json.loads((out / "summary.json").read_text())
     assert list(s["scenarios"]) == ["far_link"]
     one_line_error(["compare", p, "--scenario", "nope", "-o", tmp_path / "x"], "nope")
+
+
+def test_closure_change_layer_has_nothing_faster(tmp_path):
+    """Regression: edges merged by a closure were matched by midpoint with another stretch of road
+    and shown up to a minute faster; closing roads can never make a trip faster."""
+    import geopandas as gpd
+
+    p = write_study(tmp_path, extra='\n[scenarios.shut]\nclose = [{ layer = "roads", fids = [1, 2] }]\n'
+                                     'upgrade = [{ layer = "roads", fids = [1], speed_kmh = 50 }]\n'
+                                     '\n[scenarios.detour]\nclose = [{ layer = "roads", fids = [5, 9] }]\n', proposal=False)
+    code, _, err = cli("run", p, "-o", tmp_path / "o", "--quiet")
+    assert code == 0, err
+    ch = gpd.read_file(tmp_path / "o" / "results.gpkg", layer="shut_edge_change")
+    d = ch["delta_minutes"].dropna().to_numpy()
+    assert len(d) > 0 and (d >= -1e-9).all()
+    import pyogrio
+
+    if "detour_edge_change" in pyogrio.list_layers(tmp_path / "o" / "results.gpkg")[:, 0]:
+        d2 = gpd.read_file(tmp_path / "o" / "results.gpkg", layer="detour_edge_change")["delta_minutes"].dropna()
+        assert (d2.to_numpy() >= -1e-9).all()

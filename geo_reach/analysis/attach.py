@@ -1,7 +1,7 @@
 """Join points that lie off the network (hubs, origins, destinations) to it.
 
-A point joins the network at its *entry*: the nearest place, within
-``max_access_m``, where a trip may enter or leave the network.  Places are
+A point joins the network through the cheapest of its *entries*: every place
+within ``max_access_m`` where a trip may enter or leave the network.  Places are
 
 * every ``road`` edge routable on the weight, at the point of the edge nearest
   to the point (the edge's cost is split in proportion to the position along
@@ -11,11 +11,16 @@ A point joins the network at its *entry*: the nearest place, within
   touching a routable edge of another mode, at the node itself;
 * never a ``transfer`` edge, and never a rail or cable edge between stations.
 
-The cheapest entry is the nearest one for every weight (the access leg cost
-grows with its length, or is zero for all of them), so only the nearest
-places are kept as *legs* (several when tied, e.g. all edges meeting at a
-junction).  Farther places are not offered: otherwise a trip could cut
-across country on foot from one edge to another within ``max_access_m``.
+For ``minutes`` and ``length_m`` (where walking costs something) every such
+place is kept as a *leg*, and the search picks the cheapest trip over all of
+them (walk + network): a hub 20 m from a slow track and 200 m
+from a fast road may well be reached by the road.  Keeping all of them makes
+costs monotone: adding a road never makes a trip dearer.  Legs are directed
+(a trip only leaves an origin and only arrives at a destination or hub), so
+no trip can cut across country from one edge to another through a point.
+For ``hops`` and ``latency_ms`` the access leg is free, so "cheapest" would
+let a point jump to any edge within reach: there only the nearest places are
+kept (several when tied, e.g. all edges meeting at a junction).
 
 The access leg (point to the place on the network, straight line, planar
 distance in the working CRS) is costed as follows, per weight:
@@ -303,7 +308,7 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
         near = np.full(p, np.inf)
         near[qi] = dmin
         ok = near <= max_access_m
-        qi, ti = places["tree"].query(pts[ok], predicate="dwithin", distance=near[ok] + TIE_M)
+        qi, ti = places["tree"].query(pts[ok], predicate="dwithin", distance=max_access_m + TIE_M)
         qi = np.nonzero(ok)[0][qi].astype(np.int64)
         edges = places["along"][ti]
         walk = shapely.distance(pts[qi], network.edge_geometry[edges])
@@ -315,9 +320,11 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
 
     # --- nearest entry node of another mode
     if p and places["kd"] is not None:
-        nwalk, k = places["kd"].query(xy)
-        npt = np.arange(p, dtype=np.int64)
+        found = places["kd"].query_ball_point(xy, max_access_m + TIE_M)
+        npt = np.repeat(np.arange(p, dtype=np.int64), [len(f) for f in found])
+        k = np.concatenate([np.asarray(f, dtype=np.int64) for f in found]) if len(npt) else np.zeros(0, np.int64)
         nnode = places["nodes"][k].astype(np.int64)
+        nwalk = np.hypot(*(xy[npt] - places["kd"].data[k]).T) if len(npt) else np.zeros(0)
     else:
         npt = nnode = np.zeros(0, np.int64)
         nwalk = np.zeros(0)
@@ -328,12 +335,17 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
     leg_frac = np.concatenate([frac, np.zeros(len(npt))])
     leg_walk = np.concatenate([walk, nwalk]).astype(np.float64)
 
-    # --- keep the nearest entries (ties kept) within max_access_m
+    # --- keep every entry within max_access_m; access_m is the nearest one's distance
     access = np.full(p, np.inf)
     np.minimum.at(access, leg_point, leg_walk)
     if p and places["tree"] is not None:
         access = np.minimum(access, near)  # real distance also for points beyond max_access_m
-    keep = (leg_walk <= access[leg_point] + TIE_M) & (leg_walk <= max_access_m)
+    if p and places["kd"] is not None:
+        nd, _ = places["kd"].query(xy)
+        access = np.minimum(access, nd)
+    keep = leg_walk <= max_access_m
+    if not np.any(walk_cost(np.array([1.0]), weight, walk_kmh) > 0):
+        keep &= leg_walk <= access[leg_point] + TIE_M   # free walking: the nearest entries only
     order = np.argsort(leg_point[keep], kind="stable")
     leg_point, leg_edge, leg_node, leg_frac, leg_walk = (a[keep][order] for a in
                                                          (leg_point, leg_edge, leg_node, leg_frac, leg_walk))

@@ -58,7 +58,7 @@ def latency_from_length(length_m):
     return np.asarray(length_m, dtype=float) / FIBRE_SIGNAL_SPEED_M_PER_MS
 
 
-_FORWARD = {"yes", "true", "1", "y", "t", "forward", "fwd", "f"}
+_FORWARD = {"yes", "true", "1", "y", "t", "forward", "fwd"}
 _REVERSE = {"-1", "reverse", "rev", "backward", "r"}
 
 
@@ -68,8 +68,8 @@ def parse_oneway(values) -> np.ndarray:
     ``yes``/``true``/``1`` mean forward, ``-1``/``reverse`` mean against the
     digitised direction; anything else (``no``, empty, null) means both ways.
 
-    >>> parse_oneway(["yes", "no", None, -1, 1.0, "TRUE"]).tolist()
-    [1, 0, 0, -1, 1, 1]
+    >>> parse_oneway(["yes", "no", None, -1, 1.0, "TRUE", "f", "t"]).tolist()
+    [1, 0, 0, -1, 1, 1, 0, 1]
     """
     out = np.zeros(len(values), dtype=np.int8)
     for i, v in enumerate(values):
