@@ -295,12 +295,6 @@ def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, thres
     cell_km2 = grid.cell_area_km2
     rows = []
 
-    def stats(mask):
-        m = minutes[mask]
-        m = m[np.isfinite(m)]
-        return (float(pop[mask].sum()) if pop is not None else np.nan,
-                float(m.mean()) if m.size else np.nan)
-
     # -- beyond the threshold: 8-connected components of far or unreachable cells
     with np.errstate(invalid="ignore"):
         far = ~(minutes <= threshold_minutes)
@@ -332,40 +326,57 @@ def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, thres
                 "entry_minutes": pts.minutes[j] if j >= 0 else np.nan, "edge_id": None,
                 "geometry": polys[k]})
 
+    def per_label(lab, n_lab):
+        """Cell count, people, and finite-minute sum and count per label 0..n_lab (0 = none)."""
+        flat = lab.ravel()
+        cnt = np.bincount(flat, minlength=n_lab + 1)
+        ppl = np.bincount(flat, weights=pop.ravel(), minlength=n_lab + 1) if pop is not None else None
+        fin = np.isfinite(minutes).ravel()
+        msum = np.bincount(flat[fin], weights=minutes.ravel()[fin], minlength=n_lab + 1)
+        mcnt = np.bincount(flat[fin], minlength=n_lab + 1)
+        return cnt, ppl, msum, mcnt
+
     # -- one link from every hub
     sides = bridge_sides(network, hub_nodes)
     if sides.bridge_edge.size:
-        g = np.where(entry_node >= 0, sides.group[np.maximum(entry_node, 0)], -1)
-        polys = _polygons_by_value((g + 1).astype(np.int32), g >= 0, grid.transform)
+        g1 = np.where(entry_node >= 0, sides.group[np.maximum(entry_node, 0)] + 1, 0).astype(np.int32)
+        polys = _polygons_by_value(g1, g1 > 0, grid.transform)
+        cnt, ppl, msum, mcnt = per_label(g1, sides.bridge_edge.size)
         for k1 in sorted(polys):
-            k = k1 - 1
-            p, mm = stats(g == k)
-            node = sides.hub_side_node[k]
+            node = sides.hub_side_node[k1 - 1]
             rows.append({
-                "reason": "single_link", "population": p, "area_km2": (g == k).sum() * cell_km2,
-                "mean_minutes": mm, "entry_x": network.node_x[node], "entry_y": network.node_y[node],
+                "reason": "single_link", "population": float(ppl[k1]) if ppl is not None else np.nan,
+                "area_km2": cnt[k1] * cell_km2, "mean_minutes": msum[k1] / mcnt[k1] if mcnt[k1] else np.nan,
+                "entry_x": network.node_x[node], "entry_y": network.node_y[node],
                 "entry_minutes": node_cost[node] if np.isfinite(node_cost[node]) else np.nan,
-                "edge_id": int(sides.bridge_edge[k]), "geometry": polys[k1]})
+                "edge_id": int(sides.bridge_edge[k1 - 1]), "geometry": polys[k1]})
 
-    # -- parts of the network with no hub
+    # -- parts of the network with no hub (where buffers of two parts overlap, a cell counts for the later)
     if sides.no_hub_component.any():
         e = travel_edges(network)
         comp = _components(network.n_nodes, network.edge_from[e], network.edge_to[e])
         geoms = np.asarray(network.edge_geometry, dtype=object)[e]
         ecomp = comp[network.edge_from[e]]
         bad = np.unique(comp[sides.no_hub_component])
-        for c in bad:
-            sel = ecomp == c
-            poly = shapely.union_all(shapely.buffer(geoms[sel], grid.cell_m))
-            poly = poly if poly.geom_type == "MultiPolygon" else shapely.MultiPolygon([poly])
-            mask = rasterize([(poly, 1)], out_shape=grid.shape, transform=grid.transform, fill=0,
-                             dtype="uint8").astype(bool)
-            p, mm = stats(mask)
-            nodes = np.nonzero(comp == c)[0]
+        buffers = shapely.buffer(geoms, grid.cell_m)
+        eorder = np.argsort(ecomp, kind="stable")
+        elo, ehi = np.searchsorted(ecomp[eorder], bad), np.searchsorted(ecomp[eorder], bad, side="right")
+        norder = np.argsort(comp, kind="stable")
+        nlo, nhi = np.searchsorted(comp[norder], bad), np.searchsorted(comp[norder], bad, side="right")
+        polys = []
+        for i in range(len(bad)):
+            poly = shapely.union_all(buffers[eorder[elo[i]:ehi[i]]])
+            polys.append(poly if poly.geom_type == "MultiPolygon" else shapely.MultiPolygon([poly]))
+        lab = rasterize(((p, i + 1) for i, p in enumerate(polys)), out_shape=grid.shape,
+                        transform=grid.transform, fill=0, dtype="int32")
+        cnt, ppl, msum, mcnt = per_label(lab, len(polys))
+        for i, poly in enumerate(polys):
+            nodes = norder[nlo[i]:nhi[i]]
             rp = poly.representative_point()
             j = nodes[np.argmin(np.hypot(network.node_x[nodes] - rp.x, network.node_y[nodes] - rp.y))]
             rows.append({
-                "reason": "no_hub", "population": p, "area_km2": poly.area / 1e6, "mean_minutes": mm,
+                "reason": "no_hub", "population": float(ppl[i + 1]) if ppl is not None else np.nan,
+                "area_km2": poly.area / 1e6, "mean_minutes": msum[i + 1] / mcnt[i + 1] if mcnt[i + 1] else np.nan,
                 "entry_x": network.node_x[j], "entry_y": network.node_y[j], "entry_minutes": np.nan,
                 "edge_id": None, "geometry": poly})
 
