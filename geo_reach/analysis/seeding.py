@@ -32,7 +32,7 @@ import numpy as np
 
 from ..errors import InputError, OptionError
 
-__all__ = ["EntryPoints", "Seeds", "entry_points", "seed_raster", "cable_access_nodes",
+__all__ = ["EntryPoints", "Seeds", "entry_points", "seed_raster", "rail_stations", "cable_access_nodes",
            "cable_connection_m", "sample_lines"]
 
 
