@@ -822,6 +822,7 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
         d, k = tree.query(np.column_stack([snet.node_x, snet.node_y]))
         before_node = np.where(d < 1e-3, base.node_cost[k], np.nan)
         before = np.fmin(before_node[snet.edge_from], before_node[snet.edge_to])
+        before[np.isin(snet.edge_src_layer, kinds.get("added_layers", []))] = np.nan   # a new line had no "before"
         ch = se[["edge_id", "mode", "length_m", "src_layer", "src_fid", "hub_minutes", "geometry"]].copy()
         ch["minutes_before"] = before
         ch["delta_minutes"] = ch["hub_minutes"] - before

@@ -267,7 +267,7 @@ def test_pipeline_added_road_never_slower_and_closure_never_faster(kit_run):
         # merges edges, which are then not comparable: see the note on compare() in the report).
         e = gpd.read_file(out / "results.gpkg", layer=f"{name}_edge_change")
         keys = [shapely.normalize(g).wkb for g in e.geometry]
-        same = np.array([k in base_key for k in keys])
+        same = np.array([k in base_key for k in keys], dtype=bool)
         after = e["minutes_after"].to_numpy()[same]
         before = np.array([base_key[k] for k, s_ in zip(keys, same) if s_])
         assert (sign * (after - before) >= -1e-6).all(), (name, after - before)
