@@ -118,7 +118,11 @@ def sample_lines(geoms, spacing_m: float):
     has = ends > starts
     length = np.zeros(n)
     length[has] = cum[ends[has] - 1] - cum[starts[has]]
-    k = np.where(has, np.ceil(length / spacing_m).astype(np.int64), -1)
+    # The count depends on the line alone: its own length (not a running total over all lines,
+    # whose rounding would make a 700 m line get 15 samples after some lines and 14 after others),
+    # with a tolerance so an exact multiple of the spacing does not gain a sample.
+    length = np.where(has, shapely.length(geoms), 0.0)
+    k = np.where(has, np.ceil(length / spacing_m - 1e-9).astype(np.int64), -1)
     k = np.where(has & (k < 1), 1, k)
     counts = np.where(has, k + 1, 0)
     line = np.repeat(np.arange(n, dtype=np.int64), counts)
