@@ -29,6 +29,25 @@ from .study import Study
 __all__ = ["Analysis", "analyse", "run_study", "holds_results", "layer_specs"]
 
 
+def check_outdir(outdir: Path, overwrite: bool):
+    """Refuse, before any work, an output folder that cannot be written or already holds results."""
+    import os
+
+    outdir = Path(outdir)
+    if outdir.exists() and not outdir.is_dir():
+        raise InputError(f"file '{outdir}': is a file, not a folder; choose another output folder")
+    anc = outdir
+    while not anc.exists():
+        anc = anc.parent
+    if not anc.is_dir():
+        raise InputError(f"file '{outdir}': '{anc}' is a file, so the folder cannot be made there; "
+                         "choose another output folder")
+    if not os.access(anc, os.W_OK | os.X_OK):
+        raise InputError(f"file '{outdir}': '{anc}' is not writable; choose another output folder")
+    if holds_results(outdir) and not overwrite:
+        raise InputError(f"file '{outdir}': the folder already holds results; pass --overwrite to replace them")
+
+
 def holds_results(folder) -> bool:
     """A folder holds results when it contains ``summary.json`` or ``results.gpkg``."""
     folder = Path(folder)
@@ -609,6 +628,11 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     gpkg = folder / "results.gpkg"
     write_layers(gpkg, layers)
     write_styles(gpkg, layers)
+    # the tables planners paste into reports
+    if base.settlements is not None:
+        base.settlements.drop(columns="geometry").to_csv(folder / "settlements.csv", index=False)
+    if base.zones is not None:
+        base.zones.zones.drop(columns="geometry", errors="ignore").to_csv(folder / "zones.csv", index=False)
     if base.surface is not None:
         g = base.grid
         write_cog(folder / "minutes.tif", base.surface.minutes.astype(np.float32), g.transform, g.crs, np.nan)
@@ -871,10 +895,7 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
     from .export.atomic import atomic_dir
 
     outdir = Path(outdir)
-    if outdir.exists() and not outdir.is_dir():
-        raise InputError(f"file '{outdir}': is a file, not a folder; choose another output folder")
-    if holds_results(outdir) and not overwrite:
-        raise InputError(f"file '{outdir}': the folder already holds results; pass --overwrite to replace them")
+    check_outdir(outdir, overwrite)
     names = list(study.scenarios) if scenarios is None else list(scenarios)
     for n in names:
         if n not in study.scenarios:
@@ -963,10 +984,7 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=True) -> dict
     from .export.styles import write_styles
 
     outdir = Path(outdir)
-    if outdir.exists() and not outdir.is_dir():
-        raise InputError(f"file '{outdir}': is a file, not a folder; choose another output folder")
-    if holds_results(outdir) and not overwrite:
-        raise InputError(f"file '{outdir}': the folder already holds results; pass --overwrite to replace them")
+    check_outdir(outdir, overwrite)
     if study.surface is None or study.hubs is None:
         raise InputError("a surface needs hubs and a [surface] table")
     bar = _Progress(progress, print)
