@@ -580,6 +580,41 @@ def _clean(o):
     return o
 
 
+def _write_surface_rasters(folder: Path, a: Analysis):
+    """``minutes.tif``, ``nearest_hub.tif`` (and per kind), ``connection_m.tif`` for cable layers."""
+    from .export.raster import write_cog
+
+    g = a.grid
+    write_cog(folder / "minutes.tif", a.surface.minutes.astype(np.float32), g.transform, g.crs, np.nan)
+    write_cog(folder / "nearest_hub.tif", a.surface.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
+    for kind, ks in a.kind_surfaces.items():
+        write_cog(folder / f"minutes_{kind}.tif", ks.minutes.astype(np.float32), g.transform, g.crs, np.nan)
+        write_cog(folder / f"nearest_{kind}.tif", ks.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
+    if a.connection_m is not None:
+        write_cog(folder / "connection_m.tif", a.connection_m.astype(np.float32), g.transform, g.crs, np.nan)
+
+
+def _write_deltas(folder: Path, base: Analysis, scenarios: dict):
+    """``delta_minutes_<scenario>.tif``: scenario minus baseline (negative = faster)."""
+    from .export.raster import write_cog
+
+    if base.surface is None:
+        return
+    g = base.grid
+    for name, sc in scenarios.items():
+        if sc.get("delta") is not None:
+            write_cog(folder / f"delta_minutes_{name}.tif", sc["delta"].astype(np.float32), g.transform, g.crs,
+                      np.nan)
+
+
+def _write_tables(folder: Path, a: Analysis):
+    """The tables planners paste into reports: ``settlements.csv`` and ``zones.csv``."""
+    if a.settlements is not None:
+        a.settlements.drop(columns="geometry").to_csv(folder / "settlements.csv", index=False)
+    if a.zones is not None:
+        a.zones.zones.drop(columns="geometry", errors="ignore").to_csv(folder / "zones.csv", index=False)
+
+
 def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, summary: dict,
                   only_comparison: bool = False):
     """Write every output of a run into ``folder`` (a fresh temporary folder).
@@ -588,7 +623,6 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     the change rasters, the map and the summary are written.
     """
     from .export.gpkg import write_layers
-    from .export.raster import write_cog
     from .export.styles import write_styles
 
     if only_comparison:
@@ -600,12 +634,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
         if layers:
             write_layers(gpkg, layers)
             write_styles(gpkg, layers)
-        if base.surface is not None:
-            g = base.grid
-            for name, sc in scenarios.items():
-                if sc.get("delta") is not None:
-                    write_cog(folder / f"delta_minutes_{name}.tif", sc["delta"].astype(np.float32), g.transform,
-                              g.crs, np.nan)
+        _write_deltas(folder, base, scenarios)
         if study.outputs.get("map", True):
             _write_map(folder / "map.html", study, base, scenarios)
         (folder / "summary.json").write_text(json.dumps(_clean(summary), indent=2) + "\n")
@@ -628,24 +657,10 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     gpkg = folder / "results.gpkg"
     write_layers(gpkg, layers)
     write_styles(gpkg, layers)
-    # the tables planners paste into reports
-    if base.settlements is not None:
-        base.settlements.drop(columns="geometry").to_csv(folder / "settlements.csv", index=False)
-    if base.zones is not None:
-        base.zones.zones.drop(columns="geometry", errors="ignore").to_csv(folder / "zones.csv", index=False)
+    _write_tables(folder, base)
     if base.surface is not None:
-        g = base.grid
-        write_cog(folder / "minutes.tif", base.surface.minutes.astype(np.float32), g.transform, g.crs, np.nan)
-        write_cog(folder / "nearest_hub.tif", base.surface.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
-        for kind, ks in base.kind_surfaces.items():
-            write_cog(folder / f"minutes_{kind}.tif", ks.minutes.astype(np.float32), g.transform, g.crs, np.nan)
-            write_cog(folder / f"nearest_{kind}.tif", ks.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
-        if base.connection_m is not None:
-            write_cog(folder / "connection_m.tif", base.connection_m.astype(np.float32), g.transform, g.crs, np.nan)
-        for name, sc in scenarios.items():
-            if sc.get("delta") is not None:
-                write_cog(folder / f"delta_minutes_{name}.tif", sc["delta"].astype(np.float32), g.transform,
-                          g.crs, np.nan)
+        _write_surface_rasters(folder, base)
+        _write_deltas(folder, base, scenarios)
     if base.profile is not None and study.outputs.get("profile_png", True):
         from .analysis.profile import plot_profile
 
@@ -980,7 +995,6 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=True) -> dict
     """
     from .export.atomic import atomic_dir
     from .export.gpkg import write_layers
-    from .export.raster import write_cog
     from .export.styles import write_styles
 
     outdir = Path(outdir)
@@ -1006,14 +1020,7 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=True) -> dict
                "study": study.raw}
     bar("writing outputs")
     with atomic_dir(outdir) as tmp:
-        g = a.grid
-        write_cog(tmp / "minutes.tif", a.surface.minutes.astype(np.float32), g.transform, g.crs, np.nan)
-        write_cog(tmp / "nearest_hub.tif", a.surface.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
-        for kind, ks in a.kind_surfaces.items():
-            write_cog(tmp / f"minutes_{kind}.tif", ks.minutes.astype(np.float32), g.transform, g.crs, np.nan)
-            write_cog(tmp / f"nearest_{kind}.tif", ks.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
-        if a.connection_m is not None:
-            write_cog(tmp / "connection_m.tif", a.connection_m.astype(np.float32), g.transform, g.crs, np.nan)
+        _write_surface_rasters(tmp, a)
         layers = {"reach_bands": a.bands, "weak_regions": a.weak}
         if a.settlements is not None:
             layers["settlements"] = a.settlements
@@ -1021,10 +1028,7 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=True) -> dict
             layers["zones"] = a.zones.zones
         write_layers(tmp / "reach.gpkg", layers)
         write_styles(tmp / "reach.gpkg", layers)
-        if a.settlements is not None:
-            a.settlements.drop(columns="geometry").to_csv(tmp / "settlements.csv", index=False)
-        if a.zones is not None:
-            a.zones.zones.drop(columns="geometry", errors="ignore").to_csv(tmp / "zones.csv", index=False)
+        _write_tables(tmp, a)
         summary["timing"] = {"total_s": round(time.perf_counter() - t0, 3)}
         (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2) + "\n")
     bar.close()

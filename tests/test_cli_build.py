@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import json
-import subprocess
 import sys
+from pathlib import Path
 
 import geopandas as gpd
 import pyogrio
@@ -14,20 +14,8 @@ import shapely
 UTM = "EPSG:32727"
 X0, Y0 = 500_000.0, 6_570_000.0
 
-
-def run(*args):
-    p = subprocess.run([sys.executable, "-m", "geo_reach", *map(str, args)], capture_output=True, text=True)
-    return p.returncode, p.stdout, p.stderr
-
-
-def refused(args, *words):
-    code, out, err = run(*args)
-    assert code == 2, err
-    lines = [ln for ln in err.splitlines() if ln.strip()]
-    assert len(lines) == 1, err
-    for w in words:
-        assert w in lines[0], (w, lines[0])
-    return lines[0]
+sys.path.insert(0, str(Path(__file__).parent))
+from helpers.cli import cli as run, refused  # noqa: E402
 
 
 @pytest.fixture

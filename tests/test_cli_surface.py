@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-import subprocess
 import sys
 from pathlib import Path
 
@@ -14,11 +13,7 @@ from rasterio.transform import from_origin
 
 sys.path.insert(0, str(Path(__file__).parent))
 from studykit import CRS, X0, Y0, write_study  # noqa: E402
-
-
-def cli(*args, cwd=None):
-    p = subprocess.run([sys.executable, "-m", "geo_reach", *map(str, args)], capture_output=True, text=True, cwd=cwd)
-    return p.returncode, p.stdout, p.stderr
+from helpers.cli import cli  # noqa: E402
 
 
 @pytest.fixture(scope="module")

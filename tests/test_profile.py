@@ -20,7 +20,7 @@ import numpy as np
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent))
-from helpers.routing_nets import binary_tree, cycle, grid, make_network, random_network  # noqa: E402
+from helpers.routing_nets import binary_tree, cycle, grid, random_network  # noqa: E402
 
 from geo_reach.analysis.profile import (classify_growth, plot_profile, profile_steps,  # noqa: E402
                                         random_sources, reach_profile, sample_profile)

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-import subprocess
 import sys
 from pathlib import Path
 
@@ -16,21 +15,7 @@ from geo_reach.study import load_study
 
 sys.path.insert(0, str(Path(__file__).parent))
 from studykit import write_study  # noqa: E402
-
-
-def cli(*args):
-    p = subprocess.run([sys.executable, "-m", "geo_reach", *map(str, args)], capture_output=True, text=True)
-    return p.returncode, p.stdout, p.stderr
-
-
-def one_line_error(args, *words):
-    code, out, err = cli(*args)
-    assert code == 2, err
-    lines = [ln for ln in err.splitlines() if ln.strip()]
-    assert len(lines) == 1, err
-    for w in words:
-        assert w in lines[0], (w, lines[0])
-    return lines[0]
+from helpers.cli import cli, refused as one_line_error  # noqa: E402
 
 
 # ----------------------------------------------------------------------------- validation

@@ -58,7 +58,7 @@ TARGET_CELLS = 4_000_000
 _CELL_CHOICES = (100, 200, 250, 500, 1000, 2000, 5000)
 
 # Values that parse_oneway reads as "both ways" without being an error.
-_BOTH_WAYS = {"no", "false", "0", "n", "both", "none", "", "two-way", "twoway", "b"}
+_BOTH_WAYS = {"no", "false", "0", "n", "both", "none", "", "two-way", "twoway", "b", "f"}
 _YES_NO = {"yes", "no", "true", "false", "y", "n", "t", "f"}
 
 
@@ -417,8 +417,6 @@ def line_suggestions(src: Source) -> LineTable:
         oneway_n = int((parsed != 0).sum()) if len(vals) else 0
         if share >= 0.9:
             extra = ""
-            if set(vals.unique()) & {"t", "f"}:
-                extra = "; note 'f' reads as forward (one-way), not false"
             t.entries.append(("oneway_field", _q(c), f"field '{_safe(c)}' looks like a one-way flag: {oneway_n} "
                               f"one-way of {n} features (yes/1 forward, -1 reverse){extra}", True))
         else:

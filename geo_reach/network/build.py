@@ -595,10 +595,12 @@ def _run(layers, options, progress, assemble):
     table = _remove_duplicate_features(table, labels, issues, report)
     step("noding")
     topo = _Topology(table, options, crs, issues, report, labels)
+    topo.step = step
     topo.run(specs, frames)
     net = None
     step("assembling")
     net = topo.assemble(specs)
+    step("done")
     for kind in ISSUE_KINDS:
         report["issues"][kind] = sum(1 for r in issues.rows if r[0] == kind)
     report["nodes"] = net.n_nodes
@@ -1159,7 +1161,9 @@ class _Topology:
         eline = line[a]
         efrom, eto = row_node[a], row_node[b]
         geom = shapely.linestrings(exy, indices=eid)
+        self.step("measuring geodesic lengths")
         length = geodesic_lengths(exy, eid, ne, self.crs)
+        self.step("assembling edges")
         planar = shapely.length(geom)
 
         # Drop degenerate edges (zero length between one node); report self-loops.
