@@ -1000,3 +1000,52 @@ class _Progress:
         if self.bar is not None:
             self.bar.close()
         print(f"[{time.perf_counter() - self.t0:6.1f} s] done", file=self.out, flush=True)
+
+
+def run_surface(study: Study, outdir, *, overwrite=False, progress=True) -> dict:
+    """The ``surface`` command's run: the study's baseline, written as the surface outputs.
+
+    ``OUTDIR/minutes.tif``, ``nearest_hub.tif`` (and per kind), ``reach.gpkg``
+    (``reach_bands``, ``weak_regions``, plus ``settlements``/``zones``) and
+    ``summary.json`` with the population figures at its top level.
+    """
+    from .export.atomic import atomic_dir
+    from .export.gpkg import write_layers
+    from .export.styles import write_styles
+
+    outdir = Path(outdir)
+    check_outdir(outdir, overwrite)
+    if study.surface is None or study.hubs is None:
+        raise InputError("a surface needs hubs and a [surface] table")
+    bar = _Progress(progress, print)
+    t0 = time.perf_counter()
+    specs = layer_specs(study)
+    pre = build_or_read(study, specs)
+    hubs = read_hubs(study, study.hubs, pre.network.crs)
+    bar("reading rasters")
+    rasters = load_rasters(study, pre.network, hubs)
+    a = analyse(study, specs, hubs, progress=bar, rasters=rasters, prebuilt=pre, with_profile=False)
+    base = summarise(study, a)
+    summary = {"tool": "geo-reach", "version": __version__, "caution": CAUTION,
+               "population_total": base.get("population_total"),
+               "population_by_band": base.get("population_by_band"),
+               "population_beyond": base.get("population_beyond"),
+               "population_unreachable": base.get("population_unreachable"),
+               "population_weighted_minutes": base.get("population_weighted_minutes"),
+               **{k: v for k, v in base.items() if not k.startswith("population_")},
+               "study": study.raw}
+    bar("writing outputs")
+    with atomic_dir(outdir) as tmp:
+        _write_surface_rasters(tmp, a)
+        layers = {"reach_bands": a.bands, "weak_regions": a.weak}
+        if a.settlements is not None:
+            layers["settlements"] = a.settlements
+        if a.zones is not None:
+            layers["zones"] = a.zones.zones
+        write_layers(tmp / "reach.gpkg", layers)
+        write_styles(tmp / "reach.gpkg", layers)
+        _write_tables(tmp, a)
+        summary["timing"] = {"total_s": round(time.perf_counter() - t0, 3)}
+        (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2) + "\n")
+    bar.close()
+    return summary
