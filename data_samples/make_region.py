@@ -2,7 +2,7 @@
 """Generate the invented demo region of geo-reach (seeded and deterministic).
 
 The region, its towns, villages, roads and names are all made up.  It is
-placed over open ocean in the South Atlantic (around 21.0 W, 31.0 S, UTM
+placed over open ocean (around 21.0 W, 31.0 S, UTM
 zone 27S, EPSG:32727) so that real coordinates and a real projected CRS are
 exercised while nothing real lies underneath.
 

@@ -46,6 +46,10 @@ def check_outdir(outdir: Path, overwrite: bool):
         raise InputError(f"file '{outdir}': '{anc}' is not writable; choose another output folder")
     if holds_results(outdir) and not overwrite:
         raise InputError(f"file '{outdir}': the folder already holds results; pass --overwrite to replace them")
+    if outdir.is_dir() and not holds_results(outdir) and any(outdir.iterdir()):
+        # The whole folder is replaced at the end of a run: never one holding other files.
+        raise InputError(f"file '{outdir}': the folder is not empty and holds no geo-reach results; "
+                         "choose a new or empty folder")
 
 
 def holds_results(folder) -> bool:
@@ -413,8 +417,10 @@ def _surface(study, out, net, hubs, step, grid, rasters):
     if routing["weight"] != "minutes":
         out.notes.append("the travel-time surface uses minutes whatever routing.weight says")
     step("travel-time surface")
-    node_cost = out.node_cost if routing["weight"] == "minutes" else _minutes_costs(study, net, hubs)[0]
-    node_hub = out.node_hub
+    # the surface is in minutes: with another routing weight, its node costs and hubs come from a
+    # minutes routing of its own (never minutes from one routing and hubs from another)
+    node_cost, node_hub = ((out.node_cost, out.node_hub) if routing["weight"] == "minutes"
+                           else _minutes_costs(study, net, hubs))
     surf = compute_surface(net, node_cost, node_hub, grid, **kw)
     out.surface = surf
     pop = rasters.get("population")
@@ -443,8 +449,25 @@ def _surface(study, out, net, hubs, step, grid, rasters):
         else:
             out.zones = zone_table(surf.minutes, pop, grid, zones, bands_txt, zone_field=z.get("id_field"))
     if study.settlements is not None:
+        import shapely
+
+        from .analysis.attach import attach_points
+        from .analysis.routing import nearest_hub_route_m
+
         st = read_settlements(study, net.crs)
         sp = sample_points(surf.minutes, surf.nearest_hub, grid, st, hub_ids=hub_ids)
+        sp = sp.rename(columns={"hub_id": "nearest_hub"})   # as in the nodes layer
+        # network km: along the least-cost route from the node where the settlement's trip joins
+        # the network (the surface's entry node at its cell) to its nearest hub
+        att = attach_points(net, hubs.xy, "minutes", max_access_m=float(routing["max_access_m"]),
+                            walk_kmh=float(routing["walk_kmh"]))
+        route_m = nearest_hub_route_m(net, att, "minutes", routing["direction"])
+        xy = shapely.get_coordinates(st.geometry.values)
+        r, c = grid.index(xy[:, 0], xy[:, 1])
+        inside = (r >= 0) & (r < grid.height) & (c >= 0) & (c < grid.width)
+        entry = np.full(len(st), -1, np.int64)
+        entry[inside] = surf.entry_node[r[inside], c[inside]]
+        sp["network_km"] = np.where(entry >= 0, route_m[np.maximum(entry, 0)] / 1000.0, np.nan)
         for kind, ks in out.kind_surfaces.items():
             kp = sample_points(ks.minutes, ks.nearest_hub, grid, st, hub_ids=hub_ids)
             sp[f"nearest_{kind}"] = kp["hub_id"].to_numpy()
@@ -632,7 +655,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
                 layers[f"{name}_{lname}"] = frame
         gpkg = folder / "comparison.gpkg"
         if layers:
-            write_layers(gpkg, layers)
+            write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
             write_styles(gpkg, layers)
         _write_deltas(folder, base, scenarios)
         if study.outputs.get("map", True):
@@ -655,7 +678,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
         for lname, frame in sc["layers"].items():
             layers[f"{name}_{lname}"] = frame
     gpkg = folder / "results.gpkg"
-    write_layers(gpkg, layers)
+    write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
     write_styles(gpkg, layers)
     _write_tables(folder, base)
     if base.surface is not None:
@@ -758,6 +781,12 @@ def scenario_inputs(study: Study, name: str, base_specs, base_hubs: Hubs | None)
             s.source = frame
             s.name = lab
     added = layer_specs(study, sc.get("add_lines", []))
+    taken = set(labels)
+    for s in added:
+        lab = s.name or parse_layer_ref(s.source).label
+        if lab in taken:   # a proposal named like an existing layer: keep its features apart
+            s.name = f"{lab}_{name}"
+        taken.add(s.name or lab)
     for s in added:
         changes.append(f"added line layer {s.name or parse_layer_ref(s.source).label}")
     specs = specs + added
@@ -866,8 +895,11 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
         ch["minutes_before"] = before
         ch["delta_minutes"] = ch["hub_minutes"] - before
         ch = ch.rename(columns={"hub_minutes": "minutes_after"})
-        # Only what changed: new edges and edges whose minutes moved by more than a second.
-        moved = ~(np.abs(ch["delta_minutes"].to_numpy()) < 1 / 60)
+        # Only what changed: new edges, edges that gained or lost a route, and edges whose minutes
+        # moved by more than a second.
+        b_, a_ = ch["minutes_before"].to_numpy(), ch["minutes_after"].to_numpy()
+        new = np.isin(ch["src_layer"].to_numpy(), kinds.get("added_layers", []))
+        moved = new | (np.isnan(b_) != np.isnan(a_)) | (np.abs(a_ - b_) >= 1 / 60)
         ch = ch[moved]
         out["layers"]["edge_change"] = gpd.GeoDataFrame(ch, geometry="geometry", crs=se.crs)
     out["kinds"] = kinds
@@ -1042,7 +1074,7 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=True) -> dict
             layers["settlements"] = a.settlements
         if a.zones is not None:
             layers["zones"] = a.zones.zones
-        write_layers(tmp / "reach.gpkg", layers)
+        write_layers(tmp / "reach.gpkg", layers, descriptions={k: CAUTION for k in layers})
         write_styles(tmp / "reach.gpkg", layers)
         _write_tables(tmp, a)
         summary["timing"] = {"total_s": round(time.perf_counter() - t0, 3)}

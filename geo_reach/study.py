@@ -243,6 +243,31 @@ def _check(node, schema, dotted, errors, base, loc):
     return fail("unsupported value")
 
 
+#: Keys whose numbers must be positive (> 0) or not negative (>= 0), wherever they appear.
+_POSITIVE = {"speed_kmh", "cell_m", "walk_kmh", "weak_minutes", "speed_factor"}
+_NOT_NEGATIVE = {"snap_m", "dangle_m", "access_snap_m", "boarding_minutes", "margin_m", "max_access_m"}
+
+
+def _check_ranges(node, dotted, errors, loc):
+    """Numbers out of range (a zero speed would make every trip infinite), with the dotted key."""
+    if isinstance(node, dict):
+        for k, v in node.items():
+            sub = f"{dotted}.{k}" if dotted else k
+            if isinstance(v, (int, float)) and not isinstance(v, bool):
+                bad = (k in _POSITIVE and not v > 0) or (k in _NOT_NEGATIVE and not v >= 0) or \
+                      (dotted.endswith("class_speeds") and not v > 0) or (k == "samples" and v < 2)
+                if bad:
+                    line = loc.line_of(sub) if loc else None
+                    need = "at least 2" if k == "samples" else \
+                        ("zero or more" if k in _NOT_NEGATIVE else "a positive number")
+                    errors.append(f"{sub}{f' (line {line})' if line else ''}: {v} must be {need}")
+                    return
+            _check_ranges(v, sub, errors, loc)
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            _check_ranges(v, f"{dotted}[{i}]", errors, loc)
+
+
 def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str | None = None) -> Study:
     """Validate ``raw`` (a parsed study) and return a :class:`Study`.
 
@@ -255,6 +280,8 @@ def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str |
     errors: list[str] = []
     loc = _Locator(text) if text is not None else None
     _check(raw, SCHEMA, "", errors, base, loc)
+    if not errors:
+        _check_ranges(raw, "", errors, loc)
     where_ = f"file '{path}': " if path else ""
     if errors:
         raise InputError(f"{where_}{errors[0]}")

@@ -369,3 +369,29 @@ def test_adding_a_road_near_a_hub_never_makes_trips_dearer():
     c1, _ = nearest_hub(after, attach_points(after, hub, "minutes"), "minutes", "to-hub")
     assert c0[0] == pytest.approx(10 / 5000 * 60)
     assert np.all(c1[:2] <= c0 + 1e-12)
+
+
+@settings(max_examples=25, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), direction=st.sampled_from(["to-hub", "from-hub"]))
+def test_route_lengths_to_the_nearest_hub_match_traced_paths(seed, direction):
+    """Reference: networkx's least-cost path cost to the hub the search chose, and the length of
+    the one-to-one route to it (random real-valued costs: no ties between routes)."""
+    from geo_reach.analysis.routing import nearest_hub_route_m
+
+    rng = np.random.default_rng(seed)
+    net = random_network(rng, 14, 30, p_oneway=0.3, zero_prob=0.0)
+    hubs = [0, 7]
+    cost, hub = nearest_hub(net, hubs, "minutes", direction)
+    got = nearest_hub_route_m(net, hubs, "minutes", direction)
+    g = to_networkx(net, "minutes")
+    for v in range(net.n_nodes):
+        if hub[v] < 0:
+            assert np.isnan(got[v])
+            continue
+        h = hubs[hub[v]]
+        a, b = (v, h) if direction == "to-hub" else (h, v)
+        path = nx.dijkstra_path(g, a, b, weight="w")
+        assert nx.path_weight(g, path, "w") == pytest.approx(cost[v], rel=1e-9, abs=1e-9)
+        r = shortest_path(net, a, b, "minutes")
+        assert r.cost == pytest.approx(cost[v], rel=1e-9, abs=1e-9)
+        assert got[v] == pytest.approx(r.length_m, rel=1e-6, abs=1e-6)

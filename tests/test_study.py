@@ -239,3 +239,29 @@ def test_closure_change_layer_has_nothing_faster(tmp_path):
     if "detour_edge_change" in pyogrio.list_layers(tmp_path / "o" / "results.gpkg")[:, 0]:
         d2 = gpd.read_file(tmp_path / "o" / "results.gpkg", layer="detour_edge_change")["delta_minutes"].dropna()
         assert (d2.to_numpy() >= -1e-9).all()
+
+
+@pytest.mark.parametrize("extra, key", [
+    ("\n[routing]\nwalk_kmh = 0\n", "routing.walk_kmh"),
+    ("\n[network]\nsnap_m = -1\n", "network.snap_m"),
+])
+def test_out_of_range_numbers_name_the_key(tmp_path, extra, key):
+    p = write_study(tmp_path, proposal=False)
+    text = p.read_text().replace("[network]\nsnap_m = 1.0\n", "") if key.startswith("network") else p.read_text()
+    p.write_text(text + extra)
+    with pytest.raises(InputError, match=key.replace(".", r"\.")):
+        load_study(p)
+
+
+def test_a_zero_speed_in_a_line_table_is_refused(tmp_path):
+    p = write_study(tmp_path, proposal=False)
+    p.write_text(p.read_text().replace('speed_field = "speed"', 'speed_kmh = 0', 1))
+    with pytest.raises(InputError, match=r"lines\[0\]\.speed_kmh.*positive"):
+        load_study(p)
+
+
+def test_a_folder_with_other_files_is_never_replaced(tmp_path):
+    p = write_study(tmp_path, proposal=False)
+    before = sorted(f.name for f in tmp_path.iterdir())
+    one_line_error(["run", p, "-o", tmp_path, "--overwrite"], "not empty")
+    assert sorted(f.name for f in tmp_path.iterdir()) == before

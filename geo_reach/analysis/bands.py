@@ -222,9 +222,13 @@ def population_stats(minutes, population, thresholds) -> PopulationStats:
     total = float(pop.sum())
     reach = np.isfinite(minutes)
     by = {}
+    # cumulative, ring by ring, so nested bands can never shrink by a rounding of the sum
+    acc, prev = 0.0, -np.inf
     for key, t in keys:
         with np.errstate(invalid="ignore"):
-            by[key] = float(pop[minutes <= t].sum())
+            acc += float(pop[(minutes > prev) & (minutes <= t)].sum())
+        by[key] = acc
+        prev = t
     within_max = by[keys[-1][0]]
     reach_pop = float(pop[reach].sum())
     weighted = float((pop[reach] * minutes[reach]).sum() / reach_pop) if reach_pop > 0 else float("nan")

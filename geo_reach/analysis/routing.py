@@ -47,7 +47,7 @@ from .attach import Attachment, attach_points
 
 __all__ = [
     "DIRECTIONS", "NearestHub", "Route", "ODMatrix",
-    "one_to_all", "nearest_hub", "shortest_path", "od_matrix", "excluded_edges",
+    "one_to_all", "nearest_hub", "nearest_hub_route_m", "shortest_path", "od_matrix", "excluded_edges",
     "attach_points", "Attachment", "check_nodes",
 ]
 
@@ -532,6 +532,38 @@ class ODMatrix:
 
     cost: np.ndarray
     length_m: np.ndarray
+
+
+def nearest_hub_route_m(network: Network, hubs, weight: str = "minutes", direction: str = "to-hub") -> np.ndarray:
+    """Length in metres of each node's least-cost route to (or from) its nearest hub.
+
+    Parameters
+    ----------
+    network : Network
+    hubs : array_like of int, or Attachment
+        As in :func:`nearest_hub`.
+    weight, direction
+        As in :func:`nearest_hub`: the route is the one that search finds.
+
+    Returns
+    -------
+    ndarray of float64, shape (n_nodes,)
+        Metres along the route: network edges, the partial edge at an
+        off-network hub's entry and that hub's short access leg; NaN where no
+        hub is reachable.
+
+    Notes
+    -----
+    One multi-source search with predecessors, then the lengths along the
+    search tree by pointer jumping (no per-node path tracing).
+    """
+    reverse = _check_direction(direction)
+    role = "arrive" if reverse else "leave"
+    g, rows = _sources_graph(network, hubs, weight, reverse, role)
+    dist, pred, _ = _search(g, np.unique(rows), min_only=True, predecessors=True)
+    att = hubs if isinstance(hubs, Attachment) else None
+    lengths = _tree_lengths(g, network, pred[None, :], att)[0][: network.n_nodes]
+    return np.where(np.isfinite(dist[: network.n_nodes]), lengths, np.nan)
 
 
 def _tree_lengths(g: _Graph, network: Network, pred: np.ndarray, att: Attachment | None) -> np.ndarray:

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import re
 import sys
 
 from ..errors import GeoReachError, InputError
@@ -36,9 +37,28 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+#: Options whose value may start with a minus sign (coordinates west or south of 0).
+_SIGNED = ("--from", "--to", "--extent")
+_NUMBERS = re.compile(r"^-\d|^-\.\d")
+
+
+def _join_signed(argv):
+    """``--from -21.0,-31.0`` -> ``--from=-21.0,-31.0`` (argparse would read the value as an option)."""
+    out = []
+    it = iter(range(len(argv)))
+    for i in it:
+        a = argv[i]
+        if a in _SIGNED and i + 1 < len(argv) and _NUMBERS.match(argv[i + 1]):
+            out.append(f"{a}={argv[i + 1]}")
+            next(it, None)
+        else:
+            out.append(a)
+    return out
+
+
 def main(argv=None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_join_signed(list(sys.argv[1:] if argv is None else argv)))
     try:
         return int(args.func(args) or 0)
     except InputError as err:

@@ -146,23 +146,27 @@ class BuildResult:
 
 
 # ---------------------------------------------------------------------- CRS
+#: Largest scale error of a given working CRS at the data's centre: tolerances are metres on the
+#: ground, so a CRS whose metres differ from ground metres by more than this is refused.
+MAX_SCALE_ERROR = 0.01
+
+
 def working_crs(frames, crs=None) -> CRS:
     """The metric working CRS: ``crs`` if given, else the UTM zone of the data's centre.
+
+    A given CRS must be projected in metres with a scale error under 1 % at
+    the data's centre (Web Mercator, say, stretches metres by 1/cos(latitude)
+    and is refused away from the equator), because every tolerance is metres
+    on the ground.
 
     Raises
     ------
     CRSError
-        ``crs`` is not a projected CRS in metres.
+        ``crs`` is not a projected CRS in metres, or distorts distances too much here.
     """
-    if crs is not None:
-        out = CRS.from_user_input(crs)
-        if not out.is_projected or out.axis_info[0].unit_name not in ("metre", "meter"):
-            raise CRSError(f"--crs {crs}: the working CRS must be projected in metres (a UTM zone, say)")
-        return out
+    from pyproj import Proj
     from pyproj.aoi import AreaOfInterest
     from pyproj.database import query_utm_crs_info
-
-    from pyproj import Transformer as _T
 
     boxes = []
     for f in frames:
@@ -170,11 +174,22 @@ def working_crs(frames, crs=None) -> CRS:
         g = g[~(g.isna() | g.is_empty)]
         if len(g):
             tb = g.total_bounds
-            tr = _T.from_crs(CRS.from_user_input(f.crs), 4326, always_xy=True)
+            tr = Transformer.from_crs(CRS.from_user_input(f.crs), 4326, always_xy=True)
             boxes.append(tr.transform_bounds(*tb, densify_pts=21))
     b = np.array(boxes)
     lon = (b[:, 0].min() + b[:, 2].max()) / 2
     lat = (b[:, 1].min() + b[:, 3].max()) / 2
+    if crs is not None:
+        out = CRS.from_user_input(crs)
+        if not out.is_projected or out.axis_info[0].unit_name not in ("metre", "meter"):
+            raise CRSError(f"--crs {crs}: the working CRS must be projected in metres (a UTM zone, say)")
+        f = Proj(out).get_factors(lon, lat)
+        k = max(abs(f.meridional_scale - 1), abs(f.parallel_scale - 1))
+        if not np.isfinite(k) or k > MAX_SCALE_ERROR:
+            raise CRSError(f"--crs {crs}: distances in it differ from the ground by {k:.1%} at the data "
+                           f"({lon:.2f}, {lat:.2f}); tolerances are metres on the ground, so leave --crs out "
+                           "(the UTM zone is used) or give a local projected CRS")
+        return out
     info = query_utm_crs_info(datum_name="WGS 84",
                               area_of_interest=AreaOfInterest(lon, lat, lon, lat))
     info = [i for i in info if i.code.startswith("326") or i.code.startswith("327")] or info
@@ -246,6 +261,14 @@ def _read_specs(specs):
     for i, spec in enumerate(specs):
         if spec.mode not in MODES:
             raise OptionError(f"layer {i + 1}: mode '{spec.mode}' is unknown; choose one of {', '.join(MODES)}")
+        if spec.speed_kmh is not None and not (np.isfinite(spec.speed_kmh) and spec.speed_kmh > 0):
+            raise OptionError(f"layer {i + 1}: --speed-kmh {spec.speed_kmh:g} must be a positive speed in km/h "
+                              "(to close features, leave them out)")
+        if not (np.isfinite(spec.boarding_minutes) and spec.boarding_minutes >= 0):
+            raise OptionError(f"layer {i + 1}: --boarding-minutes {spec.boarding_minutes:g} must be zero or more")
+        for cls, v in (spec.class_speeds or {}).items():
+            if not (np.isfinite(float(v)) and float(v) > 0):
+                raise OptionError(f"layer {i + 1}: class speed {cls}={v} must be a positive speed in km/h")
         if isinstance(spec.source, (str, LayerRef)) or hasattr(spec.source, "__fspath__"):
             ref = parse_layer_ref(spec.source)
             gdf = read_layer(ref, "lines", assume_crs=spec.assume_crs)
@@ -276,6 +299,12 @@ def _prepare(specs, frames, crs, issues, report):
         fids = gdf.index.to_numpy()
         geoms = np.asarray(gdf.geometry.values, dtype=object)
         n = len(gdf)
+        src_crs = CRS.from_user_input(gdf.crs)
+        tr = None if src_crs.equals(crs) else Transformer.from_crs(src_crs, crs, always_xy=True)
+
+        def work_xy(c):
+            """A source-CRS point in the working CRS (issue points are placed there)."""
+            return (float(c[0]), float(c[1])) if tr is None else tr.transform(float(c[0]), float(c[1]))
         report["input_features"] += n
         keep = np.ones(n, dtype=bool)
         null = np.array([g is None for g in geoms]) | shapely.is_missing(geoms)
@@ -325,16 +354,16 @@ def _prepare(specs, frames, crs, issues, report):
             kind = shapely.get_type_id(geoms[i])
             reason = f"not a line ({shapely.GeometryType(kind).name.title().replace('string', 'String')})"
             dropped.append({"src_layer": label, "src_fid": int(fids[i]), "reason": reason})
-            c = shapely.get_coordinates(shapely.point_on_surface(geoms[i]))
-            issues.add("dropped_feature", c[0, 0], c[0, 1], reason, label, fids[i])
+            x, y = work_xy(shapely.get_coordinates(shapely.point_on_surface(geoms[i]))[0])
+            issues.add("dropped_feature", x, y, reason, label, fids[i])
         idx = idx[~nonline]
         g = geoms[idx]
         multi = shapely.get_num_geometries(g)
         is_multi = (multi > 1) & (shapely.get_type_id(g) != 1)
         report["multipart_features"] += int(is_multi.sum())
         for k in np.nonzero(is_multi)[0]:
-            c = shapely.get_coordinates(shapely.point_on_surface(g[k]))[0]
-            issues.add("geometry_repaired", c[0], c[1], f"multi-part line split into {multi[k]} lines",
+            x, y = work_xy(shapely.get_coordinates(shapely.point_on_surface(g[k]))[0])
+            issues.add("geometry_repaired", x, y, f"multi-part line split into {multi[k]} lines",
                        label, fids[idx[k]])
         part, owner = shapely.get_parts(g, return_index=True)
         owner = idx[owner]
@@ -358,9 +387,7 @@ def _prepare(specs, frames, crs, issues, report):
             part, owner = part[good], owner[good]
 
         # Reproject.
-        src_crs = CRS.from_user_input(gdf.crs)
-        if not src_crs.equals(crs):
-            tr = Transformer.from_crs(src_crs, crs, always_xy=True)
+        if tr is not None:
             part = shapely.transform(part, lambda xy: np.column_stack(tr.transform(xy[:, 0], xy[:, 1])))
         # Input length (geodesic) of every part that has geometry, before any repair.
         coords, cidx = shapely.get_coordinates(part, return_index=True)
@@ -571,6 +598,7 @@ def _empty_report():
         "dropped_features": [], "default_speeds_used": [], "speed_defaulted_features": 0,
         "multipart_features": 0, "z_m_dropped_features": 0,
         "crs": None, "snap_m": None, "dangle_m": None,
+        "caution": None,
     }
 
 
@@ -585,6 +613,9 @@ def _run(layers, options, progress, assemble):
     frames = _read_specs(specs)
     labels = [lab for _, lab, _ in frames]
     crs = working_crs([f for f, _, _ in frames], options.crs)
+    from .. import CAUTION
+
+    report["caution"] = CAUTION
     report["crs"] = crs.to_string()
     report["snap_m"] = options.snap_m
     report["dangle_m"] = options.dangle_m
@@ -917,7 +948,6 @@ class _Topology:
             moved_place = np.nonzero(target_place != np.arange(npl))[0]
             if len(moved_place):
                 moves_p = np.hypot(*(pxy[moved_place] - pxy[target_place[moved_place]]).T)
-                self.report["joined_gap_length_m"] += float((moves_p * pcount[moved_place]).sum())
                 span = np.zeros(npl)
                 np.maximum.at(span, target_place[moved_place], moves_p)
                 worst = np.full(npl, -1, np.int64)
@@ -973,14 +1003,22 @@ class _Topology:
                     move = float(np.hypot(*(exy[e] - target)))
                     self.end_target[e] = target
                     self.t_snapped[e] = True
-                    self.report["joined_gap_length_m"] += move
                     if move >= NOISE_M:
                         labl, fid = self._line_label(eline[e])
                         self.issues.add("gap_joined", target[0], target[1],
                                         f"line end {move:.2f} m from another line joined onto it (T-junction)", labl, fid)
-        # apply end moves
-        moved = np.any(self.end_target != exy, axis=1)
-        self.xy[erow[moved]] = self.end_target[moved]
+        # apply end moves, and measure what they change: a gap joined adds length, an end pulled back
+        # from an overshoot removes some (signed, geodesic, over each moved end's terminal segment)
+        moved = np.nonzero(np.any(self.end_target != exy, axis=1))[0]
+        if len(moved):
+            adj = np.where(moved < nl, self.first[eline[moved]] + 1, self.last[eline[moved]] - 1)
+            two = np.repeat(np.arange(len(moved)), 2)
+            old = geodesic_lengths(np.stack([exy[moved], self.xy[adj]], axis=1).reshape(-1, 2), two, len(moved),
+                                   self.crs)
+            new = geodesic_lengths(np.stack([self.end_target[moved], self.xy[adj]], axis=1).reshape(-1, 2), two,
+                                   len(moved), self.crs)
+            self.report["joined_gap_length_m"] += float((new - old).sum())
+            self.xy[erow[moved]] = self.end_target[moved]
 
     # ----------------------------------------------------------------
     def _attach_access(self, specs, frames):

@@ -16,7 +16,7 @@ def write_layers_atomic(path, layers: dict, overwrite: bool = False):
     except ImportError:  # exporter not installed yet in this checkout
         write_layers = None
     if write_layers is not None:
-        return write_layers(path, layers, overwrite=overwrite)
+        return write_layers(path, layers, overwrite=overwrite, descriptions=_descriptions(layers))
     import pyogrio
 
     from ..export.atomic import atomic_path, check_output
@@ -34,3 +34,9 @@ def write_network(path, result, overwrite: bool = False, extra_layers: dict | No
               "network_issues": result.issues}
     layers.update(extra_layers or {})
     return write_layers_atomic(path, layers, overwrite=overwrite)
+
+
+def _descriptions(layers):
+    from .. import CAUTION
+
+    return {k: CAUTION for k in layers}
