@@ -107,7 +107,9 @@ def build_or_read(study: Study, specs):
 def build_options(study: Study) -> BuildOptions:
     n = study.network
     return BuildOptions(crs=n.get("crs"), snap_m=float(n.get("snap_m", 1.0)), dangle_m=n.get("dangle_m"),
-                        access_snap_m=float(n.get("access_snap_m", 100.0)))
+                        access_snap_m=float(n.get("access_snap_m", 100.0)),
+                        transfer_max_m=float(n.get("transfer_max_m", 1000.0)),
+                        transfer_walk_kmh=float(n.get("transfer_walk_kmh", 5.0)))
 
 
 @dataclass
@@ -421,7 +423,12 @@ def _surface(study, out, net, hubs, step, grid, rasters):
     # minutes routing of its own (never minutes from one routing and hubs from another)
     node_cost, node_hub = ((out.node_cost, out.node_hub) if routing["weight"] == "minutes"
                            else _minutes_costs(study, net, hubs))
-    surf = compute_surface(net, node_cost, node_hub, grid, **kw)
+    try:
+        surf = compute_surface(net, node_cost, node_hub, grid, **kw)
+    except InputError as err:
+        if "landcover" in s and not str(err).startswith("file "):
+            raise InputError(f"file '{study.resolve(s['landcover'])}': {err}") from err
+        raise
     out.surface = surf
     pop = rasters.get("population")
     out.population = pop
@@ -609,10 +616,10 @@ def _write_surface_rasters(folder: Path, a: Analysis):
 
     g = a.grid
     write_cog(folder / "minutes.tif", a.surface.minutes.astype(np.float32), g.transform, g.crs, np.nan)
-    write_cog(folder / "nearest_hub.tif", a.surface.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
+    write_cog(folder / "nearest_hub.tif", a.surface.nearest_hub.astype(np.int32), g.transform, g.crs, 0)
     for kind, ks in a.kind_surfaces.items():
         write_cog(folder / f"minutes_{kind}.tif", ks.minutes.astype(np.float32), g.transform, g.crs, np.nan)
-        write_cog(folder / f"nearest_{kind}.tif", ks.nearest_hub.astype(np.int32), g.transform, g.crs, -1)
+        write_cog(folder / f"nearest_{kind}.tif", ks.nearest_hub.astype(np.int32), g.transform, g.crs, 0)
     if a.connection_m is not None:
         write_cog(folder / "connection_m.tif", a.connection_m.astype(np.float32), g.transform, g.crs, np.nan)
 
@@ -813,8 +820,11 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
 
     out = {"description": study.scenarios[name].get("description", ""), "changes": changes, "layers": {}}
     bm, sm = base.metrics, scen.metrics
-    out["diameter_change"] = (sm["diameter"]["value"] or 0) - (bm["diameter"]["value"] or 0)
-    out["mean_path_change"] = (sm["mean_path"]["value"] or 0) - (bm["mean_path"]["value"] or 0)
+    def change(a, b):
+        return None if a is None or b is None or not np.isfinite(a) or not np.isfinite(b) else a - b
+
+    out["diameter_change"] = change(sm["diameter"]["value"], bm["diameter"]["value"])
+    out["mean_path_change"] = change(sm["mean_path"]["value"], bm["mean_path"]["value"])
     # km of new or upgraded line: added layers' length plus upgraded features' length
     bnet, snet = base.build.network, scen.build.network
     new_km = 0.0
@@ -922,7 +932,10 @@ def rank_scenarios(results: dict, largest_band: str) -> list[dict]:
                      "person_minutes_saved": pm, "person_minutes_saved_per_km": per_km,
                      "ranked_by": "person-minutes per km of new or upgraded line" if km > 0 else
                      "person-minutes alone (no new or upgraded line)"})
+    # Per-km and raw person-minutes are different units: line scenarios are ordered among themselves
+    # by person-minutes per km, then closures and hub-only changes by person-minutes.
     rows.sort(key=lambda r: (-r["people_newly_within_largest_band"],
+                             r["person_minutes_saved_per_km"] is None,
                              -(r["person_minutes_saved_per_km"] if r["person_minutes_saved_per_km"] is not None
                                else r["person_minutes_saved"])))
     for i, r in enumerate(rows, 1):
@@ -956,7 +969,12 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
     pre = build_or_read(study, specs)
     crs = pre.network.crs
     hubs = read_hubs(study, study.hubs, crs) if study.hubs else None
-    planned = {n: scenario_inputs(study, n, specs, hubs) for n in names}
+    try:
+        planned = {n: scenario_inputs(study, n, specs, hubs) for n in names}
+    except InputError as err:
+        if study.path is not None and not str(err).startswith("file "):
+            raise InputError(f"file '{study.path}': {err}") from err
+        raise
     bar("network built")
     rasters = None
     if study.surface is not None and hubs is not None:

@@ -57,7 +57,8 @@ _POINTS_TABLE = {"path": _FILE, "layer": str, "id_field": str, "kind_field": str
                  "assume_crs": str}
 SCHEMA: dict = {
     "title": str,
-    "network": {"crs": str, "snap_m": float, "dangle_m": float, "access_snap_m": float, "prebuilt": _FILE},
+    "network": {"crs": str, "snap_m": float, "dangle_m": float, "access_snap_m": float, "prebuilt": _FILE,
+                "transfer_max_m": float, "transfer_walk_kmh": float},
     "lines": [_LINE_TABLE],
     "hubs": _POINTS_TABLE,
     "routing": {"weight": ("choice", ("minutes", "length_m", "latency_ms", "hops")),
@@ -244,8 +245,9 @@ def _check(node, schema, dotted, errors, base, loc):
 
 
 #: Keys whose numbers must be positive (> 0) or not negative (>= 0), wherever they appear.
-_POSITIVE = {"speed_kmh", "cell_m", "walk_kmh", "weak_minutes", "speed_factor"}
-_NOT_NEGATIVE = {"snap_m", "dangle_m", "access_snap_m", "boarding_minutes", "margin_m", "max_access_m"}
+_POSITIVE = {"speed_kmh", "cell_m", "walk_kmh", "weak_minutes", "speed_factor", "transfer_walk_kmh"}
+_NOT_NEGATIVE = {"snap_m", "dangle_m", "access_snap_m", "boarding_minutes", "margin_m", "max_access_m",
+                 "transfer_max_m"}
 
 
 def _check_ranges(node, dotted, errors, loc):

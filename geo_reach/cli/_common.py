@@ -29,6 +29,10 @@ def add_layer_options(p):
     t.add_argument("--dangle-m", type=float, help="report dead ends shorter than this (default 10 x --snap-m)")
     t.add_argument("--access-snap-m", type=float, default=100.0,
                    help="stations/access nodes farther than this from their line are reported, not attached (default 100)")
+    t.add_argument("--transfer-max-m", type=float, default=1000.0,
+                   help="longest walk between a station and the nearest road (default 1000)")
+    t.add_argument("--transfer-walk-kmh", type=float, default=5.0,
+                   help="walking speed on that link, km/h (default 5, common practice)")
 
 
 def parse_class_speeds(text):
@@ -60,7 +64,8 @@ def specs_from_args(args):
 def options_from_args(args):
     from ..network.build import BuildOptions
 
-    return BuildOptions(crs=args.crs, snap_m=args.snap_m, dangle_m=args.dangle_m, access_snap_m=args.access_snap_m)
+    return BuildOptions(crs=args.crs, snap_m=args.snap_m, dangle_m=args.dangle_m, access_snap_m=args.access_snap_m,
+                        transfer_max_m=args.transfer_max_m, transfer_walk_kmh=args.transfer_walk_kmh)
 
 
 def emit_json(obj, path=None, stdout=False):

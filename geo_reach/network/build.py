@@ -126,6 +126,7 @@ class BuildOptions:
     dangle_m: float | None = None
     access_snap_m: float = 100.0
     transfer_max_m: float = 1000.0
+    transfer_walk_kmh: float = 5.0
 
     def __post_init__(self):
         if not (self.snap_m >= 0 and np.isfinite(self.snap_m)):
@@ -134,6 +135,8 @@ class BuildOptions:
             self.dangle_m = 10.0 * self.snap_m
         if self.dangle_m < 0:
             raise OptionError(f"--dangle-m {self.dangle_m}: must be zero or more metres")
+        if not (self.transfer_walk_kmh > 0 and self.transfer_max_m >= 0 and self.access_snap_m >= 0):
+            raise OptionError("transfer walking speed must be positive, transfer and access distances zero or more")
 
 
 @dataclass
@@ -319,6 +322,11 @@ def _prepare(specs, frames, crs, issues, report):
         if hasattr(shapely, "has_m"):
             zm[keep] |= shapely.has_m(geoms[keep])
         report["z_m_dropped_features"] += int(zm.sum())
+        if zm.any():   # a layer-wide fact: one spot, at the first such feature
+            k = int(np.nonzero(zm)[0][0])
+            x, y = work_xy(shapely.get_coordinates(shapely.point_on_surface(geoms[k]))[0])
+            issues.add("geometry_repaired", x, y, f"Z/M coordinates dropped from {int(zm.sum())} feature(s) of "
+                       "this layer (the network is 2-D)", label, fids[k])
         geoms = geoms.copy()
         geoms[keep] = shapely.force_2d(geoms[keep])
 
@@ -1293,7 +1301,7 @@ class _Topology:
             g = shapely.linestrings([[node_x[road], node_y[road]], [node_x[rail], node_y[rail]]])
             c = shapely.get_coordinates(g)
             ln = geodesic_lengths(c, np.zeros(len(c), np.int64), 1, self.crs)[0]
-            walk = minutes_from_length(ln, 5.0)
+            walk = minutes_from_length(ln, self.o.transfer_walk_kmh)
             tf_from += [road, rail]; tf_to += [rail, road]
             tf_geom += [g, shapely.reverse(g)]
             tf_len += [ln, ln]
