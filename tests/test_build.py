@@ -301,3 +301,20 @@ def test_length_balance_on_real_streets_and_a_faulty_layer():
         balance = (rep["input_length_m"] - rep["removed_duplicate_length_m"] - rep["dropped_length_m"]
                    - rep["trimmed_length_m"] + rep["joined_gap_length_m"])
         assert rep["network_length_m"] == pytest.approx(balance, rel=1e-4)
+
+
+def test_repair_points_of_a_wgs84_layer_land_in_the_working_crs(tmp_path):
+    """Regression: points for dropped non-lines and split multi-parts were taken before reprojection
+    and landed near the UTM false origin."""
+    lonlat = gpd.GeoDataFrame(geometry=[
+        shapely.MultiLineString([[(-21.0, -31.0), (-20.99, -31.0)], [(-20.99, -31.0), (-20.99, -30.99)]]),
+        shapely.box(-21.0, -31.0, -20.999, -30.999),
+        shapely.LineString([(-21.0, -31.0), (-21.0, -30.99)]),
+    ], crs=4326)
+    path = tmp_path / "mixed.geojson"
+    lonlat.to_file(path)
+    r = build_network([LayerSpec(str(path))])
+    assert set(r.issues["kind"]) >= {"dropped_feature", "geometry_repaired"}
+    here = lonlat.to_crs(r.network.crs).union_all().envelope.buffer(100)
+    assert r.issues.geometry.within(here).all()
+    assert r.report["dropped_feature"] == r.report["issues"]["dropped_feature"] == 1

@@ -100,3 +100,18 @@ def test_grid_beyond_memory_is_refused_up_front(built, tmp_path):
     code, out, err = cli("surface", d / "built.gpkg", "--hubs", d / "hubs.geojson", "-o", tmp_path / "o",
                          "--cell-m", "0.05", "--quiet")
     _one_line(code, err, "--cell-m")
+
+
+def test_route_takes_negative_coordinates(built):
+    """Regression: ``--from -21.0,-31.0`` was read as an option (the region lies west and south of 0)."""
+    from pyproj import Transformer
+
+    t = Transformer.from_crs(CRS, 4326, always_xy=True)
+    a = t.transform(X0 + 20, Y0 + 20)
+    b = t.transform(X0 + 2980, Y0 + 2980)
+    assert a[0] < 0 and a[1] < 0
+    code, out, err = cli("route", built / "built.gpkg", "--from", f"{a[0]},{a[1]}", "--to", f"{b[0]},{b[1]}")
+    assert code == 0, err
+    f = json.loads(out)
+    # 6 km of 30 km/h grid streets (12 min, a little more on the ground) plus two 20 m walks
+    assert 12.0 < f["properties"]["cost"] < 12.0 * 1.001 + 2 * 20 / 5000 * 60 + 1e-6

@@ -642,6 +642,7 @@ def _run(layers, options, progress, assemble):
     step("done")
     for kind in ISSUE_KINDS:
         report["issues"][kind] = sum(1 for r in issues.rows if r[0] == kind)
+        report[kind] = report["issues"][kind]   # also at the top level, one key per kind
     report["nodes"] = net.n_nodes
     report["edges"] = net.n_edges
     report["components"] = net.n_components
