@@ -707,8 +707,12 @@ def _write_map(path, study, base, scenarios):
     if "hub_minutes" not in edges:
         edges["hub_minutes"] = np.nan
     issues = base.build.issues
+    weak = base.weak
+    if weak is not None and base.population is not None and (weak["population"] > 0).any():
+        # the map shows the regions where people live; the GeoPackage layer keeps them all
+        weak = weak[weak["population"] > 0]
     kw = dict(hubs=base.hub_table, bands=base.bands[base.bands["hub_id"].isna()] if base.bands is not None else None,
-              weak=base.weak, diameter=base.diameter_path if len(base.diameter_path) else None,
+              weak=weak, diameter=base.diameter_path if len(base.diameter_path) else None,
               issues=issues.rename(columns={"kind": "issue"}) if len(issues) else None,
               basemap=bool(study.outputs.get("basemap", False)), title=f"geo-reach: {study.title}")
     if scenarios:
