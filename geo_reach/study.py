@@ -203,8 +203,9 @@ def _check(node, schema, dotted, errors, base, loc):
         if kind == "file":
             if not isinstance(node, str):
                 return fail("must be a file path (string)")
-            path_part = node
-            q = Path(path_part)
+            if base is None:   # a study built in memory by a command: files are checked as they are read
+                return None
+            q = Path(node)
             q = q if q.is_absolute() else base / q
             if not q.exists():
                 return fail(f"file '{node}' not found (paths are relative to the study file)")
@@ -270,8 +271,13 @@ def _check_ranges(node, dotted, errors, loc):
             _check_ranges(v, f"{dotted}[{i}]", errors, loc)
 
 
-def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str | None = None) -> Study:
+def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str | None = None,
+                    check_files: bool = True) -> Study:
     """Validate ``raw`` (a parsed study) and return a :class:`Study`.
+
+    Commands build their study in memory with ``check_files=False``: the files
+    are then checked as they are read, with messages naming the file as the
+    user typed it.
 
     Raises
     ------
@@ -281,7 +287,7 @@ def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str |
     """
     errors: list[str] = []
     loc = _Locator(text) if text is not None else None
-    _check(raw, SCHEMA, "", errors, base, loc)
+    _check(raw, SCHEMA, "", errors, base if check_files else None, loc)
     if not errors:
         _check_ranges(raw, "", errors, loc)
     where_ = f"file '{path}': " if path else ""

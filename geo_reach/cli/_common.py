@@ -5,7 +5,7 @@ from __future__ import annotations
 import json
 import sys
 
-__all__ = ["add_layer_options", "specs_from_args", "options_from_args", "emit_json", "parse_class_speeds"]
+__all__ = ["add_layer_options", "study_from_layer_args", "emit_json", "parse_class_speeds"]
 
 
 def add_layer_options(p):
@@ -50,22 +50,39 @@ def parse_class_speeds(text):
     return out
 
 
-def specs_from_args(args):
-    from ..network.build import LayerSpec
+def study_from_layer_args(args):
+    """The study a ``build`` or ``check`` command line stands for (one code path with ``run``)."""
+    from pathlib import Path
 
-    return [LayerSpec(source=layer, mode=args.mode, speed_field=args.speed_field, class_field=args.class_field,
-                      class_speeds=args.class_speeds, speed_kmh=args.speed_kmh, oneway_field=args.oneway_field,
-                      level_field=args.level_field, all_season_field=args.all_season_field,
-                      access_points=args.stations, boarding_minutes=args.boarding_minutes,
-                      assume_crs=args.assume_crs)
-            for layer in args.layers]
+    from ..ingest.layers import parse_layer_ref
+    from ..study import study_from_dict
 
-
-def options_from_args(args):
-    from ..network.build import BuildOptions
-
-    return BuildOptions(crs=args.crs, snap_m=args.snap_m, dangle_m=args.dangle_m, access_snap_m=args.access_snap_m,
-                        transfer_max_m=args.transfer_max_m, transfer_walk_kmh=args.transfer_walk_kmh)
+    lines = []
+    for layer in args.layers:
+        ref = parse_layer_ref(layer)
+        t = {"path": str(ref.path), "mode": args.mode, "boarding_minutes": float(args.boarding_minutes)}
+        if ref.layer:
+            t["layer"] = ref.layer
+        for k in ("speed_field", "class_field", "oneway_field", "level_field", "all_season_field", "assume_crs"):
+            if getattr(args, k) is not None:
+                t[k] = getattr(args, k)
+        if args.speed_kmh is not None:
+            t["speed_kmh"] = float(args.speed_kmh)
+        if args.class_speeds:
+            t["class_speeds"] = dict(args.class_speeds)
+        if args.stations:
+            sref = parse_layer_ref(args.stations)
+            t["stations"] = str(sref.path)
+            if sref.layer:
+                t["stations_layer"] = sref.layer
+        lines.append(t)
+    network = {"snap_m": float(args.snap_m), "access_snap_m": float(args.access_snap_m),
+               "transfer_max_m": float(args.transfer_max_m), "transfer_walk_kmh": float(args.transfer_walk_kmh)}
+    if args.crs:
+        network["crs"] = args.crs
+    if args.dangle_m is not None:
+        network["dangle_m"] = float(args.dangle_m)
+    return study_from_dict({"lines": lines, "network": network}, Path("."), check_files=False)
 
 
 def emit_json(obj, path=None, stdout=False):

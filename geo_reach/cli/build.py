@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from ._common import add_layer_options, emit_json, options_from_args, specs_from_args
+from ._common import add_layer_options, emit_json, study_from_layer_args
 
 
 def register(sub):
@@ -21,13 +21,14 @@ def register(sub):
 
 def run(args):
     from ..export.atomic import check_output
-    from ..network.build import build_network
     from ..network.writer import write_network
+    from ..pipeline import build_or_read, layer_specs
 
     check_output(args.output, args.overwrite)
     if args.report:
         check_output(args.report, True, "report")
-    result = build_network(specs_from_args(args), options_from_args(args))
+    study = study_from_layer_args(args)
+    result = build_or_read(study, layer_specs(study))
     write_network(args.output, result, overwrite=args.overwrite)
     emit_json(result.report, args.report, stdout=args.json)
     if not args.json:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from ._common import add_layer_options, emit_json, options_from_args, specs_from_args
+from ._common import add_layer_options, emit_json, study_from_layer_args
 
 
 def register(sub):
@@ -23,9 +23,11 @@ def run(args):
     from ..export.atomic import check_output
     from ..network.build import check_layers
     from ..network.writer import write_layers_atomic
+    from ..pipeline import build_options, layer_specs
 
     check_output(args.output, args.overwrite)
-    result = check_layers(specs_from_args(args), options_from_args(args))
+    study = study_from_layer_args(args)
+    result = check_layers(layer_specs(study), build_options(study))
     write_layers_atomic(args.output, {"network_issues": result.issues}, overwrite=args.overwrite)
     emit_json(result.report, args.report, stdout=args.json)
     if not args.json:
