@@ -1030,6 +1030,24 @@ class _Topology:
             self.xy[erow[moved]] = self.end_target[moved]
 
     # ----------------------------------------------------------------
+    def _node_on_segment(self, r, ln, P):
+        """Make a node of line ``ln`` at the point of its segment starting at row ``r`` nearest ``P``.
+
+        The segment's own vertex is used when the point is within 1 mm of it; returns the node's xy.
+        """
+        a, b = self.xy[r], self.xy[r + 1]
+        d = b - a
+        tt = float(np.clip(np.dot(P - a, d) / max(np.dot(d, d), 1e-18), 0, 1))
+        Q = a + tt * d
+        if np.hypot(*(Q - a)) < NOISE_M:
+            self.node_row[r] = True
+            return a.copy()
+        if np.hypot(*(Q - b)) < NOISE_M:
+            self.node_row[r + 1] = True
+            return b.copy()
+        self._add_new([ln], [r - self.first[ln] + tt], [Q[0]], [Q[1]])
+        return Q
+
     def _attach_access(self, specs, frames):
         """Snap stations / access nodes onto their lines; plan transfer links for rail stations."""
         self.access = []  # (line, pos, x, y, station_label, fid, layer_index)
@@ -1070,19 +1088,7 @@ class _Topology:
                                 f"from layer {self.labels[li]}; not attached", plabel, pts.index[p])
             for p, k in zip(*near):
                 s = sidx[k]
-                r = seg[s]
-                ln = sl[s]
-                a, b = self.xy[r], self.xy[r + 1]
-                P = shapely.get_coordinates(geoms[p])[0]
-                d = b - a
-                tt = float(np.clip(np.dot(P - a, d) / max(np.dot(d, d), 1e-18), 0, 1))
-                Q = a + tt * d
-                if np.hypot(*(Q - a)) < NOISE_M:
-                    self.node_row[r] = True; Q = a.copy()
-                elif np.hypot(*(Q - b)) < NOISE_M:
-                    self.node_row[r + 1] = True; Q = b.copy()
-                else:
-                    self._add_new([ln], [r - self.first[ln] + tt], [Q[0]], [Q[1]])
+                Q = self._node_on_segment(seg[s], sl[s], shapely.get_coordinates(geoms[p])[0])
                 self.access.append((Q[0], Q[1], li))
                 if spec.mode == "rail":
                     self.transfers.append((Q, li, plabel, pts.index[p], spec.boarding_minutes))
@@ -1104,18 +1110,7 @@ class _Topology:
                                         "reachable only by rail", plabel, fid)
                         continue
                     s = sidx[hit[0]]
-                    r = seg[s]
-                    ln = sl[s]
-                    a, b = self.xy[r], self.xy[r + 1]
-                    d = b - a
-                    tt = float(np.clip(np.dot(Q - a, d) / max(np.dot(d, d), 1e-18), 0, 1))
-                    R = a + tt * d
-                    if np.hypot(*(R - a)) < NOISE_M:
-                        self.node_row[r] = True; R = a.copy()
-                    elif np.hypot(*(R - b)) < NOISE_M:
-                        self.node_row[r + 1] = True; R = b.copy()
-                    else:
-                        self._add_new([ln], [r - self.first[ln] + tt], [R[0]], [R[1]])
+                    R = self._node_on_segment(seg[s], sl[s], Q)
                     self.transfer_plan.append((Q, R, board, li))
             else:
                 for Q, li, plabel, fid, board in self.transfers:
