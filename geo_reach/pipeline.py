@@ -242,26 +242,12 @@ def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profi
         out.hub_table = t
     # ---- metrics
     step("network metrics")
-    cc = M.component_counts(net, w)
-    d = M.diameter(net, w)
-    mp = M.mean_path(net, w, exact=bool(study.metrics["exact"]) or None, samples=int(study.metrics["samples"]),
-                     seed=int(study.metrics["seed"]))
-    if net.n_nodes <= 5000:
-        eff = M.global_efficiency(net, w)
-        ecc, clo = M.node_centrality(net, w)
+    figures, d, ecc, clo = M.network_figures(net, w, exact=bool(study.metrics["exact"]),
+                                             samples=int(study.metrics["samples"]), seed=int(study.metrics["seed"]))
+    if ecc is not None:
         out.node_fields["eccentricity"] = ecc
         out.node_fields["closeness"] = clo
-    else:
-        eff = M.estimate_global_efficiency(net, w, samples=int(study.metrics["samples"]), seed=int(study.metrics["seed"]))
-    out.metrics = {
-        "weight": w, "nodes": net.n_nodes, "edges": net.n_edges, "components": cc.components,
-        "largest_component_nodes": cc.largest_component_nodes,
-        "largest_strong_component_nodes": cc.largest_strong_component_nodes,
-        "diameter": {"value": d.value, "from_node": d.from_node, "to_node": d.to_node, "sssp_runs": d.sssp_runs},
-        "mean_path": {"value": mp.value, "ci95_low": mp.ci95_low, "ci95_high": mp.ci95_high, "exact": mp.exact,
-                      "sources": mp.sources},
-        "global_efficiency": eff,
-    }
+    out.metrics = figures
     out.diameter_path = _path_frame(net, d.path_nodes, w, d.value)
     if with_profile:
         from .analysis.profile import random_sources, sample_profile

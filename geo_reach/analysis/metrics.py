@@ -36,7 +36,8 @@ from .routing import _check_weight, _Graph, _search
 __all__ = [
     "Diameter", "MeanPath", "ComponentCounts",
     "component_counts", "largest_strong_component", "diameter", "mean_path",
-    "global_efficiency", "estimate_global_efficiency", "diameter_brute_force", "eccentricity", "closeness", "node_centrality", "EXACT_MAX_NODES",
+    "global_efficiency", "estimate_global_efficiency", "diameter_brute_force", "eccentricity", "closeness",
+    "node_centrality", "network_figures", "EXACT_MAX_NODES",
 ]
 
 #: Mean path is computed exactly up to this many nodes (the issue's 5,000).
@@ -462,3 +463,63 @@ def estimate_global_efficiency(network: Network, weight: str = "minutes", *, sam
     src = np.sort(np.random.default_rng(seed).choice(n, size=samples, replace=False))
     sums, _ = _harmonic_sums(_matrix(network, weight), src)
     return float(sums.mean() / (n - 1))
+
+
+def network_figures(network: Network, weight: str = "minutes", *, exact: bool = False, samples: int = 200,
+                    seed: int = 0, centrality: bool | None = None):
+    """All the network-wide figures in one call (what ``geo-reach metrics`` and a study run report).
+
+    Parameters
+    ----------
+    network : Network
+    weight : str
+    exact : bool
+        Exact mean path whatever the size (one search per node).
+    samples, seed : int
+        Sources for the sampled mean path and efficiency (Eppstein & Wang 2004).
+    centrality : bool, optional
+        Per-node eccentricity and harmonic closeness (one search per node).
+        Default: when the network has at most :data:`EXACT_MAX_NODES` nodes.
+
+    Returns
+    -------
+    figures : dict
+        ``nodes``, ``edges``, ``components``, ``largest_component_nodes``,
+        ``largest_strong_component_nodes``, ``diameter`` {value, from_node,
+        to_node, sssp_runs}, ``mean_path`` {value, ci95_low, ci95_high, exact,
+        sources}, ``global_efficiency``, ``global_efficiency_exact``, ``weight``.
+    diameter : Diameter
+        With the node path, for the ``diameter_path`` layer.
+    eccentricity, closeness : ndarray or None
+        Per node, when ``centrality``.
+    """
+    if centrality is None:
+        centrality = network.n_nodes <= EXACT_MAX_NODES
+    cc = component_counts(network, weight)
+    dia = diameter(network, weight)
+    mp = mean_path(network, weight, exact=True if exact else None, samples=samples, seed=seed)
+    ecc = clo = None
+    eff_exact = exact or network.n_nodes <= EXACT_MAX_NODES or samples >= network.n_nodes
+    if centrality:
+        ecc, clo = node_centrality(network, weight)
+        # harmonic closeness (per n - 1) averaged over the nodes is the global efficiency
+        eff, eff_exact = (float(clo.mean()) if network.n_nodes > 1 else 0.0), True
+    elif eff_exact:
+        eff = global_efficiency(network, weight)
+    else:
+        eff = estimate_global_efficiency(network, weight, samples=samples, seed=seed)
+    figures = {
+        "nodes": network.n_nodes,
+        "edges": network.n_edges,
+        "components": cc.components,
+        "largest_component_nodes": cc.largest_component_nodes,
+        "largest_strong_component_nodes": cc.largest_strong_component_nodes,
+        "diameter": {"value": dia.value, "from_node": dia.from_node, "to_node": dia.to_node,
+                     "sssp_runs": dia.sssp_runs},
+        "mean_path": {"value": mp.value, "ci95_low": mp.ci95_low, "ci95_high": mp.ci95_high,
+                      "exact": mp.exact, "sources": mp.sources},
+        "global_efficiency": eff,
+        "global_efficiency_exact": bool(eff_exact),
+        "weight": weight,
+    }
+    return figures, dia, ecc, clo

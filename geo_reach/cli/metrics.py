@@ -41,50 +41,27 @@ def run(args):
         check_output(args.output, args.overwrite)
     net = load_network(args.network, args.weight)
     excluded = report_excluded(net, args.weight)
-    cc = M.component_counts(net, args.weight)
-    dia = M.diameter(net, args.weight)
-    mp = M.mean_path(net, args.weight, exact=True if args.exact else None, samples=args.samples, seed=args.seed)
-    ecc = clo = None
-    eff_exact = args.exact or net.n_nodes <= M.EXACT_MAX_NODES or args.samples >= net.n_nodes
-    if args.output:
-        ecc, clo = M.node_centrality(net, args.weight)
-        eff, eff_exact = (float(clo.mean()) if net.n_nodes > 1 else 0.0), True
-    elif eff_exact:
-        eff = M.global_efficiency(net, args.weight)
-    else:
-        eff = M.estimate_global_efficiency(net, args.weight, samples=args.samples, seed=args.seed)
+    out, dia, ecc, clo = M.network_figures(net, args.weight, exact=args.exact, samples=args.samples,
+                                           seed=args.seed, centrality=bool(args.output))
+    eff, eff_exact = out["global_efficiency"], out["global_efficiency_exact"]
+    cc_n, mp = out, out["mean_path"]
     if not np.isfinite(eff):
         note("global efficiency is undefined: some distinct nodes are joined at zero cost on this weight "
              "(written as null)")
-    out = {
-        "nodes": net.n_nodes,
-        "edges": net.n_edges,
-        "components": cc.components,
-        "largest_component_nodes": cc.largest_component_nodes,
-        "largest_strong_component_nodes": cc.largest_strong_component_nodes,
-        "diameter": {"value": dia.value, "from_node": dia.from_node, "to_node": dia.to_node,
-                     "sssp_runs": dia.sssp_runs},
-        "mean_path": {"value": mp.value, "ci95_low": mp.ci95_low, "ci95_high": mp.ci95_high,
-                      "exact": mp.exact, "sources": mp.sources},
-        "global_efficiency": eff,
-        "global_efficiency_exact": bool(eff_exact),
-        "weight": args.weight,
-        "excluded_edges": excluded,
-        "caution": CAUTION,
-    }
+    out.update({"excluded_edges": excluded, "caution": CAUTION})
     if args.output:
         _write(args, net, dia, ecc, clo)
     if args.json:
         sys.stdout.write(dump_json(out) + "\n")
     else:
         u = args.weight
-        print(f"nodes {net.n_nodes}, edges {net.n_edges}, components {cc.components} "
-              f"(largest {cc.largest_component_nodes} nodes; largest strongly connected "
-              f"{cc.largest_strong_component_nodes})")
+        print(f"nodes {net.n_nodes}, edges {net.n_edges}, components {cc_n['components']} "
+              f"(largest {cc_n['largest_component_nodes']} nodes; largest strongly connected "
+              f"{cc_n['largest_strong_component_nodes']})")
         print(f"diameter {dia.value:.6g} {u} from node {dia.from_node} to node {dia.to_node} "
               f"({dia.sssp_runs} single-source runs)")
-        print(f"mean path {mp.value:.6g} {u} " + ("(exact)" if mp.exact else
-              f"(95% CI {mp.ci95_low:.6g}-{mp.ci95_high:.6g}, {mp.sources} sources)"))
+        print(f"mean path {mp['value']:.6g} {u} " + ("(exact)" if mp["exact"] else
+              f"(95% CI {mp['ci95_low']:.6g}-{mp['ci95_high']:.6g}, {mp['sources']} sources)"))
         print(f"global efficiency {eff:.6g} per {u}" + ("" if eff_exact else " (estimated)"))
         print(CAUTION)
     return 0
