@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 from . import CAUTION, __version__
-from .errors import InputError, LayerError, where
+from .errors import InputError, where
 from .network.build import BuildOptions, LayerSpec, build_network
 from .study import Study
 
@@ -86,11 +86,11 @@ def build_or_read(study: Study, specs):
     if not pre:
         return build_network(specs, build_options(study))
     from .ingest.layers import list_layers, read_frame
+    from .ingest.points import load_network
     from .network.build import BuildResult
-    from .network.model import Network
 
     path = study.resolve(pre)
-    net = Network.read(path)
+    net = load_network(path, study.routing.get("weight", "minutes"))
     issues = read_frame(path, "network_issues") if "network_issues" in list_layers(path) else None
     if issues is None:
         import geopandas as gpd
@@ -114,52 +114,39 @@ def build_options(study: Study) -> BuildOptions:
 
 @dataclass
 class Hubs:
-    """Hub points in the working CRS: ids, kinds, names, and the source frame for output."""
+    """Hub points in the working CRS: ids, kinds, names, and the frame written as the ``hubs`` layer."""
 
     xy: np.ndarray
     ids: np.ndarray
     kinds: np.ndarray | None
-    frame: object  # GeoDataFrame in the working CRS, one row per hub
+    frame: object  # GeoDataFrame in the working CRS, one row per hub point
+    notes: list = field(default_factory=list)
 
 
 def read_hubs(study: Study, table: dict, crs) -> Hubs:
-    """Read a hubs table (``[hubs]`` or a scenario's ``add_hubs``)."""
+    """Read a hubs table (``[hubs]`` or a scenario's ``add_hubs``), as every command reads hubs.
+
+    Ids are the ``id_field`` values (duplicates refused) or the row number
+    from 1; a multi-point hub gives one point per part sharing its id.
+    """
+    import geopandas as gpd
     import shapely
 
-    from .ingest.layers import parse_layer_ref, read_layer
+    from .ingest.points import read_points
 
-    ref = parse_layer_ref(_ref(study, table["path"], table.get("layer")))
-    gdf = read_layer(ref, "points", assume_crs=table.get("assume_crs"))
-    gdf = gdf[~(gdf.geometry.isna() | gdf.geometry.is_empty)]
-    if len(gdf) == 0:
-        raise LayerError(f"{where(ref.path, ref.layer)}no hub has a point; give a layer of points")
-    gdf = gdf.to_crs(crs)
-    idf = table.get("id_field")
-    if idf:
-        if idf not in gdf.columns:
-            raise InputError(f"{where(ref.path, ref.layer)}has no field '{idf}' (hubs.id_field)")
-        col = gdf[idf]
-        dup = col[col.duplicated()]
-        if len(dup):
-            raise LayerError(f"{where(ref.path, ref.layer, field=idf)}hub id {dup.iloc[0]!r} is used twice; "
-                             "ids must be unique")
-        ids = col.astype(str).to_numpy(object)
-    else:
-        ids = np.array([str(i) for i in range(1, len(gdf) + 1)], dtype=object)
-    kinds = None
-    kf = table.get("kind_field")
-    if kf:
-        if kf not in gdf.columns:
-            raise InputError(f"{where(ref.path, ref.layer)}has no field '{kf}' (hubs.kind_field)")
-        kinds = gdf[kf].astype(str).str.strip().str.lower().to_numpy(object)
-    pts = shapely.get_coordinates(shapely.centroid(gdf.geometry.values))
-    nf = table.get("name_field") or ("name" if "name" in gdf.columns else None)
-    import geopandas as gpd
-
-    frame = gpd.GeoDataFrame({"hub_id": ids, "kind": kinds if kinds is not None else np.full(len(ids), "hub", object),
-                              "name": gdf[nf].astype(str).to_numpy(object) if nf else ids},
-                             geometry=shapely.points(pts), crs=crs)
-    return Hubs(pts, ids, kinds, frame)
+    pts = read_points(_ref(study, table["path"], table.get("layer")), crs, id_field=table.get("id_field"),
+                      kind_field=table.get("kind_field"), what="hubs", id_option="hubs.id_field",
+                      assume_crs=table.get("assume_crs"))
+    ints = len(pts.ids) and all(isinstance(v, (int, np.integer)) for v in pts.ids)
+    data = {"hub_id": pts.ids.astype(np.int64) if ints else pts.ids}
+    nf = table.get("name_field") or ("name" if "name" in pts.frame.columns else None)
+    if nf:
+        if nf not in pts.frame.columns:
+            raise InputError(f"{pts.label}has no field '{nf}' (hubs.name_field)")
+        data["name"] = pts.frame[nf].astype(str).to_numpy(object)
+    data["kind"] = pts.kinds if pts.kinds is not None else np.full(len(pts.ids), "hub", object)
+    frame = gpd.GeoDataFrame(data, geometry=shapely.points(pts.xy), crs=crs)
+    return Hubs(pts.xy, pts.ids, pts.kinds, frame, list(pts.notes))
 
 
 def merge_hubs(a: Hubs, b: Hubs | None, remove=()) -> Hubs:
@@ -207,12 +194,18 @@ class Analysis:
     notes: list = field(default_factory=list)
 
 
+#: The steps of an analysis; a command may ask for some of them only.
+ALL_STEPS = frozenset({"access", "metrics", "profile", "surface"})
+
+
 def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profile=True,
-            grid=None, rasters=None, prebuilt=None) -> Analysis:
+            grid=None, rasters=None, prebuilt=None, steps=ALL_STEPS) -> Analysis:
     """Compute everything the study describes for these line layers and hubs.
 
     ``prebuilt`` is a :class:`~geo_reach.network.build.BuildResult` of
     ``specs`` already made (the baseline's, built once to learn the CRS).
+    ``steps`` limits the work to some of :data:`ALL_STEPS` (the ``access``
+    command asks for ``{"access"}``: one code path with a study run).
     """
     from .analysis import metrics as M
 
@@ -225,13 +218,13 @@ def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profi
     routing = study.routing
     w = routing["weight"]
     # ---- access
-    if hubs is not None:
+    if hubs is not None and ("access" in steps or "surface" in steps):
         from .analysis.access import hub_access
 
         step("routing to hubs")
         acc = hub_access(net, hubs.xy, hubs.ids, hubs.kinds, w, routing["direction"],
                          max_access_m=float(routing["max_access_m"]), walk_kmh=float(routing["walk_kmh"]))
-        out.notes += acc.notes
+        out.notes += list(hubs.notes) + acc.notes
         out.node_cost, out.node_hub = acc.node_cost, acc.node_hub
         out.kind_costs = acc.kind_costs
         out.node_fields.update(acc.node_fields)
@@ -241,22 +234,24 @@ def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profi
                 t[c] = acc.hubs[c].to_numpy()
         out.hub_table = t
     # ---- metrics
-    step("network metrics")
-    figures, d, ecc, clo = M.network_figures(net, w, exact=bool(study.metrics["exact"]),
-                                             samples=int(study.metrics["samples"]), seed=int(study.metrics["seed"]))
-    if ecc is not None:
-        out.node_fields["eccentricity"] = ecc
-        out.node_fields["closeness"] = clo
-    out.metrics = figures
-    out.diameter_path = _path_frame(net, d.path_nodes, w, d.value)
-    if with_profile:
+    if "metrics" in steps:
+        step("network metrics")
+        figures, d, ecc, clo = M.network_figures(net, w, exact=bool(study.metrics["exact"]),
+                                                 samples=int(study.metrics["samples"]),
+                                                 seed=int(study.metrics["seed"]))
+        if ecc is not None:
+            out.node_fields["eccentricity"] = ecc
+            out.node_fields["closeness"] = clo
+        out.metrics = figures
+        out.diameter_path = _path_frame(net, d.path_nodes, w, d.value)
+    if with_profile and "profile" in steps:
         from .analysis.profile import random_sources, sample_profile
 
         k = int(study.metrics["profile_sources"])
         src = random_sources(net, k, seed=int(study.metrics["seed"]))
         out.profile = sample_profile(net, src, w)
     # ---- surface
-    if study.surface is not None and hubs is not None and out.node_cost is not None:
+    if "surface" in steps and study.surface is not None and hubs is not None and out.node_cost is not None:
         _surface(study, out, net, hubs, step, grid, rasters)
     return out
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ._routing import add_access, add_direction, add_weight, load_network, note, read_points, report_excluded
+from ._routing import add_access, add_direction, add_weight, note, report_excluded
 
 
 def register(sub):
@@ -23,40 +23,61 @@ def register(sub):
     p.set_defaults(func=run)
 
 
+def study_from_args(args):
+    """The study this command stands for: a built network, hubs and routing options."""
+    from pathlib import Path
+
+    from ..ingest.layers import parse_layer_ref
+    from ..study import study_from_dict
+
+    ref = parse_layer_ref(args.hubs)
+    hubs = {"path": str(ref.path)}
+    if ref.layer:
+        hubs["layer"] = ref.layer
+    if args.hub_id_field:
+        hubs["id_field"] = args.hub_id_field
+    if args.hub_kind_field:
+        hubs["kind_field"] = args.hub_kind_field
+    raw = {"network": {"prebuilt": str(args.network)}, "hubs": hubs,
+           "routing": {"weight": args.weight, "direction": args.direction,
+                       "max_access_m": float(args.max_access_m), "walk_kmh": float(args.walk_kmh)}}
+    return study_from_dict(raw, Path("."), check_files=False)
+
+
 def run(args):
     import geopandas as gpd
-    import shapely
 
     from .. import CAUTION
-    from ..analysis.access import hub_access
     from ..errors import LayerError
     from ..export.atomic import check_output
     from ..export.gpkg import write_layers
+    from ..pipeline import analyse, build_or_read, read_hubs
 
     check_output(args.output, args.overwrite)
-    net = load_network(args.network, args.weight)
+    study = study_from_args(args)
+    built = build_or_read(study, [])
+    net = built.network
     report_excluded(net, args.weight)
-    hubs = read_points(args.hubs, net, id_field=args.hub_id_field, kind_field=args.hub_kind_field, what="hubs")
-
+    hubs = read_hubs(study, study.hubs, net.crs)
     try:
-        res = hub_access(net, hubs.xy, hubs.ids, hubs.kinds, args.weight, args.direction,
-                         max_access_m=args.max_access_m, walk_kmh=args.walk_kmh)
+        res = analyse(study, [], hubs, prebuilt=built, steps={"access"})
     except LayerError as err:
-        raise LayerError(f"{hubs.label}{err}") from err
+        raise LayerError(f"file '{study.hubs['path']}': {err}") from err
     for msg in res.notes:
         note(msg)
     nodes = net.nodes_frame()[["node_id", "geometry"]].copy()
     for k, v in res.node_fields.items():
         nodes[k] = v
-    attached = res.hubs["attached"].to_numpy()
-    n_hub = len(hubs.ids)
-    frame = res.hubs
-    hub_layer = gpd.GeoDataFrame(frame, geometry=shapely.points(hubs.xy), crs=net.crs)
+    hub_layer = res.hub_table
+    if hubs.kinds is None:
+        hub_layer = hub_layer.drop(columns="kind")
+    hub_layer = gpd.GeoDataFrame(hub_layer, geometry="geometry", crs=net.crs)
     write_layers(args.output, {"nodes": nodes, "hubs": hub_layer}, overwrite=args.overwrite,
                  descriptions={"nodes": f"nearest hub and {args.weight} ({args.direction}). {CAUTION}",
                                "hubs": f"nodes and network length each hub serves. {CAUTION}"})
+    attached = hub_layer["attached"].to_numpy()
     reached = int(nodes[[c for c in nodes.columns if c.startswith("nearest_")]].notna().any(axis=1).sum())
-    note(f"access: {int(attached.sum())} of {n_hub} hubs joined the network; {reached} of {net.n_nodes} nodes "
-         f"reach a hub -> {args.output}")
+    note(f"access: {int(attached.sum())} of {len(hubs.ids)} hubs joined the network; {reached} of {net.n_nodes} "
+         f"nodes reach a hub -> {args.output}")
     note(CAUTION)
     return 0
