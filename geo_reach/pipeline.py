@@ -238,7 +238,8 @@ def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profi
         step("network metrics")
         figures, d, ecc, clo = M.network_figures(net, w, exact=bool(study.metrics["exact"]),
                                                  samples=int(study.metrics["samples"]),
-                                                 seed=int(study.metrics["seed"]))
+                                                 seed=int(study.metrics["seed"]),
+                                                 centrality=study.metrics.get("node_figures"))
         if ecc is not None:
             out.node_fields["eccentricity"] = ecc
             out.node_fields["closeness"] = clo

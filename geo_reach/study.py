@@ -64,7 +64,7 @@ SCHEMA: dict = {
     "routing": {"weight": ("choice", ("minutes", "length_m", "latency_ms", "hops")),
                 "direction": ("choice", ("to-hub", "from-hub")),
                 "max_access_m": float, "walk_kmh": float},
-    "metrics": {"samples": int, "seed": int, "exact": bool, "profile_sources": int},
+    "metrics": {"samples": int, "seed": int, "exact": bool, "profile_sources": int, "node_figures": bool},
     "surface": {"cell_m": float, "margin_m": float, "extent": ("list", float), "terrain": _FILE,
                 "landcover": _FILE, "landcover_speeds": ("map", float), "barriers": _FILE,
                 "barriers_layer": str, "population": _FILE, "bands": ("list", float),

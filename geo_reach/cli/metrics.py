@@ -6,7 +6,7 @@ import sys
 
 import numpy as np
 
-from ._routing import add_weight, dump_json, load_network, note, report_excluded
+from ._routing import add_weight, dump_json, note, report_excluded
 
 
 def register(sub):
@@ -29,37 +29,51 @@ def register(sub):
     p.set_defaults(func=run)
 
 
+def study_from_args(args):
+    """The study this command stands for: a built network and the metrics options."""
+    from pathlib import Path
+
+    from ..study import study_from_dict
+
+    raw = {"network": {"prebuilt": str(args.network)}, "routing": {"weight": args.weight},
+           "metrics": {"exact": bool(args.exact), "samples": int(args.samples), "seed": int(args.seed),
+                       "node_figures": bool(args.output)}}
+    return study_from_dict(raw, Path("."), check_files=False)
+
+
 def run(args):
     from .. import CAUTION
-    from ..analysis import metrics as M
     from ..errors import OptionError
     from ..export.atomic import check_output
+    from ..pipeline import analyse, build_or_read
 
     if args.samples < 2:
         raise OptionError(f"--samples {args.samples}: give 2 or more sources")
     if args.output:
         check_output(args.output, args.overwrite)
-    net = load_network(args.network, args.weight)
+    study = study_from_args(args)
+    built = build_or_read(study, [])
+    net = built.network
     excluded = report_excluded(net, args.weight)
-    out, dia, ecc, clo = M.network_figures(net, args.weight, exact=args.exact, samples=args.samples,
-                                           seed=args.seed, centrality=bool(args.output))
+    res = analyse(study, [], None, prebuilt=built, steps={"metrics"})
+    out = dict(res.metrics)
     eff, eff_exact = out["global_efficiency"], out["global_efficiency_exact"]
-    cc_n, mp = out, out["mean_path"]
+    mp, dia = out["mean_path"], out["diameter"]
     if not np.isfinite(eff):
         note("global efficiency is undefined: some distinct nodes are joined at zero cost on this weight "
              "(written as null)")
     out.update({"excluded_edges": excluded, "caution": CAUTION})
     if args.output:
-        _write(args, net, dia, ecc, clo)
+        _write(args, net, res)
     if args.json:
         sys.stdout.write(dump_json(out) + "\n")
     else:
         u = args.weight
-        print(f"nodes {net.n_nodes}, edges {net.n_edges}, components {cc_n['components']} "
-              f"(largest {cc_n['largest_component_nodes']} nodes; largest strongly connected "
-              f"{cc_n['largest_strong_component_nodes']})")
-        print(f"diameter {dia.value:.6g} {u} from node {dia.from_node} to node {dia.to_node} "
-              f"({dia.sssp_runs} single-source runs)")
+        print(f"nodes {net.n_nodes}, edges {net.n_edges}, components {out['components']} "
+              f"(largest {out['largest_component_nodes']} nodes; largest strongly connected "
+              f"{out['largest_strong_component_nodes']})")
+        print(f"diameter {dia['value']:.6g} {u} from node {dia['from_node']} to node {dia['to_node']} "
+              f"({dia['sssp_runs']} single-source runs)")
         print(f"mean path {mp['value']:.6g} {u} " + ("(exact)" if mp["exact"] else
               f"(95% CI {mp['ci95_low']:.6g}-{mp['ci95_high']:.6g}, {mp['sources']} sources)"))
         print(f"global efficiency {eff:.6g} per {u}" + ("" if eff_exact else " (estimated)"))
@@ -67,24 +81,17 @@ def run(args):
     return 0
 
 
-def _write(args, net, dia, ecc, clo):
-    import geopandas as gpd
-    import pandas as pd
-
+def _write(args, net, res):
     from .. import CAUTION
-    from ..analysis.routing import shortest_path
     from ..export.gpkg import write_layers
 
     nodes = net.nodes_frame()[["node_id", "geometry"]].copy()
-    nodes["eccentricity"] = ecc
+    nodes["eccentricity"] = res.node_fields["eccentricity"]
+    clo = res.node_fields["closeness"]
     nodes["closeness"] = np.where(np.isfinite(clo), clo, np.nan)
     layers = {"nodes": nodes}
-    if dia.from_node >= 0 and dia.from_node != dia.to_node:
-        r = shortest_path(net, dia.from_node, dia.to_node, args.weight)
-        layers["diameter_path"] = gpd.GeoDataFrame(
-            pd.DataFrame({"from_node": [dia.from_node], "to_node": [dia.to_node], "cost": [r.cost],
-                          "weight": [args.weight], "length_m": [r.length_m], "edges": [len(r.edges)]}),
-            geometry=[r.geometry], crs=net.crs)
+    if res.diameter_path is not None and len(res.diameter_path):
+        layers["diameter_path"] = res.diameter_path
     write_layers(args.output, layers, overwrite=args.overwrite,
                  descriptions={"nodes": f"eccentricity ({args.weight}) and harmonic closeness "
                                         f"(per {args.weight}) of trips from each node. {CAUTION}",
