@@ -1200,6 +1200,11 @@ def write_all(d, tmp: Path):
     put(pd.DataFrame({"proposal_id": [1], "name": [proposal["name"]], "class": ["feeder"],
                       "geometry": [LineString(proposal["coords"])]}), "proposed_road", "LineString")
     sea = d["sea"] if d["sea"].geom_type == "Polygon" else max(d["sea"].geoms, key=lambda g: g.area)
+    # The water layer's sea runs 10 km out past the region's edges (only open water lies there), so
+    # an analysis grid with a margin finds water, not unreachable land, beyond the coast.
+    sb = sea.bounds
+    sea = Polygon(box(sb[0], sb[1] - 10000, sb[2] + 10000, sb[3] + 10000).exterior).difference(d["land"])
+    sea = sea if sea.geom_type == "Polygon" else max(sea.geoms, key=lambda g: g.area)
     put(pd.DataFrame({"kind": ["sea", "lake"], "name": [f"{name()} Sea", f"Lake {name()}"],
                       "geometry": [sea, d["lake"]]}), "water", "Polygon")
 
