@@ -5,7 +5,7 @@ from __future__ import annotations
 import json
 import sys
 
-__all__ = ["add_layer_options", "study_from_layer_args", "emit_json", "parse_class_speeds"]
+__all__ = ["add_layer_options", "add_output_options", "study_from_layer_args", "emit_json", "parse_class_speeds"]
 
 
 def add_layer_options(p):
@@ -33,6 +33,14 @@ def add_layer_options(p):
                    help="longest walk between a station and the nearest road (default 1000)")
     t.add_argument("--transfer-walk-kmh", type=float, default=5.0,
                    help="walking speed on that link, km/h (default 5, common practice)")
+
+
+def add_output_options(p, metavar):
+    """-o/--output, --overwrite, --report and --json, as build and check take them."""
+    p.add_argument("-o", "--output", required=True, metavar=metavar, help="output GeoPackage")
+    p.add_argument("--overwrite", action="store_true", help="replace an existing output")
+    p.add_argument("--report", metavar="FILE.json", help="write the report as JSON")
+    p.add_argument("--json", action="store_true", help="print the report as JSON")
 
 
 def parse_class_speeds(text):

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from ._common import add_layer_options, emit_json, study_from_layer_args
+from ._common import add_layer_options, add_output_options, emit_json, study_from_layer_args
 
 
 def register(sub):
@@ -12,10 +12,7 @@ def register(sub):
                        description="Build a clean, routable network from line layers; write layers "
                                    "edges, nodes and network_issues to a GeoPackage.")
     add_layer_options(p)
-    p.add_argument("-o", "--output", required=True, metavar="NETWORK.gpkg", help="output GeoPackage")
-    p.add_argument("--overwrite", action="store_true", help="replace an existing output")
-    p.add_argument("--report", metavar="FILE.json", help="write the build report as JSON")
-    p.add_argument("--json", action="store_true", help="print the build report as JSON")
+    add_output_options(p, "NETWORK.gpkg")
     p.set_defaults(func=run)
 
 
