@@ -318,3 +318,16 @@ def test_repair_points_of_a_wgs84_layer_land_in_the_working_crs(tmp_path):
     here = lonlat.to_crs(r.network.crs).union_all().envelope.buffer(100)
     assert r.issues.geometry.within(here).all()
     assert r.report["dropped_feature"] == r.report["issues"]["dropped_feature"] == 1
+
+
+def test_joined_ends_say_whether_they_were_gaps_or_overshoots():
+    """Hand-drawn: two lines end at (100, 0); a third comes from the north and stops 0.6 m short
+    (a gap) in one layer, or runs 0.6 m past the junction along its own direction (an overshoot)
+    in another.  Both are joined (within the 1 m tolerance) and reported once, in words that say which."""
+    base = [[(0, 0), (100, 0)], [(100, 0), (200, 0)]]
+    gap = build_network([LayerSpec(layer(base + [[(100, 100), (100, 0.6)]]))])
+    over = build_network([LayerSpec(layer(base + [[(100, 100), (100, -0.6)]]))])
+    for r, word in ((gap, "gap of 0.60 m"), (over, "overshoot of 0.60 m")):
+        d = r.issues[r.issues.kind == "gap_joined"].detail.tolist()
+        assert len(d) == 1 and d[0].startswith(word), d
+        assert r.report["components"] == 1 and r.network.n_nodes == 4

@@ -964,10 +964,19 @@ class _Topology:
                 worst[target_place[moved_place][o][::-1]] = moved_place[o][::-1]
                 nends = np.bincount(plab, weights=pcount)
                 for rp in np.nonzero(span >= NOISE_M)[0]:
+                    e0 = pfirst[worst[rp]]
                     l0 = pline[worst[rp]]
-                    self.issues.add("gap_joined", pxy[rp, 0], pxy[rp, 1],
-                                    f"gap of {span[rp]:.2f} m between {int(nends[plab[rp]])} line ends joined",
-                                    self.line_label[l0], self.line_fid[l0])
+                    # pulled back along its own line: the junction lies on the end's last segment
+                    adj = self.xy[self.first[l0] + 1] if e0 < nl else self.xy[self.last[l0] - 1]
+                    end = exy[e0]
+                    d = adj - end
+                    t = float(np.clip(np.dot(pxy[rp] - end, d) / max(np.dot(d, d), 1e-18), 0, 1))
+                    back = t > 0 and np.hypot(*(end + t * d - pxy[rp])) < NOISE_M
+                    what = (f"overshoot of {span[rp]:.2f} m past a junction of {int(nends[plab[rp]])} line ends "
+                            "pulled back" if back else
+                            f"gap of {span[rp]:.2f} m between {int(nends[plab[rp]])} line ends joined")
+                    self.issues.add("gap_joined", pxy[rp, 0], pxy[rp, 1], what, self.line_label[l0],
+                                    self.line_fid[l0])
         # A joined end that overshot its junction also crossed a line there: that crossing is an
         # artefact of the overshoot, so its new vertices are dropped (on both lines).
         self._drop_overshoot_crossings(np.nonzero(joined_any)[0], eline, exy, snap)
