@@ -177,8 +177,16 @@ def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs
         if not dist or min(dist.values()) > max_access_m:
             continue
         pnode[i] = base + i
-        for e, d in dist.items():  # every edge within reach: the search picks the cheapest entry
-            if d <= max_access_m:
+        # offered: every edge up to EXTRA_WALK_M farther than the nearest, and the nearest edge of the
+        # largest component (the attach rule, written out); the search picks the cheapest entry
+        from geo_reach.analysis.attach import EXTRA_WALK_M
+
+        near = min(dist.values())
+        main = {e: d for e, d in dist.items() if net.component[net.edge_from[e]] == 0}
+        near_main = min(main.values()) if main else np.inf
+        for e, d in dist.items():
+            offered = d <= near + EXTRA_WALK_M or (e in main and d <= near_main + 1e-6)
+            if d <= max_access_m and offered:
                 f = net.edge_geometry[e].line_locate_point(p, normalized=True)
                 cuts.setdefault(e, []).append((f, i, d))
     h = nx.DiGraph()
@@ -395,3 +403,15 @@ def test_route_lengths_to_the_nearest_hub_match_traced_paths(seed, direction):
         r = shortest_path(net, a, b, "minutes")
         assert r.cost == pytest.approx(cost[v], rel=1e-9, abs=1e-9)
         assert got[v] == pytest.approx(r.length_m, rel=1e-6, abs=1e-6)
+
+
+def test_a_hub_beside_a_cut_off_track_still_reaches_the_main_network():
+    """Hand-worked: main road 0-1-2 (1 min per 1 km link), a cut-off 100 m track 3-4 beside the hub.
+    The hub at (2000, 1500) is 30 m from the track and 1,500 m from the main road (at node 2):
+    beyond the 1 km of extra walking offered, yet the nearest entry onto the largest component is
+    always offered.  Node 0: 1500 m on foot at 5 km/h = 18 min, plus two 1-minute links = 20 min."""
+    xy = [[0, 0], [1000, 0], [2000, 0], [2000, 1530], [2100, 1530]]
+    net = make_network([(0, 1), (1, 2), (3, 4)], xy, minutes=np.array([1.0, 1.0, 1.0]))
+    att = attach_points(net, [[2000, 1500]], "minutes", max_access_m=5000, walk_kmh=5.0)
+    cost, _ = nearest_hub(net, att, "minutes", "to-hub")
+    assert cost[0] == pytest.approx(1500 / 5000 * 60 + 2.0)

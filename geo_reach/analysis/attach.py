@@ -12,10 +12,14 @@ within ``max_access_m`` where a trip may enter or leave the network.  Places are
 * never a ``transfer`` edge, and never a rail or cable edge between stations.
 
 For ``minutes`` and ``length_m`` (where walking costs something) every such
-place is kept as a *leg*, and the search picks the cheapest trip over all of
-them (walk + network): a hub 20 m from a slow track and 200 m
-from a fast road may well be reached by the road.  Keeping all of them makes
-costs monotone: adding a road never makes a trip dearer.  Legs are directed
+place up to ``extra_walk_m`` (1 km) farther than the nearest one is kept as a
+*leg*, plus the nearest place on the largest network component, and the
+search picks the cheapest trip over all of them (walk + network): a hub 20 m
+from a slow track and 200 m from a fast road may well be reached by the road.
+Adding a road never makes a trip dearer unless the new road passes nearer to
+the point than its nearest entry did, *and* an entry more than ``extra_walk_m``
+beyond the new nearest was the cheapest (it would have to save more than the
+12 minutes that 1 km takes on foot).  Legs are directed
 (a trip only leaves an origin and only arrives at a destination or hub), so
 no trip can cut across country from one edge to another through a point.
 For ``hops`` and ``latency_ms`` the access leg is free, so "cheapest" would
@@ -62,6 +66,12 @@ NEVER_MODES = frozenset({"transfer"})
 
 #: Entries this much farther than the nearest one still count as tied (metres).
 TIE_M = 1e-6
+
+#: Entries more than this much farther (on foot) than the nearest one are not offered, except the
+#: nearest entry onto the largest network component (metres).  1 km is 12 minutes at 5 km/h: an entry
+#: beyond it is very seldom the cheapest, and offering every edge within ``max_access_m`` (thousands
+#: per point on a dense network) made each point cost as much as the network itself.
+EXTRA_WALK_M = 1000.0
 
 _TREES: "weakref.WeakKeyDictionary[Network, dict]" = weakref.WeakKeyDictionary()
 
@@ -244,9 +254,12 @@ def _entry_places(network: Network, weight: str) -> dict:
         other = np.nonzero(~np.isin(mode, list(ALONG_MODES | NEVER_MODES)) & routable)[0]
         nodes = np.unique(np.concatenate([network.edge_from[other], network.edge_to[other]]))
         nodes = nodes[network.node_entry[nodes]]
+        main = along[network.component[network.edge_from[along]] == 0]
         per_net[weight] = {
             "along": along,
             "tree": shapely.STRtree(network.edge_geometry[along]) if len(along) else None,
+            "main": main,
+            "main_tree": shapely.STRtree(network.edge_geometry[main]) if len(main) else None,
             "nodes": nodes,
             "kd": cKDTree(np.column_stack([network.node_x[nodes], network.node_y[nodes]])) if len(nodes) else None,
         }
@@ -254,7 +267,7 @@ def _entry_places(network: Network, weight: str) -> dict:
 
 
 def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m: float = 5000.0,
-                  walk_kmh: float = 5.0) -> Attachment:
+                  walk_kmh: float = 5.0, extra_walk_m: float = EXTRA_WALK_M) -> Attachment:
     """Find where each point may join the network.
 
     Parameters
@@ -269,6 +282,10 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
     walk_kmh : float, default 5
         Off-network speed for the ``minutes`` weight, km/h (common practice
         for walking).
+    extra_walk_m : float, default :data:`EXTRA_WALK_M`
+        Entries are offered up to this much farther than the nearest one
+        (plus the nearest entry onto the largest component, wherever it lies
+        within ``max_access_m``).  ``inf`` offers every entry within reach.
 
     Returns
     -------
@@ -308,7 +325,8 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
         near = np.full(p, np.inf)
         near[qi] = dmin
         ok = near <= max_access_m
-        qi, ti = places["tree"].query(pts[ok], predicate="dwithin", distance=max_access_m + TIE_M)
+        reach = np.minimum(near[ok] + extra_walk_m, max_access_m) + TIE_M
+        qi, ti = places["tree"].query(pts[ok], predicate="dwithin", distance=reach)
         qi = np.nonzero(ok)[0][qi].astype(np.int64)
         edges = places["along"][ti]
         walk = shapely.distance(pts[qi], network.edge_geometry[edges])
@@ -329,6 +347,23 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
         npt = nnode = np.zeros(0, np.int64)
         nwalk = np.zeros(0)
 
+    # --- the nearest entry onto the largest component, for points whose offered entries all lie on
+    # fragments (a hub beside a cut-off track must still reach the main network within reach)
+    if p and places.get("main_tree") is not None and len(qi):
+        on_main = np.zeros(p, bool)
+        on_main[qi[network.component[network.edge_from[edges]] == 0]] = True
+        need = np.nonzero(~on_main & (near <= max_access_m))[0]
+        if len(need):
+            (mi, mt), md = places["main_tree"].query_nearest(pts[need], max_distance=max_access_m,
+                                                             return_distance=True, all_matches=False)
+            me = places["main"][mt]
+            mq = need[mi]
+            qi = np.concatenate([qi, mq]).astype(np.int64)
+            edges = np.concatenate([edges, me]).astype(np.int64)
+            walk = np.concatenate([walk, md])
+            mf = shapely.line_locate_point(network.edge_geometry[me], pts[mq], normalized=True)
+            frac = np.concatenate([frac, np.clip(np.nan_to_num(mf, nan=0.0), 0.0, 1.0)])
+
     leg_point = np.concatenate([qi, npt]).astype(np.int64)
     leg_edge = np.concatenate([edges, np.full(len(npt), -1)]).astype(np.int64)
     leg_node = np.concatenate([np.full(len(qi), -1), nnode]).astype(np.int64)
@@ -344,6 +379,15 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
         nd, _ = places["kd"].query(xy)
         access = np.minimum(access, nd)
     keep = leg_walk <= max_access_m
+    # offered: entries within extra_walk_m of the nearest, and the nearest onto the largest component
+    main_leg = np.zeros(len(leg_point), bool)
+    if len(leg_edge):
+        le = np.maximum(leg_edge, 0)
+        main_leg = (leg_edge >= 0) & (network.component[network.edge_from[le]] == 0)
+    first_main = np.full(p, np.inf)
+    if main_leg.any():
+        np.minimum.at(first_main, leg_point[main_leg], leg_walk[main_leg])
+    keep &= (leg_walk <= access[leg_point] + extra_walk_m) | (main_leg & (leg_walk <= first_main[leg_point] + TIE_M))
     if not np.any(walk_cost(np.array([1.0]), weight, walk_kmh) > 0):
         keep &= leg_walk <= access[leg_point] + TIE_M   # free walking: the nearest entries only
     order = np.argsort(leg_point[keep], kind="stable")
