@@ -331,3 +331,29 @@ def test_joined_ends_say_whether_they_were_gaps_or_overshoots():
         d = r.issues[r.issues.kind == "gap_joined"].detail.tolist()
         assert len(d) == 1 and d[0].startswith(word), d
         assert r.report["components"] == 1 and r.network.n_nodes == 4
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(0, 2**31 - 1), st.integers(1, 60), st.integers(0, 40), st.booleans())
+def test_box_pairs_match_brute_force(seed, n, m, same):
+    """The grid-hash candidate finder against the obvious O(n m) test of every pair of boxes
+    (touching counts as overlapping); each pair exactly once."""
+    from geo_reach.network.build import box_pairs
+
+    rng = np.random.default_rng(seed)
+
+    def boxes(k):
+        lo = rng.uniform(-50, 50, (k, 2)).round(1)
+        size = rng.choice([0.0, 0.5, 3.0, 40.0], (k, 2))
+        return np.column_stack([lo, lo + size])
+
+    a = boxes(n)
+    b = None if same else boxes(m)
+    i, j = box_pairs(a, b)
+    other = a if same else b
+    want = {(p, q) for p in range(len(a)) for q in range(len(other))
+            if (not same or p < q) and a[p, 0] <= other[q, 2] and other[q, 0] <= a[p, 2]
+            and a[p, 1] <= other[q, 3] and other[q, 1] <= a[p, 3]}
+    got = list(zip(i.tolist(), j.tolist()))
+    assert len(got) == len(set(got))
+    assert set(got) == want

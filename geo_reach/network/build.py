@@ -462,6 +462,78 @@ def _remove_duplicate_features(table, specs_labels, issues, report):
 
 
 # --------------------------------------------------------------- topology
+def _grid_cells(box, cell, origin):
+    """(box index, cell key) for every grid cell each box touches."""
+    c0 = np.floor((box[:, :2] - origin) / cell).astype(np.int64)
+    c1 = np.floor((box[:, 2:] - origin) / cell).astype(np.int64)
+    nx = c1[:, 0] - c0[:, 0] + 1
+    ny = c1[:, 1] - c0[:, 1] + 1
+    cnt = nx * ny
+    idx = np.repeat(np.arange(len(box), dtype=np.int64), cnt)
+    k = np.arange(int(cnt.sum()), dtype=np.int64) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+    cx = c0[idx, 0] + k % nx[idx]
+    cy = c0[idx, 1] + k // nx[idx]
+    return idx, cx, cy
+
+
+def box_pairs(abox, bbox=None, cell=None):
+    """Pairs of boxes that overlap (touching counts), found with a uniform grid hash.
+
+    Parameters
+    ----------
+    abox, bbox : ndarray of float64, shape (n, 4)
+        Boxes as xmin, ymin, xmax, ymax.  Without ``bbox`` the pairs are
+        within ``abox``, each once with i < j.
+    cell : float, optional
+        Grid cell side; default twice the median box extent.
+
+    Returns
+    -------
+    i, j : ndarray of int64
+        Indices into ``abox`` and ``bbox`` (or ``abox``).
+
+    Notes
+    -----
+    Each box is listed in every cell it touches; a pair is reported only in
+    the cell holding the lower-left corner of the two boxes' overlap, so it
+    comes out exactly once.  Cost O(n + pairs) for boxes of similar size.
+    """
+    same = bbox is None
+    bbox = abox if same else bbox
+    if len(abox) == 0 or len(bbox) == 0:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    if cell is None:   # sized on the larger boxes, so neither side spreads over many cells
+        ext_a = np.maximum(abox[:, 2] - abox[:, 0], abox[:, 3] - abox[:, 1])
+        ext_b = np.maximum(bbox[:, 2] - bbox[:, 0], bbox[:, 3] - bbox[:, 1])
+        cell = max(2.0 * float(np.median(ext_a)), 2.0 * float(np.median(ext_b)), 1e-3)
+    origin = np.minimum(abox[:, :2].min(axis=0), bbox[:, :2].min(axis=0))
+    ai, ax_, ay_ = _grid_cells(abox, cell, origin)
+    bi, bx_, by_ = _grid_cells(bbox, cell, origin)
+    ny = int(max(ay_.max(), by_.max())) + 1
+    akey = ax_ * ny + ay_
+    bkey = bx_ * ny + by_
+    order = np.argsort(bkey, kind="stable")
+    bkey_s, bi_s = bkey[order], bi[order]
+    lo = np.searchsorted(bkey_s, akey, side="left")
+    hi = np.searchsorted(bkey_s, akey, side="right")
+    n = hi - lo
+    rep = np.repeat(np.arange(len(akey), dtype=np.int64), n)
+    pos = np.repeat(lo, n) + (np.arange(int(n.sum()), dtype=np.int64) - np.repeat(np.cumsum(n) - n, n))
+    i = ai[rep]
+    j = bi_s[pos]
+    keep = (abox[i, 0] <= bbox[j, 2]) & (bbox[j, 0] <= abox[i, 2]) & (abox[i, 1] <= bbox[j, 3]) & \
+        (bbox[j, 1] <= abox[i, 3])
+    if same:
+        keep &= i < j
+    i, j, rep = i[keep], j[keep], rep[keep]
+    # report each pair once: in the cell of the overlap's lower-left corner
+    rx = np.maximum(abox[i, 0], bbox[j, 0])
+    ry = np.maximum(abox[i, 1], bbox[j, 1])
+    own = (np.floor((rx - origin[0]) / cell).astype(np.int64) == ax_[rep]) & \
+        (np.floor((ry - origin[1]) / cell).astype(np.int64) == ay_[rep])
+    return i[own], j[own]
+
+
 def _segment_pairs(x0, y0, x1, y1, seg_line, group, level, line_start, line_end, tree=None):
     """All pairs of segments that touch or cross, as the nodes they make.
 
@@ -469,15 +541,9 @@ def _segment_pairs(x0, y0, x1, y1, seg_line, group, level, line_start, line_end,
     kind 0 = a vertex of that segment becomes a node (t in {0, 1}), kind 1 =
     a new vertex is inserted at parameter t; plus kept crossings.
     """
-    if tree is None:
-        segs = shapely.linestrings(np.stack([np.column_stack([x0, y0]), np.column_stack([x1, y1])], axis=1))
-        tree = shapely.STRtree(segs)
-    else:
-        segs = tree.geometries
-    # Bounding-box candidates only: the exact test below is ours (cheaper than a GEOS predicate per pair).
-    a, b = tree.query(segs)
-    m = a < b
-    a, b = a[m], b[m]
+    # Bounding-box candidates from a grid hash (no geometry objects); the exact test below is ours.
+    boxes = np.column_stack([np.minimum(x0, x1), np.minimum(y0, y1), np.maximum(x0, x1), np.maximum(y0, y1)])
+    a, b = box_pairs(boxes)
     # Same group (mode) only; neighbours along the same line share their vertex by construction.
     same_line = seg_line[a] == seg_line[b]
     m = (group[a] == group[b]) & ~(same_line & (b == a + 1))
@@ -704,9 +770,7 @@ class _Topology:
         x0, y0, x1, y1 = xy[seg, 0], xy[seg, 1], xy[seg + 1, 0], xy[seg + 1, 1]
         line_start = seg == self.first[sl]
         line_end = seg + 1 == self.last[sl]
-        self.segs = shapely.linestrings(np.stack([np.column_stack([x0, y0]), np.column_stack([x1, y1])], axis=1))
-        self.seg_tree = shapely.STRtree(self.segs)
-        ev = _segment_pairs(x0, y0, x1, y1, sl, self.group[sl], self.level[sl], line_start, line_end, self.seg_tree)
+        ev = _segment_pairs(x0, y0, x1, y1, sl, self.group[sl], self.level[sl], line_start, line_end)
         ev_seg, ev_t, ev_x, ev_y, ev_new, kx, ky, ka, kb = ev
         # Vertex nodes
         vert = ~ev_new
@@ -986,8 +1050,11 @@ class _Topology:
         if len(dead) and snap > 0:
             seg = self.seg
             sl = self.vline[seg]
-            pts = shapely.points(exy[dead])
-            pi, si = self.seg_tree.query(pts, predicate="dwithin", distance=snap)
+            # candidates: segment boxes overlapping each dead end's box grown by the tolerance
+            pbox = np.column_stack([exy[dead] - snap, exy[dead] + snap])
+            a_, b_ = self.xy[seg], self.xy[seg + 1]
+            sbox = np.column_stack([np.minimum(a_, b_), np.maximum(a_, b_)])
+            pi, si = box_pairs(pbox, sbox)
             ok = ((emode[dead[pi]] == self.group[sl[si]]) & (eline[dead[pi]] != sl[si])
                   & ~self.deleted[seg[si]] & ~self.deleted[seg[si] + 1])
             pi, si = pi[ok], si[ok]
@@ -1000,6 +1067,9 @@ class _Topology:
                 tt = np.clip(((ex - ax) * dx + (ey - ay) * dy) / L2, 0, 1)
                 qx, qy = ax + tt * dx, ay + tt * dy
                 dist = np.hypot(ex - qx, ey - qy)
+                within = dist <= snap
+                pi, si, ex, ey, ax, ay, bx, by, tt, qx, qy, dist = (
+                    v[within] for v in (pi, si, ex, ey, ax, ay, bx, by, tt, qx, qy, dist))
                 # prefer an existing vertex of the target within the tolerance of the end
                 da, db = np.hypot(ex - ax, ey - ay), np.hypot(ex - bx, ey - by)
                 use_a = (da <= snap) & (da <= db)
