@@ -502,6 +502,8 @@ def box_pairs(abox, bbox=None, cell=None):
     bbox = abox if same else bbox
     if len(abox) == 0 or len(bbox) == 0:
         return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    if same:
+        return _self_box_pairs(abox, cell)
     if cell is None:   # sized on the larger boxes, so neither side spreads over many cells
         ext_a = np.maximum(abox[:, 2] - abox[:, 0], abox[:, 3] - abox[:, 1])
         ext_b = np.maximum(bbox[:, 2] - bbox[:, 0], bbox[:, 3] - bbox[:, 1])
@@ -534,7 +536,33 @@ def box_pairs(abox, bbox=None, cell=None):
     return i[own], j[own]
 
 
-def _segment_pairs(x0, y0, x1, y1, seg_line, group, level, line_start, line_end, tree=None):
+def _self_box_pairs(box, cell=None):
+    """:func:`box_pairs` within one set: each cell's entries are paired only with those after them."""
+    if cell is None:
+        ext = np.maximum(box[:, 2] - box[:, 0], box[:, 3] - box[:, 1])
+        cell = max(float(np.median(ext)), 1e-3)
+    origin = box[:, :2].min(axis=0)
+    bi, cx, cy = _grid_cells(box, cell, origin)
+    key = cx * (int(cy.max()) + 1) + cy
+    order = np.argsort(key, kind="stable")
+    key, bi, cx, cy = key[order], bi[order], cx[order], cy[order]
+    end = np.searchsorted(key, key, side="right")
+    n = end - np.arange(len(key)) - 1
+    rep = np.repeat(np.arange(len(key), dtype=np.int64), n)
+    pos = rep + 1 + (np.arange(int(n.sum()), dtype=np.int64) - np.repeat(np.cumsum(n) - n, n))
+    i, j = bi[rep], bi[pos]
+    keep = (box[i, 0] <= box[j, 2]) & (box[j, 0] <= box[i, 2]) & (box[i, 1] <= box[j, 3]) & \
+        (box[j, 1] <= box[i, 3])
+    i, j, rep = i[keep], j[keep], rep[keep]
+    rx = np.maximum(box[i, 0], box[j, 0])
+    ry = np.maximum(box[i, 1], box[j, 1])
+    own = (np.floor((rx - origin[0]) / cell).astype(np.int64) == cx[rep]) & \
+        (np.floor((ry - origin[1]) / cell).astype(np.int64) == cy[rep])
+    i, j = i[own], j[own]
+    return np.minimum(i, j), np.maximum(i, j)
+
+
+def _segment_pairs(x0, y0, x1, y1, seg_line, group, level, line_start, line_end):
     """All pairs of segments that touch or cross, as the nodes they make.
 
     Returns arrays describing split events: (segment, t, x, y, kind) where
