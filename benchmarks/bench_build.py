@@ -30,7 +30,7 @@ def child_build(src, dst):
     import resource
 
     from geo_reach.network.build import BuildOptions, LayerSpec, build_network
-    from geo_reach.network.writer import write_network
+    from geo_reach.export.gpkg import write_network
 
     marks = {}
 

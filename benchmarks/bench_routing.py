@@ -105,7 +105,7 @@ def main():
     med = {k: statistics.median(v) for k, v in times.items()}
     best = {k: min(v) for k, v in times.items()}
     assert np.allclose(fns["bare"](), fns["ours"]().cost)
-    t_bare, t_ours, t_att = med["bare"], med["ours"], med["attached"]
+    t_bare, t_ours = med["bare"], med["ours"]
     lines.append(f"- many-to-nearest, 100 hubs at nodes (to-hub, warm CSR), median / best of {a.repeat} interleaved: "
                  f"bare scipy `dijkstra(min_only=True)` {med['bare']:.3f} / {best['bare']:.3f} s; the same call with "
                  f"`return_predecessors=True` (needed to know *which* hub) {med['bare_src']:.3f} / "

@@ -947,7 +947,7 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
         if n not in study.scenarios:
             raise InputError(f"scenario '{n}' is not in the study (scenarios: {', '.join(study.scenarios) or 'none'})")
     # steps: build, rasters, access, metrics, surface, then per scenario 5 more, then writing
-    bar = _Progress(progress, log, total=5 + 5 * len(names) + 1)
+    bar = _Progress(progress, total=5 + 5 * len(names) + 1)
     timing = {"started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())}
     t0 = time.perf_counter()
     specs = layer_specs(study)
@@ -1007,7 +1007,7 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
 class _Progress:
     """Progress on stderr: a tqdm bar over the steps on a terminal, timed lines otherwise (logs, CI)."""
 
-    def __init__(self, enabled, log, total=None):
+    def __init__(self, enabled, total=None):
         import sys
 
         self.enabled = enabled
@@ -1053,7 +1053,7 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=True) -> dict
     check_outdir(outdir, overwrite)
     if study.surface is None or study.hubs is None:
         raise InputError("a surface needs hubs and a [surface] table")
-    bar = _Progress(progress, print)
+    bar = _Progress(progress)
     t0 = time.perf_counter()
     specs = layer_specs(study)
     pre = build_or_read(study, specs)

@@ -18,7 +18,7 @@ def register(sub):
 
 def run(args):
     from ..export.atomic import check_output
-    from ..network.writer import write_network
+    from ..export.gpkg import write_network
     from ..pipeline import build_or_read, layer_specs
 
     check_output(args.output, args.overwrite)

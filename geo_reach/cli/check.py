@@ -19,13 +19,13 @@ def register(sub):
 def run(args):
     from ..export.atomic import check_output
     from ..network.build import check_layers
-    from ..network.writer import write_layers_atomic
+    from ..export.gpkg import write_network
     from ..pipeline import build_options, layer_specs
 
     check_output(args.output, args.overwrite)
     study = study_from_layer_args(args)
     result = check_layers(layer_specs(study), build_options(study))
-    write_layers_atomic(args.output, {"network_issues": result.issues}, overwrite=args.overwrite)
+    write_network(args.output, result, overwrite=args.overwrite, issues_only=True)
     emit_json(result.report, args.report, stdout=args.json)
     if not args.json:
         kinds = ", ".join(f"{k} {v}" for k, v in result.report["issues"].items() if v)

@@ -27,7 +27,7 @@ import pandas as pd
 from ..errors import CRSError, LayerError, OptionError, OutputError, where
 from .atomic import atomic_path, check_output
 
-__all__ = ["write_layers", "GPKG_VERSION", "LAYER_NAME"]
+__all__ = ["write_layers", "write_network", "GPKG_VERSION", "LAYER_NAME"]
 
 #: GeoPackage version written (``user_version`` 10400).
 GPKG_VERSION = "1.4"
@@ -165,3 +165,17 @@ def write_layers(path, layers: Mapping[str, pd.DataFrame], overwrite: bool = Fal
                 with contextlib.suppress(FileNotFoundError):
                     Path(str(tmp) + extra).unlink()
     return path
+
+
+def write_network(path, result, overwrite: bool = False, issues_only: bool = False) -> Path:
+    """Write a built network's layers (``edges``, ``nodes``, ``network_issues``) into one GeoPackage.
+
+    ``result`` is a :class:`~geo_reach.network.build.BuildResult`; with
+    ``issues_only`` (the ``check`` command) only ``network_issues`` is written.
+    Every layer's description carries the caution.
+    """
+    from .. import CAUTION
+
+    layers = {} if issues_only else {"edges": result.network.edges_frame(), "nodes": result.network.nodes_frame()}
+    layers["network_issues"] = result.issues
+    return write_layers(path, layers, overwrite=overwrite, descriptions={k: CAUTION for k in layers})
