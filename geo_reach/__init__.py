@@ -11,14 +11,10 @@ Results are model estimates; local surveys, codes and licensed professional
 practice decide.
 """
 
-__version__ = "0.1.0"
-
-#: The caution every report and map carries.
-CAUTION = ("Model estimates only: local surveys, codes and licensed professional practice "
-           "decide health, emergency and investment choices.")
-
+from ._meta import CAUTION, __version__  # noqa: E402
 from .errors import GeoReachError, InputError  # noqa: E402
-from .network.model import Network, WEIGHTS  # noqa: E402
+from .network.model import Network  # noqa: E402
+from .network.weights import WEIGHTS, Weight, as_weight  # noqa: E402
 from .network.build import BuildOptions, BuildResult, LayerSpec, build_network, check_layers  # noqa: E402
 from .analysis.attach import attach_points  # noqa: E402
 from .analysis.access import hub_access  # noqa: E402
@@ -30,7 +26,7 @@ from .study import load_study  # noqa: E402
 from .pipeline import run_study  # noqa: E402
 
 __all__ = [
-    "CAUTION", "__version__", "GeoReachError", "InputError", "Network", "WEIGHTS",
+    "CAUTION", "__version__", "GeoReachError", "InputError", "Network", "WEIGHTS", "Weight", "as_weight",
     "BuildOptions", "BuildResult", "LayerSpec", "build_network", "check_layers",
     "attach_points", "hub_access", "nearest_hub", "od_matrix", "one_to_all", "shortest_path",
     "diameter", "global_efficiency", "mean_path", "reach_profile", "compute_surface",

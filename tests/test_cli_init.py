@@ -124,7 +124,7 @@ def test_kit_study_runs(kit, kit_study):
         total = float(ds.read(1, masked=True).sum())
     # the grid covers the whole population raster, so the run counts every person in it
     assert s["baseline"]["population_total"] == pytest.approx(total)
-    assert s["baseline"]["hubs"]["count"] == 2 and s["baseline"]["hubs"]["attached"] == 2
+    assert s["baseline"]["hubs"]["count"] == 2 and s["baseline"]["hubs"]["joined"] == 2
     assert "proposed" in s["scenarios"]
 
 
@@ -167,7 +167,7 @@ def test_demo_region(tmp_path, capsys):
     assert f"field 'class' looks like a road class: {len(classes)} values found" in text
     assert st.settlements["population_field"] == "population"
     assert st.hubs["kind_field"] == "kind" and st.hubs["id_field"] == "hub_id"
-    assert st.resolve(st.surface["population"]).resolve() == (SAMPLES / "population.tif").resolve()
+    assert st.resolve(st.surface_files["population"]).resolve() == (SAMPLES / "population.tif").resolve()
     assert "wrote" in stdout
 
 
@@ -182,8 +182,8 @@ def test_demo_gpkg_without_layer_name_gives_every_layer(tmp_path, capsys):
     rail = next(t for t in st.lines if t["layer"] == "rail")
     cable = next(t for t in st.lines if t["layer"] == "cable")
     assert rail["stations_layer"] == "stations" and cable["stations_layer"] == "cable_nodes"
-    assert st.surface["barriers_layer"] == "water" and st.zones["layer"] == "districts"
-    assert st.surface["terrain"].endswith("terrain.tif")
+    assert st.surface_files["barriers_layer"] == "water" and st.zones["layer"] == "districts"
+    assert st.surface_files["terrain"].endswith("terrain.tif")
     assert st.scenarios["proposed_road"]["add_lines"][0]["layer"] == "proposed_road"
 
 
@@ -289,7 +289,7 @@ def test_points_and_polygons_are_sorted(tmp_path, capsys):
     assert st.hubs["path"] == "clinics.gpkg" and st.hubs["id_field"] == "code"
     # a population-like field wins over a kind-like one when the name says neither
     assert st.settlements["path"] == "pts.gpkg" and st.settlements["population_field"] == "pop"
-    assert st.surface["barriers"] == "lakes.gpkg"
+    assert st.surface_files["barriers"] == "lakes.gpkg"
     assert st.zones["path"] == "wards.gpkg" and st.zones["id_field"] == "ward_id"
 
 
@@ -309,7 +309,7 @@ def test_unknown_points_raster_and_missing_crs_are_reported_not_guessed(tmp_path
     st = load_study(out)
     assert "assume_crs" not in st.lines[0] and re.search(r'^# assume_crs = "EPSG:NNNN"', text, re.M)
     assert st.hubs is None and "No hub layer found" in text
-    assert "population" not in st.surface and "landuse.tif" in text
+    assert "population" not in st.surface_files and "landuse.tif" in text
     for word in ("no CRS", "misc", "landuse.tif", "no hub layer"):
         assert word in stdout, word
 

@@ -8,7 +8,7 @@ and geometry is attached only by :func:`shortest_path` (its ``geometry``).
 
 Shared parameter texts
 ----------------------
-weight : {'minutes', 'length_m', 'latency_ms', 'hops'}
+weight : Weight or {'minutes', 'length_m', 'latency_ms', 'hops'}
     The cost each edge counts (``hops``: 1 per link).  Edges with no value
     for it (``NaN``: a cable has no minutes) are left out of the routing;
     :func:`excluded_edges` counts them.  Zero-cost edges are real, free arcs.
@@ -42,7 +42,8 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import dijkstra
 
 from ..errors import InputError, OptionError
-from ..network.model import WEIGHTS, Network
+from ..network.model import Network
+from ..network.weights import Weight, as_weight
 from .attach import Attachment, attach_points
 
 __all__ = [
@@ -65,16 +66,11 @@ class _Graph(NamedTuple):
     leg_of_entry: np.ndarray   # attachment leg per stored entry (-1 for network arcs)
 
 
-def _check_weight(weight: str) -> str:
-    if weight not in WEIGHTS:
-        raise OptionError(f"unknown weight '{weight}'; choose one of {', '.join(WEIGHTS)}")
-    return weight
-
-
 def _check_direction(direction: str) -> bool:
     """True when the search runs on the reversed graph."""
     if direction not in DIRECTIONS:
-        raise OptionError(f"unknown direction '{direction}'; choose one of {', '.join(DIRECTIONS)}")
+        raise OptionError(f"direction {direction!r} is not known; choose one of {', '.join(DIRECTIONS)}",
+                          key="direction")
     return direction == "to-hub"
 
 
@@ -100,8 +96,8 @@ def check_nodes(network: Network, nodes) -> np.ndarray:
     return arr
 
 
-def _base(network: Network, weight: str, reverse: bool) -> _Graph:
-    adj = network.csr(_check_weight(weight), reverse=reverse)
+def _base(network: Network, weight: Weight, reverse: bool) -> _Graph:
+    adj = network.csr(weight, reverse=reverse)
     return _Graph(adj.matrix, network.n_nodes, adj.edge_of_entry, np.full(len(adj.edge_of_entry), -1, np.int64))
 
 
@@ -168,7 +164,7 @@ def _entry_index(g: _Graph, tail, head) -> np.ndarray:
     return np.where(ok, pos, -1)
 
 
-def _sources_graph(network: Network, places, weight: str, reverse: bool, role_if_points: str):
+def _sources_graph(network: Network, places, weight: Weight, reverse: bool, role_if_points: str):
     """The graph to search and the source rows for ``places`` (nodes or an Attachment)."""
     g = _base(network, weight, reverse)
     if isinstance(places, Attachment):
@@ -181,13 +177,13 @@ def _sources_graph(network: Network, places, weight: str, reverse: bool, role_if
     return g, check_nodes(network, places)
 
 
-def excluded_edges(network: Network, weight: str) -> int:
+def excluded_edges(network: Network, weight: Weight | str) -> int:
     """Number of edges left out of routing on ``weight`` (no value for it)."""
-    return int(np.isnan(network.cost(_check_weight(weight))).sum())
+    return int(np.isnan(network.cost(weight)).sum())
 
 
 # ====================================================================== one-to-all
-def one_to_all(network: Network, sources, weight: str = "minutes", *, reverse: bool = False,
+def one_to_all(network: Network, sources, weight: Weight | str = "minutes", *, reverse: bool = False,
                limit: float = np.inf) -> np.ndarray:
     """Least cost from each source to every node.
 
@@ -213,6 +209,7 @@ def one_to_all(network: Network, sources, weight: str = "minutes", *, reverse: b
     -----
     One Dijkstra run per source, O(m + n log n) each, memory n_sources x n.
     """
+    weight = as_weight(weight)
     scalar = np.ndim(sources) == 0 and not isinstance(sources, Attachment)
     role = "arrive" if reverse else "leave"
     g, rows = _sources_graph(network, np.atleast_1d(sources) if scalar else sources, weight, reverse, role)
@@ -238,7 +235,7 @@ class NearestHub(NamedTuple):
     hub: np.ndarray
 
 
-def nearest_hub(network: Network, hubs, weight: str = "minutes", direction: str = "to-hub", *,
+def nearest_hub(network: Network, hubs, weight: Weight | str = "minutes", direction: str = "to-hub", *,
                 limit: float = np.inf) -> NearestHub:
     """Every node's nearest hub and the cost to it, in one multi-source search.
 
@@ -271,6 +268,7 @@ def nearest_hub(network: Network, hubs, weight: str = "minutes", direction: str 
     >>> cost.tolist(), hub.tolist()
     ([0.0, 1.0, 2.0, 2.0, 1.0, 0.0], [0, 0, 0, 1, 1, 1])
     """
+    weight = as_weight(weight)
     reverse = _check_direction(direction)
     role = "arrive" if reverse else "leave"
     if isinstance(hubs, Attachment):
@@ -351,14 +349,12 @@ def _same_edge(network: Network, a: Attachment, b: Attachment):
     c = network.cost(a.weight)[e]
     df = b.leg_fraction[lb] - a.leg_fraction[la]
     ok = (df >= 0) | ~network.edge_oneway[e]
-    from .attach import walk_cost
-
-    cost = (np.abs(df) * c + walk_cost(a.leg_walk_m[la], a.weight, a.walk_kmh)
-            + walk_cost(b.leg_walk_m[lb], b.weight, b.walk_kmh))
+    cost = (np.abs(df) * c + a.weight.walk_cost(a.leg_walk_m[la], a.walk_kmh)
+            + b.weight.walk_cost(b.leg_walk_m[lb], b.walk_kmh))
     return a.leg_point[la][ok], b.leg_point[lb][ok], cost[ok], la[ok], lb[ok]
 
 
-def _as_single(network: Network, place, weight: str, what: str):
+def _as_single(network: Network, place, weight: Weight, what: str):
     if isinstance(place, Attachment):
         if place.n_points != 1:
             raise OptionError(f"{what}: give one point, not {place.n_points}")
@@ -370,7 +366,7 @@ def _as_single(network: Network, place, weight: str, what: str):
     return int(check_nodes(network, [place])[0])
 
 
-def shortest_path(network: Network, origin, destination, weight: str = "minutes") -> Route:
+def shortest_path(network: Network, origin, destination, weight: Weight | str = "minutes") -> Route:
     """The least-cost trip between two places, with its edges and geometry.
 
     Parameters
@@ -400,7 +396,7 @@ def shortest_path(network: Network, origin, destination, weight: str = "minutes"
     """
     import shapely
 
-    _check_weight(weight)
+    weight = as_weight(weight)
     o = _as_single(network, origin, weight, "origin")
     d = _as_single(network, destination, weight, "destination")
     length = network.edge_length_m
@@ -534,7 +530,8 @@ class ODMatrix:
     length_m: np.ndarray
 
 
-def nearest_hub_route_m(network: Network, hubs, weight: str = "minutes", direction: str = "to-hub") -> np.ndarray:
+def nearest_hub_route_m(network: Network, hubs, weight: Weight | str = "minutes",
+                        direction: str = "to-hub") -> np.ndarray:
     """Length in metres of each node's least-cost route to (or from) its nearest hub.
 
     Parameters
@@ -557,6 +554,7 @@ def nearest_hub_route_m(network: Network, hubs, weight: str = "minutes", directi
     One multi-source search with predecessors, then the lengths along the
     search tree by pointer jumping (no per-node path tracing).
     """
+    weight = as_weight(weight)
     reverse = _check_direction(direction)
     role = "arrive" if reverse else "leave"
     g, rows = _sources_graph(network, hubs, weight, reverse, role)
@@ -606,7 +604,7 @@ def _tree_lengths(g: _Graph, network: Network, pred: np.ndarray, att: Attachment
     return acc
 
 
-def od_matrix(network: Network, origins, destinations, weight: str = "minutes", *,
+def od_matrix(network: Network, origins, destinations, weight: Weight | str = "minutes", *,
               batch: int | None = None) -> ODMatrix:
     """Least cost and its length between every origin and every destination.
 
@@ -633,7 +631,7 @@ def od_matrix(network: Network, origins, destinations, weight: str = "minutes", 
     the access cost), since every trip joins the network.
     Cost O(n_origins (m + n log n)).
     """
-    _check_weight(weight)
+    weight = as_weight(weight)
     o_att = origins if isinstance(origins, Attachment) else None
     d_att = destinations if isinstance(destinations, Attachment) else None
     g, rows = _sources_graph(network, origins, weight, False, "leave")

@@ -26,7 +26,7 @@ class _Parser(argparse.ArgumentParser):
 
 
 def build_parser() -> argparse.ArgumentParser:
-    from .. import __version__
+    from .._meta import __version__
 
     parser = _Parser(prog="geo-reach", description="How well places are connected over road, rail and cable networks.")
     parser.add_argument("--version", action="version", version=f"geo-reach {__version__}")
@@ -34,7 +34,38 @@ def build_parser() -> argparse.ArgumentParser:
     sub.required = True
     for name in COMMANDS:
         importlib.import_module(f".{name}", __name__).register(sub)
+    for cmd in sub.choices.values():
+        cmd.set_defaults(_flags=_flags_of(cmd))
     return parser
+
+
+def _flags_of(parser) -> dict:
+    """Option name as the library calls it (argparse ``dest``) -> the flag the user types."""
+    out = {}
+    for a in parser._actions:
+        longs = [o for o in a.option_strings if o.startswith("--")]
+        if longs:
+            out[a.dest] = longs[0]
+    return out
+
+
+def blame_flag(err: InputError, flags: dict) -> str:
+    """The message of ``err`` with its option (``err.key``) named as the command's flag.
+
+    Library messages name options in neutral words (``walk_kmh 0: must be
+    ...``); on the command line the user typed ``--walk-kmh``.  Only the
+    option's own name is replaced, never text quoted from the user's data.
+
+    >>> from geo_reach.errors import OptionError
+    >>> blame_flag(OptionError("walk_kmh 0: must be positive", key="walk_kmh"), {"walk_kmh": "--walk-kmh"})
+    '--walk-kmh 0: must be positive'
+    """
+    msg = " ".join(str(err).split())
+    key = getattr(err, "key", None)
+    flag = flags.get(key) if key else None
+    if flag:
+        msg = re.sub(rf"(?<![\w'./-]){re.escape(key)}(?![\w'./-])", flag, msg)
+    return msg
 
 
 #: Options whose value may start with a minus sign (coordinates west or south of 0).
@@ -57,13 +88,15 @@ def _join_signed(argv):
 
 
 def main(argv=None) -> int:
+    from ._progress import setup_logging
+
     parser = build_parser()
     args = parser.parse_args(_join_signed(list(sys.argv[1:] if argv is None else argv)))
+    setup_logging()
     try:
         return int(args.func(args) or 0)
     except InputError as err:
-        msg = " ".join(str(err).split())
-        print(f"geo-reach: error: {msg}", file=sys.stderr)
+        print(f"geo-reach: error: {blame_flag(err, getattr(args, '_flags', {}))}", file=sys.stderr)
         return 2
     except GeoReachError as err:
         print(f"geo-reach: internal error: {' '.join(str(err).split())}", file=sys.stderr)

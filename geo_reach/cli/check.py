@@ -20,11 +20,11 @@ def run(args):
     from ..export.atomic import check_output
     from ..network.build import check_layers
     from ..export.gpkg import write_network
-    from ..pipeline import build_options, layer_specs
+    from ..pipeline import layer_specs
 
     check_output(args.output, args.overwrite)
     study = study_from_layer_args(args)
-    result = check_layers(layer_specs(study), build_options(study))
+    result = check_layers(layer_specs(study), study.build)
     write_network(args.output, result, overwrite=args.overwrite, issues_only=True)
     emit_json(result.report, args.report, stdout=args.json)
     if not args.json:

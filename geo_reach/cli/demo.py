@@ -30,8 +30,12 @@ def run(args):
         raise MissingInputError(f"file '{study_path}': the demo study is missing; run geo-reach demo from a "
                                 "checkout of the repository")
     out = Path(args.output) if args.output else root / "maps" / "demo"
+    from ._progress import StepDisplay
+
     study = load_study(study_path)
     # The demo replaces its own outputs on every run.
-    summary = run_study(study, out, overwrite=True, progress=not args.quiet)
+    show = StepDisplay(not args.quiet, total=6 + 5 * len(study.scenarios))
+    summary = run_study(study, out, overwrite=True, progress=show)
+    show.close()
     print_summary(summary, out)
     return 0

@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._routing import add_access, add_weight, load_network, note, read_points, report_excluded, report_left_out
+from ._common import (add_access, add_weight, note, read_network_arg, read_points_arg, report_excluded, report_left_out,
+                      routing_options)
 
 
 def register(sub):
@@ -33,7 +34,7 @@ def run(args):
     import pandas as pd
     import shapely
 
-    from .. import CAUTION
+    from .._meta import CAUTION
     from ..analysis.attach import attach_points
     from ..analysis.routing import od_matrix
     from ..export.atomic import atomic_path, check_output
@@ -44,20 +45,20 @@ def run(args):
     check_output(args.output, args.overwrite)
     if args.csv:
         check_output(args.csv, args.overwrite, "CSV file")
-    net = load_network(args.network, args.weight)
-    report_excluded(net, args.weight)
-    o = read_points(args.origins, net, id_field=args.origin_id_field, what="origins",
-                    id_option="--origin-id-field")
-    d = read_points(args.destinations, net, id_field=args.destination_id_field, what="destinations",
-                    id_option="--destination-id-field")
-    kw = dict(max_access_m=args.max_access_m, walk_kmh=args.walk_kmh)
-    oa = attach_points(net, o.xy, args.weight, **kw)
-    da = attach_points(net, d.xy, args.weight, **kw)
+    opt = routing_options(args)
+    net = read_network_arg(args.network, opt.weight)
+    report_excluded(net, opt.weight)
+    o = read_points_arg(args.origins, net, id_field=args.origin_id_field, what="origins", id_key="origin_id_field")
+    d = read_points_arg(args.destinations, net, id_field=args.destination_id_field, what="destinations",
+                        id_key="destination_id_field")
+    kw = dict(max_access_m=opt.max_access_m, walk_kmh=opt.walk_kmh)
+    oa = attach_points(net, o.xy, opt.weight, **kw)
+    da = attach_points(net, d.xy, opt.weight, **kw)
     report_left_out(oa, o.ids, "origins", args.max_access_m)
     report_left_out(da, d.ids, "destinations", args.max_access_m)
     oi = np.nonzero(oa.attached)[0]
     di = np.nonzero(da.attached)[0]
-    od = od_matrix(net, oa.subset(oi), da.subset(di), args.weight)
+    od = od_matrix(net, oa.subset(oi), da.subset(di), opt.weight)
     cost, length = od.cost, od.length_m
     rows_o, rows_d, rank = [], [], []
     for a in range(len(oi)):
@@ -79,7 +80,7 @@ def run(args):
         "destination_id": d.ids[di][rd] if len(ro) else np.zeros(0, object),
         "cost": np.where(np.isfinite(c), c, np.nan),
         "length_m": np.where(np.isfinite(c), ln, np.nan),
-        "weight": np.full(len(ro), args.weight, dtype=object),
+        "weight": np.full(len(ro), opt.weight.name, dtype=object),
     }
     if args.nearest is not None:
         data["rank"] = np.concatenate(rank) if rank else np.zeros(0, np.int64)
@@ -90,7 +91,8 @@ def run(args):
     lines = shapely.linestrings(np.stack([o.xy[oi][ro], d.xy[di][rd]], axis=1)) if len(ro) else []
     layer = gpd.GeoDataFrame(frame, geometry=np.asarray(lines, dtype=object), crs=net.crs)
     write_layers(args.output, {"od_pairs": layer}, overwrite=args.overwrite,
-                 descriptions={"od_pairs": f"least {args.weight} between origins and destinations. {CAUTION}"})
+                 descriptions={"od_pairs": f"least cost ({opt.weight.describes}, {opt.weight.unit}) between origins "
+                                           f"and destinations. {CAUTION}"})
     if args.csv:
         with atomic_path(args.csv, suffix=".csv") as tmp:
             frame.to_csv(tmp, index=False)

@@ -22,23 +22,28 @@ def register(sub):
                                    "comparison outputs only.")
     c.add_argument("study", metavar="STUDY.toml")
     c.add_argument("--scenario", action="append", metavar="NAME", help="a scenario to compare (repeatable)")
-    c.add_argument("-o", "--output", required=True, metavar="OUTDIR")
-    c.add_argument("--overwrite", action="store_true")
-    c.add_argument("--quiet", action="store_true")
+    c.add_argument("-o", "--output", metavar="OUTDIR",
+                   help="output folder (default: geo-reach-out/<study name>-compare beside the study file)")
+    c.add_argument("--overwrite", action="store_true", help="replace a folder that already holds results")
+    c.add_argument("--quiet", action="store_true", help="no progress lines")
     c.set_defaults(func=run_compare)
 
 
-def default_outdir(study_path: Path) -> Path:
-    return study_path.parent / "geo-reach-out" / study_path.stem
+def default_outdir(study_path: Path, suffix: str = "") -> Path:
+    """``geo-reach-out/<study name><suffix>`` beside the study file."""
+    return study_path.parent / "geo-reach-out" / f"{study_path.stem}{suffix}"
 
 
 def run(args):
     from ..pipeline import run_study
     from ..study import load_study
+    from ._progress import StepDisplay
 
     study = load_study(args.study)
     out = Path(args.output) if args.output else default_outdir(Path(args.study))
-    summary = run_study(study, out, overwrite=args.overwrite, progress=not args.quiet)
+    show = StepDisplay(not args.quiet, total=6 + 5 * len(study.scenarios))
+    summary = run_study(study, out, overwrite=args.overwrite, progress=show)
+    show.close()
     print_summary(summary, out)
     return 0
 
@@ -46,15 +51,19 @@ def run(args):
 def run_compare(args):
     from ..pipeline import run_study
     from ..study import load_study
+    from ._progress import StepDisplay
 
     study = load_study(args.study)
     if not study.scenarios:
         from ..errors import InputError
 
         raise InputError(f"file '{args.study}': the study has no [scenarios.NAME] table; add one to compare")
-    summary = run_study(study, Path(args.output), overwrite=args.overwrite, scenarios=args.scenario,
-                        only_comparison=True, progress=not args.quiet)
-    print_summary(summary, Path(args.output))
+    out = Path(args.output) if args.output else default_outdir(Path(args.study), "-compare")
+    show = StepDisplay(not args.quiet, total=6 + 5 * len(args.scenario or study.scenarios))
+    summary = run_study(study, out, overwrite=args.overwrite, scenarios=args.scenario,
+                        only_comparison=True, progress=show)
+    show.close()
+    print_summary(summary, out)
     return 0
 
 

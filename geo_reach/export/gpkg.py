@@ -174,7 +174,7 @@ def write_network(path, result, overwrite: bool = False, issues_only: bool = Fal
     ``issues_only`` (the ``check`` command) only ``network_issues`` is written.
     Every layer's description carries the caution.
     """
-    from .. import CAUTION
+    from .._meta import CAUTION
 
     layers = {} if issues_only else {"edges": result.network.edges_frame(), "nodes": result.network.nodes_frame()}
     layers["network_issues"] = result.issues

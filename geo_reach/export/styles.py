@@ -311,8 +311,9 @@ def sld_for(name: str, frame) -> str | None:
         return reach_bands_sld(frame["band_minutes"], layer=name)
     if name == "weak_regions" and "reason" in cols:
         return weak_regions_sld(frame["reason"], layer=name)
-    if "hub_minutes" in cols and _geometry_kind(frame) == "line" and (name == "edges" or name.endswith("_edges")):
-        return edges_sld(frame["hub_minutes"], layer=name)
+    cost = "hub_cost" if "hub_cost" in cols else "hub_minutes"
+    if cost in cols and _geometry_kind(frame) == "line" and (name == "edges" or name.endswith("_edges")):
+        return edges_sld(frame[cost], layer=name, field=cost)
     if name == "hubs" and "kind" in cols:
         return hubs_sld(frame["kind"], layer=name)
     return None
