@@ -18,7 +18,8 @@ from .network.weights import WEIGHTS, Weight, as_weight  # noqa: E402
 from .network.build import BuildOptions, BuildResult, LayerSpec, build_network, check_layers  # noqa: E402
 from .analysis.attach import attach_points  # noqa: E402
 from .analysis.access import hub_access  # noqa: E402
-from .analysis.routing import nearest_hub, od_matrix, one_to_all, shortest_path  # noqa: E402
+from .analysis.routing import nearest_hub, one_to_all  # noqa: E402
+from .analysis.trips import od_matrix, shortest_path  # noqa: E402
 from .analysis.metrics import diameter, global_efficiency, mean_path  # noqa: E402
 from .analysis.profile import reach_profile  # noqa: E402
 from .analysis.surface import compute_surface  # noqa: E402

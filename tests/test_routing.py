@@ -30,8 +30,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 from helpers.routing_nets import grid, make_network, random_network, to_networkx  # noqa: E402
 
 from geo_reach.analysis.attach import attach_points, walk_cost  # noqa: E402
-from geo_reach.analysis.routing import (nearest_hub, od_matrix, one_to_all,  # noqa: E402
-                                        shortest_path, excluded_edges)
+from geo_reach.analysis import excluded_edges, nearest_hub, od_matrix, one_to_all, shortest_path  # noqa: E402
 from geo_reach.errors import InputError, OptionError  # noqa: E402
 
 RTOL = 1e-9

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from ._common import add_access, add_direction, add_weight, note, report_excluded
 
+__all__ = ["register", "study_from_args", "run"]
+
 
 def register(sub):
     p = sub.add_parser("access", help="nearest hub and the cost to it for every node",

@@ -6,6 +6,8 @@ import sys
 
 from ._common import add_layer_options, add_output_options, emit_json, study_from_layer_args
 
+__all__ = ["register", "run"]
+
 
 def register(sub):
     p = sub.add_parser("check", help="report repairs and suspect spots without building",

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+__all__ = ["register", "repo_root", "run"]
+
 
 def register(sub):
     p = sub.add_parser("demo", help="run the whole analysis on the invented demo region",

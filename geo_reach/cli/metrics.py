@@ -8,6 +8,8 @@ import numpy as np
 from ..analysis.options import MetricsOptions
 from ._common import add_weight, note, print_json, report_excluded
 
+__all__ = ["register", "study_from_args", "run"]
+
 _M = MetricsOptions()
 
 

@@ -8,6 +8,8 @@ from ..errors import OptionError
 from ._common import (add_access, add_weight, note, read_network_arg, read_points_arg, report_excluded, report_left_out,
                       routing_options)
 
+__all__ = ["register", "run"]
+
 
 def register(sub):
     p = sub.add_parser("od", help="origin-destination costs between two point layers",
@@ -36,7 +38,7 @@ def run(args):
 
     from .._meta import CAUTION
     from ..analysis.attach import attach_points
-    from ..analysis.routing import od_matrix
+    from ..analysis.trips import od_matrix
     from ..export.atomic import atomic_path, check_output
     from ..export.gpkg import write_layers
 

@@ -5,6 +5,8 @@ from __future__ import annotations
 from ..errors import OptionError
 from ._common import add_weight, note, print_json, read_network_arg, report_excluded
 
+__all__ = ["register", "run"]
+
 
 def register(sub):
     p = sub.add_parser("profile", help="reach profile: what lies within each cost step of a source",

@@ -7,6 +7,8 @@ import numpy as np
 from ..errors import InputError, OptionError
 from ._common import add_access, add_weight, note, print_json, read_network_arg, report_excluded, routing_options
 
+__all__ = ["register", "run"]
+
 
 def register(sub):
     p = sub.add_parser("route", help="least-cost trip between two points (GeoJSON)",
@@ -47,7 +49,7 @@ def run(args):
 
     from .._meta import CAUTION
     from ..analysis.attach import attach_points
-    from ..analysis.routing import shortest_path
+    from ..analysis.trips import shortest_path
     from ..errors import CRSError
     from ..export.atomic import atomic_path, check_output
 

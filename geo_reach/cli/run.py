@@ -5,6 +5,8 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
+__all__ = ["register", "default_outdir", "run", "run_compare", "print_summary"]
+
 
 def register(sub):
     p = sub.add_parser("run", help="run everything a study file describes",

@@ -12,6 +12,8 @@ from pathlib import Path
 from ..analysis.options import SurfaceOptions
 from ._common import add_access, add_direction
 
+__all__ = ["register", "study_from_args", "run"]
+
 _S = SurfaceOptions()
 
 
