@@ -7,29 +7,44 @@ The Python API in one place::
     cost, hub = gr.nearest_hub(result.network, [0, 42])
     study = gr.load_study("study.toml"); gr.run_study(study, "out/")
 
+Names are imported on first use, so ``import geo_reach`` (and the command
+line's start-up) stays fast.
+
 Results are model estimates; local surveys, codes and licensed professional
 practice decide.
 """
 
-from ._meta import CAUTION, __version__  # noqa: E402
-from .errors import GeoReachError, InputError  # noqa: E402
-from .network.model import Network  # noqa: E402
-from .network.weights import WEIGHTS, Weight, as_weight  # noqa: E402
-from .network.build import BuildOptions, BuildResult, LayerSpec, build_network, check_layers  # noqa: E402
-from .analysis.attach import attach_points  # noqa: E402
-from .analysis.access import hub_access  # noqa: E402
-from .analysis.routing import nearest_hub, one_to_all  # noqa: E402
-from .analysis.trips import od_matrix, shortest_path  # noqa: E402
-from .analysis.metrics import diameter, global_efficiency, mean_path  # noqa: E402
-from .analysis.profile import reach_profile  # noqa: E402
-from .analysis.surface import compute_surface  # noqa: E402
-from .study import load_study  # noqa: E402
-from .pipeline import run_study  # noqa: E402
+from ._meta import CAUTION, __version__
+from .errors import GeoReachError, InputError
 
-__all__ = [
-    "CAUTION", "__version__", "GeoReachError", "InputError", "Network", "WEIGHTS", "Weight", "as_weight",
-    "BuildOptions", "BuildResult", "LayerSpec", "build_network", "check_layers",
-    "attach_points", "hub_access", "nearest_hub", "od_matrix", "one_to_all", "shortest_path",
-    "diameter", "global_efficiency", "mean_path", "reach_profile", "compute_surface",
-    "load_study", "run_study",
-]
+#: Public name -> the module that defines it.
+_API = {
+    "Network": ".network.model", "WEIGHTS": ".network.weights", "Weight": ".network.weights",
+    "as_weight": ".network.weights",
+    "BuildOptions": ".network.build", "BuildResult": ".network.build", "LayerSpec": ".network.build",
+    "build_network": ".network.build", "check_layers": ".network.build", "read_network": ".network.io",
+    "RoutingOptions": ".analysis.options", "MetricsOptions": ".analysis.options",
+    "SurfaceOptions": ".analysis.options",
+    "attach_points": ".analysis.attach", "hub_access": ".analysis.access",
+    "nearest_hub": ".analysis.routing", "one_to_all": ".analysis.routing",
+    "od_matrix": ".analysis.trips", "shortest_path": ".analysis.trips",
+    "diameter": ".analysis.metrics", "global_efficiency": ".analysis.metrics", "mean_path": ".analysis.metrics",
+    "reach_profile": ".analysis.profile", "compute_surface": ".analysis.surface",
+    "load_study": ".study", "run_study": ".pipeline",
+}
+
+__all__ = ["CAUTION", "__version__", "GeoReachError", "InputError", *_API]
+
+
+def __getattr__(name):
+    if name in _API:
+        import importlib
+
+        value = getattr(importlib.import_module(_API[name], __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'geo_reach' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_API))

@@ -46,8 +46,11 @@ class GeoReachError(Exception):
 
     def with_message(self, message: str) -> "GeoReachError":
         """A copy of this error (same class and key) with another message."""
-        err = type(self).__new__(type(self))
-        GeoReachError.__init__(err, message, key=self.key)
+        import copy
+
+        err = copy.copy(self)
+        err.args = (message,)
+        err.key = self.key
         return err
 
 

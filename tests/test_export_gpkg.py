@@ -338,7 +338,7 @@ def test_mixed_single_and_multi_polygons_promoted(tmp_path):
 # ---------------------------------------------------------------- bad input, nothing lost
 def test_refuses_existing_file_without_overwrite(gpkg, layers):
     before = gpkg.read_bytes()
-    with pytest.raises(OutputExistsError, match="already exists; pass --overwrite"):
+    with pytest.raises(OutputExistsError, match="already exists; replace it with overwrite"):
         write_layers(gpkg, {"hubs": layers["hubs"]})
     assert gpkg.read_bytes() == before
 

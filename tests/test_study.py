@@ -263,5 +263,12 @@ def test_a_zero_speed_in_a_line_table_is_refused(tmp_path):
 def test_a_folder_with_other_files_is_never_replaced(tmp_path):
     p = write_study(tmp_path, proposal=False)
     before = sorted(f.name for f in tmp_path.iterdir())
-    one_line_error(["run", p, "-o", tmp_path, "--overwrite"], "not empty")
+    # the folder holding the study and its inputs: refused as holding inputs
+    one_line_error(["run", p, "-o", tmp_path, "--overwrite"], "would hold the input")
     assert sorted(f.name for f in tmp_path.iterdir()) == before
+    # a folder of someone else's files: refused, naming them
+    other = tmp_path / "other"
+    other.mkdir()
+    (other / "notes.txt").write_text("mine")
+    one_line_error(["run", p, "-o", other, "--overwrite"], "geo-reach did not write (notes.txt)")
+    assert [f.name for f in other.iterdir()] == ["notes.txt"]

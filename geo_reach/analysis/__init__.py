@@ -10,20 +10,48 @@ Results are model estimates; local surveys, codes and licensed professional
 practice decide.
 """
 
-from .access import HubAccess, hub_access
-from .attach import Attachment, attach_points
-from .metrics import diameter, global_efficiency, mean_path, network_figures
-from .options import DIRECTIONS, MetricsOptions, RoutingOptions, SurfaceOptions
-from .profile import ReachProfile, reach_profile, sample_profile
-from .routing import NearestHub, excluded_edges, nearest_hub, nearest_hub_route_m, one_to_all
-from .surface import SurfaceResult, compute_surface
-from .trips import ODMatrix, Route, od_matrix, shortest_path
+#: Public name -> the module that defines it (imported on first use, so start-up stays fast).
+_API = {
+    "HubAccess": ".access",
+    "hub_access": ".access",
+    "Attachment": ".attach",
+    "attach_points": ".attach",
+    "diameter": ".metrics",
+    "global_efficiency": ".metrics",
+    "mean_path": ".metrics",
+    "network_figures": ".metrics",
+    "DIRECTIONS": ".options",
+    "MetricsOptions": ".options",
+    "RoutingOptions": ".options",
+    "SurfaceOptions": ".options",
+    "ReachProfile": ".profile",
+    "reach_profile": ".profile",
+    "sample_profile": ".profile",
+    "NearestHub": ".routing",
+    "excluded_edges": ".routing",
+    "nearest_hub": ".routing",
+    "nearest_hub_route_m": ".routing",
+    "one_to_all": ".routing",
+    "SurfaceResult": ".surface",
+    "compute_surface": ".surface",
+    "ODMatrix": ".trips",
+    "Route": ".trips",
+    "od_matrix": ".trips",
+    "shortest_path": ".trips",
+}
 
-__all__ = [
-    "HubAccess", "hub_access", "Attachment", "attach_points",
-    "diameter", "global_efficiency", "mean_path", "network_figures",
-    "DIRECTIONS", "MetricsOptions", "RoutingOptions", "SurfaceOptions",
-    "ReachProfile", "reach_profile", "sample_profile",
-    "NearestHub", "excluded_edges", "nearest_hub", "nearest_hub_route_m", "one_to_all",
-    "SurfaceResult", "compute_surface", "ODMatrix", "Route", "od_matrix", "shortest_path",
-]
+__all__ = list(_API)
+
+
+def __getattr__(name):
+    if name in _API:
+        import importlib
+
+        value = getattr(importlib.import_module(_API[name], __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_API))

@@ -9,7 +9,9 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import re
+import signal
 import sys
 
 from ..errors import GeoReachError, InputError
@@ -87,7 +89,41 @@ def _join_signed(argv):
     return out
 
 
+class _Signalled(KeyboardInterrupt):
+    """Raised in the main thread when SIGINT or SIGTERM arrives (the temporaries are then removed)."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _on_signal(signum, _frame):
+    # A second signal while the first unwinds must not interrupt the clean-up.
+    for s in (signal.SIGINT, signal.SIGTERM):
+        signal.signal(s, signal.SIG_IGN)
+    raise _Signalled(signum)
+
+
 def main(argv=None) -> int:
+    """Run one command; return its exit status (0 done, 2 refused, 130/143 interrupted, 1 internal error)."""
+    old = {s: signal.signal(s, _on_signal) for s in (signal.SIGINT, signal.SIGTERM)}
+    try:
+        return _main(argv)
+    except KeyboardInterrupt as err:
+        signum = getattr(err, "signum", signal.SIGINT)
+        print("geo-reach: interrupted; nothing was written (outputs are replaced only when complete)",
+              file=sys.stderr)
+        sys.stderr.flush()
+        sys.stdout.flush()
+        if argv is None:   # the console command: leave at once, without running library finalisers
+            os._exit(128 + signum)
+        return 128 + signum
+    finally:
+        for s, h in old.items():
+            signal.signal(s, h)
+
+
+def _main(argv) -> int:
     from ._progress import setup_logging
 
     parser = build_parser()
@@ -101,6 +137,3 @@ def main(argv=None) -> int:
     except GeoReachError as err:
         print(f"geo-reach: internal error: {' '.join(str(err).split())}", file=sys.stderr)
         return 1
-    except KeyboardInterrupt:
-        print("geo-reach: interrupted; outputs were not written", file=sys.stderr)
-        return 130

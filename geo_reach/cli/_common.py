@@ -21,7 +21,7 @@ from ..network.weights import WEIGHT_NAMES, as_weight
 
 __all__ = ["add_layer_options", "add_output_options", "add_weight", "add_direction", "add_access",
            "routing_options", "study_from_layer_args", "emit_json", "print_json", "parse_class_speeds",
-           "note", "report_excluded", "report_left_out", "read_network_arg", "read_points_arg"]
+           "note", "report_excluded", "report_left_out", "read_network_arg", "read_points_arg", "check_layer_io"]
 
 _R = RoutingOptions()
 _B = BuildOptions()
@@ -159,6 +159,14 @@ def parse_class_speeds(text):
         if not sep or not out[k.strip()] > 0:
             raise argparse.ArgumentTypeError(f"'{item}' is not CLASS=KMH with a positive speed")
     return out
+
+
+def check_layer_io(args, what: str) -> None:
+    """``build``/``check``: the layers (and stations) are inputs; ``-o`` and ``--report`` outputs."""
+    from ..export.guard import check_io
+
+    check_io(inputs=[*args.layers, args.stations], files=[(args.output, what), (args.report, "report")],
+             overwrite=args.overwrite)
 
 
 def study_from_layer_args(args):

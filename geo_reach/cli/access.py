@@ -51,11 +51,11 @@ def run(args):
 
     from .._meta import CAUTION
     from ..errors import LayerError
-    from ..export.atomic import check_output
     from ..export.gpkg import write_layers
+    from ..export.guard import check_io
     from ..pipeline import analyse, build_or_read, read_hubs
 
-    check_output(args.output, args.overwrite)
+    check_io(inputs=[args.network, args.hubs], files=[(args.output, "GeoPackage")], overwrite=args.overwrite)
     study = study_from_args(args)
     built = build_or_read(study, [])
     net = built.network

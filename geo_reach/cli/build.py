@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from ._common import add_layer_options, add_output_options, emit_json, study_from_layer_args
+from ._common import add_layer_options, add_output_options, check_layer_io, emit_json, print_json, study_from_layer_args
 
 __all__ = ["register", "run"]
 
@@ -19,17 +19,19 @@ def register(sub):
 
 
 def run(args):
-    from ..export.atomic import check_output
+    from ..export.atomic import OutputSet
     from ..export.gpkg import write_network
     from ..pipeline import build_or_read, layer_specs
 
-    check_output(args.output, args.overwrite)
-    if args.report:
-        check_output(args.report, True, "report")
+    check_layer_io(args, "GeoPackage")
     study = study_from_layer_args(args)
     result = build_or_read(study, layer_specs(study))
-    write_network(args.output, result, overwrite=args.overwrite)
-    emit_json(result.report, args.report, stdout=args.json)
+    with OutputSet([args.output, args.report]) as out:
+        write_network(out.path(args.output), result)
+        if args.report:
+            emit_json(result.report, out.path(args.report))
+    if args.json:
+        print_json(result.report)
     if not args.json:
         r = result.report
         kinds = ", ".join(f"{k} {v}" for k, v in r["issues"].items() if v)

@@ -10,8 +10,10 @@ __all__ = ["register", "repo_root", "run"]
 def register(sub):
     p = sub.add_parser("demo", help="run the whole analysis on the invented demo region",
                        description="Run data_samples/study.toml (an invented region) with its proposed line "
-                                   "as a scenario, replacing maps/demo/.")
+                                   "as a scenario, into maps/demo/ (the same rules as geo-reach run).")
     p.add_argument("-o", "--output", default=None, metavar="OUTDIR", help="output folder (default maps/demo)")
+    p.add_argument("--overwrite", action="store_true",
+                   help="replace a folder that holds results geo-reach wrote (never one holding other files)")
     p.add_argument("--quiet", action="store_true")
     p.set_defaults(func=run)
 
@@ -35,9 +37,8 @@ def run(args):
     from ._progress import StepDisplay
 
     study = load_study(study_path)
-    # The demo replaces its own outputs on every run.
     show = StepDisplay(not args.quiet, total=6 + 5 * len(study.scenarios))
-    summary = run_study(study, out, overwrite=True, progress=show)
+    summary = run_study(study, out, overwrite=args.overwrite, progress=show)
     show.close()
     print_summary(summary, out)
     return 0

@@ -34,11 +34,11 @@ def register(sub):
 
 
 def run(args):
-    from ..export.atomic import check_output
+    from ..export.guard import check_io
     from ..pipeline.starter import starter_study, write_checked
 
     out = Path(args.output)
-    check_output(out, args.overwrite, "study file")
+    check_io(inputs=args.layers, files=[(out, "study file")], overwrite=args.overwrite)
     text, notes = starter_study(args.layers, out)
     write_checked(out, text)
     print(f"wrote {out}", file=sys.stdout)

@@ -47,11 +47,10 @@ def study_from_args(args):
 
 def run(args):
     from .._meta import CAUTION
-    from ..export.atomic import check_output
+    from ..export.guard import check_io
     from ..pipeline import analyse, build_or_read
 
-    if args.output:
-        check_output(args.output, args.overwrite)
+    check_io(inputs=[args.network], files=[(args.output, "GeoPackage")], overwrite=args.overwrite)
     study = study_from_args(args)
     built = build_or_read(study, [])
     net = built.network

@@ -39,14 +39,14 @@ def run(args):
     from .._meta import CAUTION
     from ..analysis.attach import attach_points
     from ..analysis.trips import od_matrix
-    from ..export.atomic import atomic_path, check_output
+    from ..export.atomic import OutputSet
     from ..export.gpkg import write_layers
+    from ..export.guard import check_io
 
     if args.nearest is not None and args.nearest < 1:
         raise OptionError(f"--nearest {args.nearest}: give 1 or more")
-    check_output(args.output, args.overwrite)
-    if args.csv:
-        check_output(args.csv, args.overwrite, "CSV file")
+    check_io(inputs=[args.network, args.origins, args.destinations],
+             files=[(args.output, "GeoPackage"), (args.csv, "CSV file")], overwrite=args.overwrite)
     opt = routing_options(args)
     net = read_network_arg(args.network, opt.weight)
     report_excluded(net, opt.weight)
@@ -92,12 +92,12 @@ def run(args):
             frame[col] = frame[col].astype(np.int64)
     lines = shapely.linestrings(np.stack([o.xy[oi][ro], d.xy[di][rd]], axis=1)) if len(ro) else []
     layer = gpd.GeoDataFrame(frame, geometry=np.asarray(lines, dtype=object), crs=net.crs)
-    write_layers(args.output, {"od_pairs": layer}, overwrite=args.overwrite,
-                 descriptions={"od_pairs": f"least cost ({opt.weight.describes}, {opt.weight.unit}) between origins "
-                                           f"and destinations. {CAUTION}"})
-    if args.csv:
-        with atomic_path(args.csv, suffix=".csv") as tmp:
-            frame.to_csv(tmp, index=False)
+    with OutputSet([args.output, args.csv]) as out:
+        write_layers(out.path(args.output), {"od_pairs": layer},
+                     descriptions={"od_pairs": f"least cost ({opt.weight.describes}, {opt.weight.unit}) between "
+                                               f"origins and destinations. {CAUTION}"})
+        if args.csv:
+            frame.to_csv(out.path(args.csv), index=False)
     none = int((~np.isfinite(c)).sum())
     note(f"od: {len(frame)} pairs ({len(oi)} origins x {'K nearest' if args.nearest else len(di)} destinations), "
          f"{none} without a path -> {args.output}{' and ' + args.csv if args.csv else ''}")

@@ -34,13 +34,12 @@ def run(args):
     from .._meta import CAUTION
     from ..analysis.profile import random_sources, sample_profile
     from ..analysis.routing import check_nodes
-    from ..export.atomic import check_output
     from ..export.charts import plot_profile
+    from ..export.guard import check_io
 
     if (args.source is None) == (args.sample is None):
         raise OptionError("give a source node with --from NODE_ID, or --sources K for K random sources")
-    if args.png:
-        check_output(args.png, args.overwrite, "chart")
+    check_io(inputs=[args.network], files=[(args.png, "chart")], overwrite=args.overwrite)
     net = read_network_arg(args.network, args.weight)
     report_excluded(net, args.weight)
     if args.source is not None:

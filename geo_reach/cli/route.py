@@ -51,10 +51,10 @@ def run(args):
     from ..analysis.attach import attach_points
     from ..analysis.trips import shortest_path
     from ..errors import CRSError
-    from ..export.atomic import atomic_path, check_output
+    from ..export.atomic import atomic_path
+    from ..export.guard import check_io
 
-    if args.output:
-        check_output(args.output, args.overwrite)
+    check_io(inputs=[args.network], files=[(args.output, "route file")], overwrite=args.overwrite)
     try:
         src = CRS.from_user_input(args.crs) if args.crs else CRS.from_epsg(4326)
     except ProjCRSError as err:

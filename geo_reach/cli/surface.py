@@ -137,6 +137,11 @@ def run(args):
     from ..pipeline import run_surface
     from ._progress import StepDisplay
 
+    from ..export.guard import check_io
+
+    speeds = args.landcover_speeds if args.landcover_speeds and Path(args.landcover_speeds).is_file() else None
+    check_io(inputs=[args.network, args.hubs, args.terrain, args.landcover, speeds, args.barriers, args.population,
+                     args.settlements, args.zones], folder=args.output, overwrite=args.overwrite)
     study = study_from_args(args)
     show = StepDisplay(not args.quiet)
     s = run_surface(study, Path(args.output), overwrite=args.overwrite, progress=show)

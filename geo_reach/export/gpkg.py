@@ -142,6 +142,9 @@ def write_layers(path, layers: Mapping[str, pd.DataFrame], overwrite: bool = Fal
         raise OptionError(f"{where(path)}layer names repeat")
     prepared = {n: _prepare(path, n, layers[n]) for n in names}
     check_output(path, overwrite, "GeoPackage")
+    from .stamp import _tell_gdal, current_output_time
+
+    _tell_gdal(current_output_time())   # gpkg_contents.last_change: the run's fixed time, not the clock
     descriptions = dict(descriptions or {})
 
     with atomic_path(path, suffix=".gpkg") as tmp:

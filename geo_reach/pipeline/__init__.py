@@ -17,7 +17,7 @@ practice decide.
 from .inputs import (Hubs, build_or_read, layer_ref, layer_specs, load_rasters, merge_hubs, read_hubs,
                      read_settlements, settlement_population, study_grid)
 from .outputs import nodes_layer, summarise, write_outputs, write_surface_outputs
-from .run import Progress, check_outdir, holds_results, run_study, run_surface
+from .run import Progress, check_outdir, run_study, run_surface
 from .scenarios import compare, edges_layer, rank_scenarios, scenario_inputs
 from .steps import ALL_STEPS, Analysis, analyse, path_frame
 
@@ -27,5 +27,5 @@ __all__ = [
     "ALL_STEPS", "Analysis", "analyse", "path_frame",
     "compare", "edges_layer", "rank_scenarios", "scenario_inputs",
     "nodes_layer", "summarise", "write_outputs", "write_surface_outputs",
-    "Progress", "check_outdir", "holds_results", "run_study", "run_surface",
+    "Progress", "check_outdir", "run_study", "run_surface",
 ]

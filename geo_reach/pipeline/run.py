@@ -21,7 +21,7 @@ from .outputs import sha256, summarise, write_outputs, write_surface_outputs
 from .scenarios import compare, rank_scenarios, scenario_inputs
 from .steps import analyse
 
-__all__ = ["run_study", "run_surface", "check_outdir", "holds_results", "Progress"]
+__all__ = ["run_study", "run_surface", "check_outdir", "Progress"]
 
 log = logging.getLogger("geo_reach")
 
@@ -42,34 +42,16 @@ class Progress:
             self.callback(text)
 
 
-def holds_results(folder) -> bool:
-    """A folder holds results when it contains ``summary.json`` or ``results.gpkg``."""
-    folder = Path(folder)
-    return folder.is_dir() and ((folder / "summary.json").exists() or (folder / "results.gpkg").exists())
+def check_outdir(study: Study, outdir, overwrite: bool) -> None:
+    """Refuse, before any work, a results folder that would destroy an input or files geo-reach did not write.
 
+    See :func:`geo_reach.export.guard.check_io`: the study file and every
+    file it names are inputs.
+    """
+    from ..export.guard import check_io
 
-def check_outdir(outdir: Path, overwrite: bool):
-    """Refuse, before any work, an output folder that cannot be written or already holds results."""
-    import os
-
-    outdir = Path(outdir)
-    if outdir.exists() and not outdir.is_dir():
-        raise InputError(f"file '{outdir}': is a file, not a folder; choose another output folder")
-    anc = outdir
-    while not anc.exists():
-        anc = anc.parent
-    if not anc.is_dir():
-        raise InputError(f"file '{outdir}': '{anc}' is a file, so the folder cannot be made there; "
-                         "choose another output folder")
-    if not os.access(anc, os.W_OK | os.X_OK):
-        raise InputError(f"file '{outdir}': '{anc}' is not writable; choose another output folder")
-    if holds_results(outdir) and not overwrite:
-        raise InputError(f"file '{outdir}': the folder already holds results; allow overwrite to replace them",
-                         key="overwrite")
-    if outdir.is_dir() and not holds_results(outdir) and any(outdir.iterdir()):
-        # The whole folder is replaced at the end of a run: never one holding other files.
-        raise InputError(f"file '{outdir}': the folder is not empty and holds no geo-reach results; "
-                         "choose a new or empty folder")
+    inputs = ([study.path] if study.path is not None else []) + list(study.input_files())
+    check_io(inputs=inputs, folder=outdir, overwrite=overwrite)
 
 
 def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_comparison=False,
@@ -106,7 +88,7 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
 def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
     from ..export.atomic import atomic_dir
 
-    check_outdir(outdir, overwrite)
+    check_outdir(study, outdir, overwrite)
     names = list(study.scenarios) if scenarios is None else list(scenarios)
     for n in names:
         if n not in study.scenarios:
@@ -178,7 +160,7 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=None) -> dict
     from ..export.atomic import atomic_dir
 
     outdir = Path(outdir)
-    check_outdir(outdir, overwrite)
+    check_outdir(study, outdir, overwrite)
     if study.surface is None or study.hubs is None:
         raise InputError("a surface needs hubs and a [surface] table")
     bar = Progress(progress)
