@@ -17,6 +17,33 @@ practice decide.
 from ._meta import CAUTION, __version__
 from .errors import GeoReachError, InputError
 
+
+def _numba_cache_dir() -> None:
+    """Compiled kernels are cached beside the package; where that is read-only (a system install, a
+    read-only home), cache them in a writable folder instead (numba reads ``NUMBA_CACHE_DIR`` when it
+    is first imported, so this runs before any kernel module)."""
+    import os
+    import tempfile
+
+    if os.environ.get("NUMBA_CACHE_DIR"):
+        return
+    here = os.path.dirname(os.path.abspath(__file__))
+    if os.access(here, os.W_OK):
+        return
+    for base in (os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache"),
+                 tempfile.gettempdir()):
+        folder = os.path.join(base, "geo-reach-numba")
+        try:
+            os.makedirs(folder, exist_ok=True)
+        except OSError:
+            continue
+        if os.access(folder, os.W_OK):
+            os.environ["NUMBA_CACHE_DIR"] = folder
+            return
+
+
+_numba_cache_dir()
+
 #: Public name -> the module that defines it.
 _API = {
     "Network": ".network.model", "WEIGHTS": ".network.weights", "Weight": ".network.weights",

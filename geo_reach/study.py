@@ -385,6 +385,7 @@ def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str |
                 for k in ("speed_kmh", "speed_factor"):
                     if k in item and item[k] <= 0:
                         raise InputError(f"{at}.{k}: must be positive; close the features instead")
+    _check_names_and_crs(raw, where_, loc)
     study = Study(path=path, raw=raw, base=base, title=raw.get("title", path.stem if path else "geo-reach study"),
                   lines=list(raw.get("lines", [])), hubs=raw.get("hubs"), settlements=raw.get("settlements"),
                   zones=raw.get("zones"), scenarios=dict(raw.get("scenarios", {})))
@@ -406,6 +407,43 @@ def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str |
             raise err.with_message(f"{where_}{err}") from err
         raise blamed from err
     return study
+
+
+#: Scenario names: they become layer, raster and sheet names, so letters, digits, '_' and '-' only.
+SCENARIO_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_-]{0,39}$")
+
+
+def _check_names_and_crs(raw: dict, where_: str, loc) -> None:
+    """Scenario names usable as layer names, and every CRS string one pyproj knows (before any work)."""
+    from .ingest.layers import parse_crs
+
+    def line(dotted):
+        n = loc.line_of(dotted) if loc else None
+        return f" (line {n})" if n else ""
+
+    for name in raw.get("scenarios", {}):
+        if not SCENARIO_NAME.match(name):
+            shown = name if len(name) <= 40 else name[:40] + "..."
+            raise InputError(f"{where_}scenarios.{shown!r}{line('scenarios.' + name)}: a scenario name must start "
+                             "with a letter and hold only letters, digits, '_' and '-' (at most 40); it names "
+                             "layers and files. Put a longer text in its description")
+    checks = [("network.crs", raw.get("network", {}).get("crs"))]
+    for i, t in enumerate(raw.get("lines", [])):
+        checks.append((f"lines[{i}].assume_crs", t.get("assume_crs")))
+    for key in ("hubs", "settlements", "zones"):
+        if isinstance(raw.get(key), dict):
+            checks.append((f"{key}.assume_crs", raw[key].get("assume_crs")))
+    for name, sc in raw.get("scenarios", {}).items():
+        for i, t in enumerate(sc.get("add_lines", [])):
+            checks.append((f"scenarios.{name}.add_lines[{i}].assume_crs", t.get("assume_crs")))
+        if isinstance(sc.get("add_hubs"), dict):
+            checks.append((f"scenarios.{name}.add_hubs.assume_crs", sc["add_hubs"].get("assume_crs")))
+    for dotted, value in checks:
+        if value is not None:
+            try:
+                parse_crs(value, dotted)
+            except InputError as err:
+                raise InputError(f"{where_}{dotted}{line(dotted)}: {str(err)[len(dotted) + 1:]}") from err
 
 
 def load_study(path) -> Study:

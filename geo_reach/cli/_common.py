@@ -21,7 +21,7 @@ from ..network.weights import WEIGHT_NAMES, as_weight
 
 __all__ = ["add_layer_options", "add_output_options", "add_weight", "add_direction", "add_access",
            "routing_options", "study_from_layer_args", "emit_json", "print_json", "parse_class_speeds",
-           "note", "report_excluded", "report_left_out", "read_network_arg", "read_points_arg", "check_layer_io"]
+           "note", "report_excluded", "report_left_out", "read_network_arg", "read_points_arg", "check_layer_io", "crs_arg"]
 
 _R = RoutingOptions()
 _B = BuildOptions()
@@ -111,6 +111,19 @@ def report_excluded(net, weight) -> int:
 
 
 # ------------------------------------------------------------------ build options
+def crs_arg(text):
+    """argparse ``type=`` for a CRS option: checked with pyproj here, kept as typed."""
+    from ..errors import CRSError
+    from ..ingest.layers import parse_crs
+
+    try:
+        parse_crs(text)
+    except CRSError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a coordinate reference system pyproj knows; give one "
+                                         "such as EPSG:32633") from None
+    return text
+
+
 def add_layer_options(p):
     g = p.add_argument_group("network layers (options apply to every LAYER given)")
     g.add_argument("layers", nargs="+", metavar="LAYER", help="line layer: path or path:layername")
@@ -125,9 +138,9 @@ def add_layer_options(p):
     g.add_argument("--all-season-field", help="field flagging all-season roads (1/0, yes/no)")
     g.add_argument("--stations", metavar="LAYER", help="rail stations / cable access nodes (point layer)")
     g.add_argument("--boarding-minutes", type=float, default=0.0, help="rail boarding penalty in minutes (default 0)")
-    g.add_argument("--assume-crs", metavar="EPSG:NNNN", help="CRS for layers that have none")
+    g.add_argument("--assume-crs", metavar="EPSG:NNNN", type=crs_arg, help="CRS for layers that have none")
     t = p.add_argument_group("topology (metres on the ground)")
-    t.add_argument("--crs", metavar="EPSG:NNNN", help="metric working CRS (default: UTM zone of the data's centre)")
+    t.add_argument("--crs", metavar="EPSG:NNNN", type=crs_arg, help="metric working CRS (default: UTM zone of the data's centre)")
     t.add_argument("--snap-m", type=float, default=_B.snap_m,
                    help=f"join line ends closer than this (default {_B.snap_m:g})")
     t.add_argument("--dangle-m", type=float, help="report dead ends shorter than this (default 10 x --snap-m)")

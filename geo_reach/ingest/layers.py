@@ -13,7 +13,7 @@ from pathlib import Path
 
 from ..errors import CRSError, InputError, LayerError, MissingInputError, where
 
-__all__ = ["LayerRef", "parse_layer_ref", "list_layers", "read_frame", "read_layer", "GEOM_FAMILIES"]
+__all__ = ["LayerRef", "parse_layer_ref", "list_layers", "read_frame", "read_layer", "parse_crs", "GEOM_FAMILIES"]
 
 GEOM_FAMILIES = {
     "lines": {"LineString", "MultiLineString", "LinearRing"},
@@ -129,7 +129,6 @@ def read_layer(ref, expect: str = "lines", assume_crs=None, allow_empty: bool = 
     ------
     MissingInputError, LayerError, CRSError
     """
-    from pyproj import CRS
 
     ref = parse_layer_ref(ref)
     gdf = read_frame(ref.path, ref.layer)
@@ -153,6 +152,30 @@ def read_layer(ref, expect: str = "lines", assume_crs=None, allow_empty: bool = 
     if gdf.crs is None:
         if assume_crs is None:
             raise CRSError(f"{loc}the layer has no CRS (a Shapefile without its .prj?); "
-                           "add one in a GIS or pass --assume-crs EPSG:NNNN")
-        gdf = gdf.set_crs(CRS.from_user_input(assume_crs))
+                           "add one in a GIS or give assume_crs (e.g. EPSG:32633)", key="assume_crs")
+        gdf = gdf.set_crs(parse_crs(assume_crs, "assume_crs"))
     return gdf
+
+
+def parse_crs(value, key: str = "crs"):
+    """A :class:`pyproj.CRS` from what the user gave (``EPSG:32633``, WKT, PROJ string ...).
+
+    Raises
+    ------
+    CRSError
+        pyproj does not know it; the message names the option (``key``) and
+        gives an example.
+
+    Examples
+    --------
+    >>> parse_crs("EPSG:32633").to_epsg()
+    32633
+    """
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError as ProjCRSError
+
+    try:
+        return CRS.from_user_input(value)
+    except (ProjCRSError, TypeError, ValueError) as err:
+        raise CRSError(f"{key} {str(value)[:80]!r}: not a coordinate reference system pyproj knows; give one "
+                       "such as EPSG:32633", key=key) from err

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import InputError, LayerError, MissingInputError, where
+from ..errors import LayerError, MissingInputError, where
 
 __all__ = ["Points", "read_points"]
 

@@ -169,8 +169,14 @@ def settlement_population(study: Study, grid) -> np.ndarray:
     return pop
 
 
-def study_grid(study: Study, net, hubs: Hubs, pop_layer=None):
-    """The analysis grid: bounds of network, hubs and population raster plus the margin (or the extent)."""
+def study_grid(study: Study, net, hubs: Hubs, pop_bounds=None):
+    """The analysis grid: bounds of network, hubs and population raster plus the margin (or the extent).
+
+    ``pop_bounds`` is the population raster's ``(bounds, crs)`` (from
+    :func:`~geo_reach.ingest.rasters.raster_bounds`); the grid is then large
+    enough for every person in it, and the refusal when that is too large
+    for memory names the size.
+    """
     from ..ingest.rasters import Grid
 
     s = study.surface
@@ -180,13 +186,10 @@ def study_grid(study: Study, net, hubs: Hubs, pop_layer=None):
     else:
         xs = [net.node_x.min(), net.node_x.max(), hubs.xy[:, 0].min(), hubs.xy[:, 0].max()]
         ys = [net.node_y.min(), net.node_y.max(), hubs.xy[:, 1].min(), hubs.xy[:, 1].max()]
-        if pop_layer is not None:
+        if pop_bounds is not None:
             from rasterio.warp import transform_bounds
 
-            h, w = pop_layer.data.shape
-            t = pop_layer.transform
-            b = (t.c, t.f + t.e * h, t.c + t.a * w, t.f)
-            b = transform_bounds(pop_layer.crs, net.crs, *b)
+            b = transform_bounds(pop_bounds[1], net.crs, *pop_bounds[0], densify_pts=21)
             xs += [b[0], b[2]]
             ys += [b[1], b[3]]
         bounds = (min(xs), min(ys), max(xs), max(ys))
@@ -197,30 +200,39 @@ def study_grid(study: Study, net, hubs: Hubs, pop_layer=None):
 def load_rasters(study: Study, net, hubs: Hubs) -> dict:
     """Read and resample the study's rasters once (the grid is shared by the scenarios).
 
-    Returns a dict with ``grid`` and, where the study names them,
-    ``population``, ``terrain``, ``landcover`` (class codes, -1 = none) and
-    ``barriers`` (polygons in the working CRS).
+    Only the window of each raster that covers the grid is read.  Returns a
+    dict with ``grid`` and, where the study names them, ``population``,
+    ``terrain``, ``landcover`` (class codes, -1 = none), ``barriers``
+    (polygons in the working CRS) and ``notes`` (what was read as no data).
     """
-    from ..ingest.rasters import read_raster, resample_to_grid
+    from ..ingest.rasters import raster_bounds, read_raster, resample_to_grid
 
     files = study.surface_files
     margin = study.surface.margin_m
-    pop_layer = read_raster(study.resolve(files["population"])) if "population" in files else None
-    if pop_layer is not None:
-        _check_overlap(pop_layer, net, margin)
-    grid = study_grid(study, net, hubs, pop_layer)
-    out = {"grid": grid}
-    if pop_layer is not None:
-        out["population"] = resample_to_grid(pop_layer, grid, "population").data
+    pop_bounds = None
+    if "population" in files:
+        pop_bounds = raster_bounds(study.resolve(files["population"]))
+        _check_overlap(study.resolve(files["population"]), pop_bounds, net, margin)
+    grid = study_grid(study, net, hubs, pop_bounds)
+    out = {"grid": grid, "notes": []}
+
+    def read(key):
+        path = study.resolve(files[key])
+        _check_overlap(path, raster_bounds(path), net, margin)
+        return read_raster(path, within=(grid.bounds, grid.crs))
+
+    if pop_bounds is not None:
+        res = resample_to_grid(read("population"), grid, "population")
+        out["population"] = res.data
+        if res.nonfinite:
+            out["notes"].append(f"file '{study.resolve(files['population'])}': {res.nonfinite:,} cells hold NaN or "
+                                "infinity without being the raster's nodata value; they count as no people "
+                                "(declare them nodata or fix the raster)")
     if "terrain" in files:
-        tl = read_raster(study.resolve(files["terrain"]))
-        _check_overlap(tl, net, margin)
-        out["terrain"] = resample_to_grid(tl, grid, "terrain").data
+        out["terrain"] = resample_to_grid(read("terrain"), grid, "terrain").data
     if "landcover" in files:
-        ll = read_raster(study.resolve(files["landcover"]))
-        _check_overlap(ll, net, margin)
-        lc = resample_to_grid(ll, grid, "classes").data
-        out["landcover"] = np.where(np.isnan(lc), -1, lc).astype(np.int64)
+        lc = resample_to_grid(read("landcover"), grid, "classes").data
+        out["landcover"] = np.where(np.isnan(lc), -1, lc).astype(np.int64) if lc.dtype.kind == "f" else lc
     if "barriers" in files:
         from ..ingest.layers import parse_layer_ref, read_layer
 
@@ -231,19 +243,16 @@ def load_rasters(study: Study, net, hubs: Hubs) -> dict:
     return out
 
 
-def _check_overlap(layer, net, margin_m):
+def _check_overlap(path, bounds_crs, net, margin_m):
     """Refuse a raster lying wholly outside the network's extent (plus the margin)."""
     from rasterio.warp import transform_bounds
 
-    h, w = layer.data.shape
-    t = layer.transform
-    xs = (t.c, t.c + t.a * w)
-    ys = (t.f, t.f + t.e * h)
-    b = transform_bounds(layer.crs, net.crs, min(xs), min(ys), max(xs), max(ys))
+    (bounds, crs) = bounds_crs
+    b = transform_bounds(crs, net.crs, *bounds, densify_pts=21)
     nb = (net.node_x.min() - margin_m, net.node_y.min() - margin_m, net.node_x.max() + margin_m,
           net.node_y.max() + margin_m)
     if b[0] > nb[2] or b[2] < nb[0] or b[1] > nb[3] or b[3] < nb[1]:
-        raise InputError(f"file '{layer.path}': the raster does not overlap the network "
+        raise InputError(f"file '{path}': the raster does not overlap the network "
                          f"(raster {b[0]:.0f},{b[1]:.0f} - {b[2]:.0f},{b[3]:.0f}; network "
                          f"{nb[0]:.0f},{nb[1]:.0f} - {nb[2]:.0f},{nb[3]:.0f} in {net.crs.to_string()}); "
                          "check the raster's CRS and extent")

@@ -163,6 +163,7 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
         rasters = load_rasters(study, net, hubs)
     grid = rasters["grid"]
     out.grid = grid
+    out.notes += list(rasters.get("notes", []))
     kw = dict(walk_kmh=routing.walk_kmh, terrain=rasters.get("terrain"), landcover=rasters.get("landcover"),
               landcover_speeds={int(k): float(v) for k, v in files.get("landcover_speeds", {}).items()} or None,
               barriers=rasters.get("barriers"), direction=routing.direction)
