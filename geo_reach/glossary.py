@@ -179,6 +179,33 @@ TERMS: tuple[Term, ...] = (
     _t("people_newly_within", "People newly within the threshold thanks to the change.", "people",
        "chosen_sites, scenarios"),
     _t("person_minutes_saved", "Sum over people of the minutes saved.", "person-minutes", "chosen_sites, scenarios"),
+    # ---------------------------------------------------------------- tables, rasters, report (planner-ready files)
+    _t("network_length_km", "network_length_m in kilometres, rounded to 0.1 km (the tables for people).", "km",
+       "settlements.csv, tables.xlsx"),
+    _t("nearest_hub_name_<kind>", "Name of the nearest hub of that kind.", "", "settlements.csv, tables.xlsx"),
+    _t("hub_kind", "The kind of hub a row's figures are for; 'any' = the nearest hub of whatever kind.", "",
+       "<scenario>_settlements.csv, <scenario>_zones.csv"),
+    _t("value", "Cell value of a category raster: the hub number 1..n (0 = no hub reachable).", "",
+       "nearest_hub.tif raster attribute table, nearest_hub.sld"),
+    _t("settlements.csv", "Per settlement: minutes and network km to the nearest hub (and per kind), hub ids and "
+                          "names; rounded for reports; line 1 is the caution.", "", "results folder"),
+    _t("zones.csv", "Per district: people, shares within each band, people beyond, mean minutes; rounded; "
+                    "line 1 is the caution.", "", "results folder"),
+    _t("<scenario>_settlements.csv", "Per settlement and hub kind: before, after and change with the scenario.",
+       "", "results and comparison folders"),
+    _t("<scenario>_zones.csv", "Per district and hub kind: before, after and change with the scenario.", "",
+       "results and comparison folders"),
+    _t("tables.xlsx", "The tables as a workbook: sheets about (caution, columns), settlements, zones and "
+                      "<scenario>_settlements / <scenario>_zones per scenario.", "", "results and comparison folders"),
+    _t("report.html", "The printable report: key figures, charts, district table, weak regions, scenario ranking "
+                      "and an overview map; one offline file.", "", "results and comparison folders"),
+    _t("nearest_hub.sld", "Style for nearest_hub.tif (and nearest_<kind>.sld for each kind's raster): one "
+                          "labelled colour per hub.", "", "results folder"),
+    _t("NETWORK.edges.parquet", "The edges layer as GeoParquet, one file per layer (build -o NETWORK.parquet "
+                                "writes NETWORK.edges.parquet, NETWORK.nodes.parquet, NETWORK.network_issues.parquet).",
+       "", "build, check"),
+    _t("NETWORK.nodes.parquet", "The nodes layer as GeoParquet.", "", "build"),
+    _t("NETWORK.network_issues.parquet", "The network_issues layer as GeoParquet.", "", "build, check"),
 )
 
 

@@ -116,12 +116,17 @@ def _write_deltas(folder: Path, base: Analysis, scenarios: dict):
                       np.nan)
 
 
-def _write_tables(folder: Path, a: Analysis):
-    """The tables planners paste into reports: ``settlements.csv`` and ``zones.csv``."""
-    if a.settlements is not None:
-        a.settlements.drop(columns="geometry").to_csv(folder / "settlements.csv", index=False)
-    if a.zones is not None:
-        a.zones.zones.drop(columns="geometry", errors="ignore").to_csv(folder / "zones.csv", index=False)
+def _write_tables(folder: Path, study: Study, a: Analysis, scenarios: dict | None = None, baseline: bool = True):
+    """The tables planners paste into reports: ``settlements.csv``, ``zones.csv``, ``<scenario>_settlements.csv``,
+    ``<scenario>_zones.csv`` (rounded, see :mod:`geo_reach.export.tables`) and all of them in ``tables.xlsx``."""
+    from ..export.tables import results_tables, write_csv
+    from ..export.xlsx import write_workbook
+
+    tables = results_tables(study, a, {n: sc.get("tables") for n, sc in (scenarios or {}).items()},
+                            baseline=baseline)
+    for stem, t in tables.items():
+        write_csv(folder / f"{stem}.csv", t)
+    write_workbook(folder / "tables.xlsx", tables, title=study.title)
 
 
 def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, summary: dict,
@@ -144,6 +149,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
             write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
             write_styles(gpkg, layers)
         _write_deltas(folder, base, scenarios)
+        _write_tables(folder, study, base, scenarios, baseline=False)
         if study.outputs.map:
             _write_map(folder / "map.html", study, base, scenarios)
         write_summary(folder, summary)
@@ -166,7 +172,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     gpkg = folder / "results.gpkg"
     write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
     write_styles(gpkg, layers)
-    _write_tables(folder, base)
+    _write_tables(folder, study, base, scenarios)
     if base.surface is not None:
         _write_surface_rasters(folder, base)
         _write_deltas(folder, base, scenarios)
@@ -225,5 +231,5 @@ def write_surface_outputs(folder: Path, study: Study, a: Analysis, summary: dict
         layers["zones"] = a.zones.zones
     write_layers(folder / "reach.gpkg", layers, descriptions={k: CAUTION for k in layers})
     write_styles(folder / "reach.gpkg", layers)
-    _write_tables(folder, a)
+    _write_tables(folder, study, a)
     write_summary(folder, summary)

@@ -15,6 +15,7 @@ from pathlib import Path
 
 from .._meta import CAUTION, TOOL, __version__
 from ..errors import GeoReachError, InputError
+from ..export.tables import change_tables
 from ..study import Study
 from .inputs import build_or_read, layer_specs, load_rasters, read_hubs
 from .outputs import sha256, summarise, write_outputs, write_surface_outputs
@@ -124,6 +125,7 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
             log.warning("scenario %s: changes nothing (reported, still mapped)", n)
         scen = analyse(study, sspecs, shubs, progress=bar, with_profile=False, rasters=rasters)
         results[n] = compare(study, n, base, scen, changes, kinds)
+        results[n]["tables"] = change_tables(study, base, scen)   # per settlement and zone, each hub kind
         results[n]["proposal_notes"] = scen.notes + [
             f"{k} of {v} issue spots in the scenario network" for k, v in scen.build.report["issues"].items()
             if v and v != base.build.report["issues"].get(k)]
@@ -139,7 +141,7 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
     }
     if names:
         largest = f"{max(study.surface.bands):g}" if study.surface else ""
-        summary["scenarios"] = {n: {k: v for k, v in r.items() if k not in ("layers", "delta", "edges")}
+        summary["scenarios"] = {n: {k: v for k, v in r.items() if k not in ("layers", "delta", "edges", "tables")}
                                 for n, r in results.items()}
         summary["scenario_ranking"] = rank_scenarios(summary["scenarios"], largest)
     bar("writing outputs")
