@@ -187,6 +187,8 @@ TERMS: tuple[Term, ...] = (
        "<scenario>_settlements.csv, <scenario>_zones.csv"),
     _t("value", "Cell value of a category raster: the hub number 1..n (0 = no hub reachable).", "",
        "nearest_hub.tif raster attribute table, nearest_hub.sld"),
+    _t("connection_m", "Straight-line distance from the cell centre to the nearest cable access node (a cable "
+                       "carries no travellers, so its reach is this distance).", "m", "connection_m.tif"),
     _t("settlements.csv", "Per settlement: minutes and network km to the nearest hub (and per kind), hub ids and "
                           "names; rounded for reports; line 1 is the caution.", "", "results folder"),
     _t("zones.csv", "Per district: people, shares within each band, people beyond, mean minutes; rounded; "
