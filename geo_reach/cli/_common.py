@@ -155,7 +155,10 @@ def add_layer_options(p):
 
 def add_output_options(p, metavar):
     """-o/--output, --overwrite, --report and --json, as build and check take them."""
-    p.add_argument("-o", "--output", required=True, metavar=metavar, help="output GeoPackage")
+    p.add_argument("-o", "--output", required=True, metavar=metavar,
+                   help="output GeoPackage (.gpkg); NAME.parquet (GeoParquet, for large networks), NAME.fgb, "
+                        "NAME.geojson or NAME.shp write one file per layer: NAME.edges.parquet, NAME.nodes.parquet, "
+                        "NAME.network_issues.parquet")
     p.add_argument("--overwrite", action="store_true", help="replace an existing output")
     p.add_argument("--report", metavar="FILE.json", help="write the report as JSON")
     p.add_argument("--json", action="store_true", help="print the report as JSON")
@@ -174,11 +177,14 @@ def parse_class_speeds(text):
     return out
 
 
-def check_layer_io(args, what: str) -> None:
-    """``build``/``check``: the layers (and stations) are inputs; ``-o`` and ``--report`` outputs."""
+def check_layer_io(args, what: str, issues_only: bool = False) -> None:
+    """``build``/``check``: the layers (and stations) are inputs; the files ``-o`` stands for and ``--report``
+    outputs."""
+    from ..export.gpkg import network_files
     from ..export.guard import check_io
 
-    check_io(inputs=[*args.layers, args.stations], files=[(args.output, what), (args.report, "report")],
+    files = [(f, what) for f in network_files(args.output, issues_only)]
+    check_io(inputs=[*args.layers, args.stations], files=[*files, (args.report, "report")],
              overwrite=args.overwrite)
 
 

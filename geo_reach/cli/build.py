@@ -20,14 +20,14 @@ def register(sub):
 
 def run(args):
     from ..export.atomic import OutputSet
-    from ..export.gpkg import write_network
+    from ..export.gpkg import network_files, write_network
     from ..pipeline import build_or_read, layer_specs
 
-    check_layer_io(args, "GeoPackage")
+    check_layer_io(args, "network file")
     study = study_from_layer_args(args)
     result = build_or_read(study, layer_specs(study))
-    with OutputSet([args.output, args.report]) as out:
-        write_network(out.path(args.output), result)
+    with OutputSet([*network_files(args.output), args.report]) as out:
+        write_network(args.output, result, into=out)
         if args.report:
             emit_json(result.report, out.path(args.report))
     if args.json:
@@ -36,6 +36,7 @@ def run(args):
         r = result.report
         kinds = ", ".join(f"{k} {v}" for k, v in r["issues"].items() if v)
         print(f"network: {r['nodes']} nodes, {r['edges']} edges, {r['components']} components "
-              f"({r['network_length_m'] / 1000:.1f} km) -> {args.output}", file=sys.stderr)
+              f"({r['network_length_m'] / 1000:.1f} km) -> "
+              f"{', '.join(map(str, network_files(args.output, sides=False)))}", file=sys.stderr)
         print(f"issues: {kinds or 'none'} (layer network_issues)", file=sys.stderr)
     return 0

@@ -20,20 +20,21 @@ def register(sub):
 
 def run(args):
     from ..export.atomic import OutputSet
-    from ..export.gpkg import write_network
+    from ..export.gpkg import network_files, write_network
     from ..network.build import check_layers
     from ..pipeline import layer_specs
 
-    check_layer_io(args, "issues GeoPackage")
+    check_layer_io(args, "issues file", issues_only=True)
     study = study_from_layer_args(args)
     result = check_layers(layer_specs(study), study.build)
-    with OutputSet([args.output, args.report]) as out:
-        write_network(out.path(args.output), result, issues_only=True)
+    with OutputSet([*network_files(args.output, issues_only=True), args.report]) as out:
+        write_network(args.output, result, issues_only=True, into=out)
         if args.report:
             emit_json(result.report, out.path(args.report))
     if args.json:
         print_json(result.report)
     if not args.json:
         kinds = ", ".join(f"{k} {v}" for k, v in result.report["issues"].items() if v)
-        print(f"issues: {kinds or 'none'} -> {args.output}", file=sys.stderr)
+        print(f"issues: {kinds or 'none'} -> {', '.join(map(str, network_files(args.output, True, sides=False)))}",
+              file=sys.stderr)
     return 0

@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError, LayerError, MissingInputError, where
-from ..ingest.layers import list_layers, read_frame
+from ..ingest.layers import exists, list_layers, read_frame
 from .model import EDGE_FIELDS, Network
 from .weights import Weight, as_weight
 
@@ -46,7 +46,7 @@ def read_network(path, weight: Weight | str | None = None) -> Network:
         Inconsistent layers or negative costs.
     """
     path = Path(path)
-    if not path.exists():
+    if not exists(path):    # a file, or NAME.parquet standing for NAME.edges.parquet ... (build -o NAME.parquet)
         raise MissingInputError(f"file '{path}': not found; give the GeoPackage written by geo-reach build")
     if path.is_dir():
         raise InputError(f"file '{path}': is a folder; give the network GeoPackage written by geo-reach build")
