@@ -329,9 +329,13 @@ def change_tables(study, base, scen) -> dict:
     -------
     dict
         ``settlements`` and ``zones`` (DataFrame or None), full precision,
-        glossary names; change = after minus before (negative: faster, fewer).
+        glossary names; change = after minus before (negative: faster, fewer);
+        ``figures``: the scenario's key figures for the report
+        (:func:`geo_reach.export.report.key_figures`).
     """
-    out = {"settlements": None, "zones": None}
+    from .report import key_figures
+
+    out = {"settlements": None, "zones": None, "figures": key_figures(study, scen)}
     b, s = _settlements_long(base, study), _settlements_long(scen, study)
     if b is not None and s is not None and len(b) == len(s):
         head = [c for c in ("settlement_id", "name", "population", "hub_kind") if c in b.columns]

@@ -15,6 +15,7 @@ import pandas as pd
 
 from .._meta import CAUTION
 from ..export.jsonout import dumps
+from ..export.report import write_report
 from ..study import Study
 from .scenarios import edges_layer
 from .steps import Analysis
@@ -156,6 +157,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
         _write_tables(folder, study, base, scenarios, baseline=False)
         if study.outputs.map:
             _write_map(folder / "map.html", study, base, scenarios)
+        write_report(folder / "report.html", study, base, scenarios, summary)
         write_summary(folder, summary)
         return
     layers = {"edges": edges_layer(base), "nodes": nodes_layer(base), "network_issues": base.build.issues}
@@ -186,6 +188,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
         plot_profile(base.profile, folder / "reach_profile.png", title=f"{study.title}: reach profile")
     if study.outputs.map:
         _write_map(folder / "map.html", study, base, scenarios)
+    write_report(folder / "report.html", study, base, scenarios, summary)
     write_summary(folder, summary)
 
 
@@ -236,4 +239,5 @@ def write_surface_outputs(folder: Path, study: Study, a: Analysis, summary: dict
     write_layers(folder / "reach.gpkg", layers, descriptions={k: CAUTION for k in layers})
     write_styles(folder / "reach.gpkg", layers)
     _write_tables(folder, study, a)
+    write_report(folder / "report.html", study, a, {}, summary)
     write_summary(folder, summary)

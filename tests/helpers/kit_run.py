@@ -7,6 +7,7 @@ and a non-ASCII letter.  Invented data: it exercises the writers only.
 
 from __future__ import annotations
 
+import json
 import sys
 from pathlib import Path
 
@@ -14,6 +15,10 @@ import geopandas as gpd
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from studykit import write_study  # noqa: E402
+
+#: A study title and a scenario description that are markup, to check they are shown as text.
+TITLE = '<i>Grid</i> & "town" <script>alert(1)</script>'
+DESCRIPTION = "<img src=x onerror=alert(2)> a road to the far corner"
 
 #: Settlement names of the kit, in feature order (ids 11..14).
 NAMES = ['Brook, "Old" End', "=1+1", "<i>Holm</i>", "Åsvik"]
@@ -29,6 +34,8 @@ def named_study(folder: Path) -> Path:
     st.to_file(folder / "net.gpkg", layer="settlements", driver="GPKG")
     text = p.read_text().replace('population_field = "population"',
                                  'population_field = "population"\nid_field = "sid"\nname_field = "label"')
+    text = text.replace('title = "Grid town"', f"title = {json.dumps(TITLE)}")
+    text = text.replace('description = "a road to the far corner"', f"description = {json.dumps(DESCRIPTION)}")
     p.write_text(text)
     return p
 
