@@ -15,9 +15,10 @@ import math
 import os
 from pathlib import Path
 
-from .inspect import (_CELL_CHOICES, BARRIER_WORDS, KIND_FIELDS, NAME_FIELDS,
-                      POPULATION_RASTER_WORDS, PROPOSAL_WORDS, TARGET_CELLS, TERRAIN_RASTER_WORDS, _examples, _field, _id_field, _key, _norm_values, _num, _pop_field,
-                      _positive_share, _q, _safe, _says, _tokens, classify_points, line_suggestions, read_sources)
+from .inspect import (_CELL_CHOICES, BARRIER_WORDS, KIND_FIELDS, POPULATION_RASTER_WORDS, PROPOSAL_WORDS,
+                      TARGET_CELLS, TERRAIN_RASTER_WORDS, _examples, _field, _key, _norm_values, _num, _q, _safe, _says,
+                      _tokens, class_candidates, classify_points, describe_fields, field_list, id_candidates,
+                      line_suggestions, name_candidates, population_candidates, read_sources)
 
 __all__ = ["starter_study", "write_checked"]
 
@@ -135,8 +136,9 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
 
     w = _Writer()
     stems = ", ".join(dict.fromkeys(s.label for s in sources))
-    w.note("A starter study written by geo-reach init. Every setting below is a suggestion made from layer")
-    w.note("names and fields only; the comment beside it says why. Check each one, then run:")
+    w.note("A starter study written by geo-reach init. Every setting below is a suggestion made from the layers'")
+    w.note("names, field names and field values (listed above each table); the comment beside it says why.")
+    w.note("Check each one, then run:")
     w.note(f"    geo-reach run {_safe(out, 200)}")
     w.note("Paths are relative to this file. " + CAUTION)
     w.add(f"title = {_q('Starter study: ' + _safe(stems, 120))}")
@@ -150,6 +152,8 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
     # ---------------------------------------------------------------- lines
     for t in tables:
         s = t.source
+        for line in describe_fields(s.frame, s.label):
+            w.note(line)
         w.add("[[lines]]")
         w.setting("path", _q(_rel(s.path, base)), None)
         if s.layer:
@@ -190,32 +194,53 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
     # ---------------------------------------------------------------- hubs
     def points_table(name, src, why):
         frame = src.frame
+        for line in describe_fields(frame, src.label):
+            w.note(line)
+        fields = field_list(frame)
         w.add(f"[{name}]")
         w.setting("path", _q(_rel(src.path, base)), why)
         if src.layer:
             w.setting("layer", _q(src.layer), None)
         prefer = {"hubs": ("hub_id",), "settlements": ("settlement_id",), "zones": ("zone_id", "district_id")}[name]
-        idf = _id_field(frame, prefer)
+        ids = id_candidates(frame, prefer)
+        idf = ids[0][0] if ids else None
         if idf is not None:
-            w.setting("id_field", _q(idf), f"field '{_safe(idf)}' is unique and filled for every feature")
+            w.setting("id_field", _q(idf), ids[0][1])
+            if len(ids) > 1:
+                w.note(f"also unique and filled: {', '.join(_safe(c) for c, _ in ids[1:6])}")
+        else:
+            w.note(f"no field is unique and filled for every feature, so features are numbered from 1; fields "
+                   f"found: {_safe(fields, 200)}")
         if name == "hubs":
             kf = _field(frame, KIND_FIELDS)
+            kwhy = None
+            if kf is None:
+                reps = [x for x in class_candidates(frame, exclude=[idf]) if 1 < x[2] <= 12]
+                if len(reps) == 1:
+                    kf = reps[0][0]
+                    kwhy = f"field '{_safe(kf)}' is not named like a kind but repeats {reps[0][2]} values"
+                elif reps:
+                    w.note(f"could not tell which field holds the kind of hub ({', '.join(_safe(x[0]) for x in reps)}"
+                           " repeat a few values): set kind_field to give each kind its own minutes")
             if kf is not None:
                 kinds = sorted(map(str, _norm_values(frame[kf]).unique()))
-                w.setting("kind_field", _q(kf), f"kinds found: {_safe(', '.join(kinds), 80)}; each kind also "
-                          "gets its own minutes")
+                w.setting("kind_field", _q(kf), (kwhy + "; " if kwhy else "") + f"kinds found: "
+                          f"{_safe(', '.join(kinds), 80)}; each kind also gets its own minutes")
         if name == "settlements":
-            pf = _pop_field(frame)
-            if pf is None:
+            pops = population_candidates(frame)
+            if not pops:
                 w.setting("population_field", _q("population"), "no population-like field found: name the field "
-                          "holding each settlement's population")
+                          f"holding each settlement's population (fields found: {_safe(fields, 160)})")
             else:
-                share, med, filled = _positive_share(frame[pf])
-                w.setting("population_field", _q(pf), f"field '{_safe(pf)}' looks like a population: "
-                          f"{share:.0%} of {filled} filled values are positive numbers")
-        nf = _field(frame, NAME_FIELDS)
-        if nf is not None:
-            w.setting("name_field", _q(nf), None)
+                w.setting("population_field", _q(pops[0][0]), pops[0][1])
+                if len(pops) > 1:
+                    w.note(f"other fields that may hold people: {', '.join(_safe(c) for c, _ in pops[1:6])}")
+        names = name_candidates(frame, exclude=[idf])
+        if names:
+            w.setting("name_field", _q(names[0][0]), names[0][1])
+        else:
+            w.note(f"no field reads as names (text, mostly distinct); set name_field to label the {name} in tables "
+                   f"and maps (fields found: {_safe(fields, 160)})")
         if src.crs is None:
             if name == "hubs":
                 w.setting("assume_crs", _q("EPSG:NNNN"), "the layer has no CRS: give its EPSG code", commented=True)
@@ -236,6 +261,8 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
         w.add()
         notes.append("no hub layer found: the study routes nowhere until you add [hubs]")
     for s, why in extra_points:
+        for line in describe_fields(s.frame, s.label):
+            w.note(line)
         w.note(f"{_safe(s.arg, 120)}: a point layer left out ({why}).")
         w.note("It can be used as [hubs] or [settlements], or as stations of a rail or cable layer.")
         w.add()
@@ -267,6 +294,8 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
     if not pop_r and settlements:
         w.note("no population raster: the settlements' population is put on the grid")
     for i, (s, why) in enumerate(barriers):
+        for line in describe_fields(s.frame, s.label):
+            w.note(line)
         w.setting("barriers", _q(_rel(s.path, base)), why + (" (only one is used)" if i else ""), commented=i > 0)
         if s.layer:
             w.setting("barriers_layer", _q(s.layer), None, commented=i > 0)
@@ -291,6 +320,8 @@ def starter_study(layer_args, out) -> tuple[str, list[str]]:
     for t in proposals:
         s = t.source
         label = t.name or s.label
+        for line in describe_fields(s.frame, s.label):
+            w.note(line)
         w.note(f"Line layer '{_safe(label)}' looks like a proposal (the name says "
                f"'{_says(s.words, PROPOSAL_WORDS)}'), so it is a scenario, not part of today's network.")
         w.note(f"mode: {t.mode_why}")
