@@ -121,7 +121,7 @@ def _write_tables(folder: Path, a: Analysis):
     if a.settlements is not None:
         a.settlements.drop(columns="geometry").to_csv(folder / "settlements.csv", index=False)
     if a.zones is not None:
-        a.zones.zones.drop(columns="geometry", errors="ignore").to_csv(folder / "zones.csv", index=False)
+        a.zones.drop(columns="geometry", errors="ignore").to_csv(folder / "zones.csv", index=False)
 
 
 def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, summary: dict,
@@ -159,7 +159,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     if base.settlements is not None:
         layers["settlements"] = base.settlements
     if base.zones is not None:
-        layers["zones"] = base.zones.zones
+        layers["zones"] = base.zones
     for name, sc in scenarios.items():
         for lname, frame in sc["layers"].items():
             layers[f"{name}_{lname}"] = frame
@@ -222,7 +222,7 @@ def write_surface_outputs(folder: Path, study: Study, a: Analysis, summary: dict
     if a.settlements is not None:
         layers["settlements"] = a.settlements
     if a.zones is not None:
-        layers["zones"] = a.zones.zones
+        layers["zones"] = a.zones
     write_layers(folder / "reach.gpkg", layers, descriptions={k: CAUTION for k in layers})
     write_styles(folder / "reach.gpkg", layers)
     _write_tables(folder, a)
