@@ -241,7 +241,7 @@ def _settlements(study, out, net, hubs, surf, grid, hub_ids):
     routing = study.routing
     t = study.settlements
     st = read_settlements(study, net.crs)
-    ids = st[t["id_field"]].to_numpy(object) if t.get("id_field") in st.columns \
+    ids = st[t["id_field"]].to_numpy() if t.get("id_field") in st.columns \
         else np.arange(1, len(st) + 1, dtype=np.int64)
     data = {"settlement_id": ids}
     nf = t.get("name_field") or ("name" if "name" in st.columns else None)
