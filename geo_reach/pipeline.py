@@ -184,6 +184,8 @@ class Analysis:
     population: np.ndarray | None = None
     kind_surfaces: dict = field(default_factory=dict)
     bands: object = None
+    rings: object = None                                  # disjoint reach rings (layer reach_rings)
+    barriers: object = None                               # water and barrier polygons (for the map)
     pop_stats: object = None
     kind_pop_stats: dict = field(default_factory=dict)
     zones: object = None
@@ -383,7 +385,8 @@ def _settlement_population(study, grid):
 
 
 def _surface(study, out, net, hubs, step, grid, rasters):
-    from .analysis.bands import band_polygons, population_stats, rural_access_index, sample_points, zone_table
+    from .analysis.bands import (band_polygons, population_stats, ring_polygons, rural_access_index, sample_points,
+                                 zone_table)
     from .analysis.regions import weak_regions
     from .analysis.surface import compute_surface
 
@@ -418,6 +421,8 @@ def _surface(study, out, net, hubs, step, grid, rasters):
     bands_txt = [f"{b:g}" for b in bands]
     hub_ids = list(hubs.ids)
     out.bands = band_polygons(surf.minutes, surf.nearest_hub, grid, bands_txt, population=pop, hub_ids=hub_ids)
+    out.rings = ring_polygons(surf.minutes, grid, bands_txt, population=pop, passable=surf.flat_kmh > 0)
+    out.barriers = rasters.get("barriers")
     if pop is not None:
         out.pop_stats = population_stats(surf.minutes, pop, bands_txt)
     for kind, (kc, kh) in out.kind_costs.items():
@@ -655,6 +660,8 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     if base.hub_table is not None:
         layers["hubs"] = base.hub_table
     layers["diameter_path"] = base.diameter_path
+    if base.rings is not None:
+        layers["reach_rings"] = base.rings
     if base.bands is not None:
         layers["reach_bands"] = base.bands
     if base.weak is not None:
@@ -682,31 +689,89 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     (folder / "summary.json").write_text(json.dumps(_clean(summary), indent=2) + "\n")
 
 
-def _write_map(path, study, base, scenarios):
-    from .export.html_map import Comparison, write_map
+#: How each routing weight is shown on the map: unit label, what it is, scale from the weight's unit.
+_MAP_COSTS = {"minutes": ("min", "minutes", 1.0), "length_m": ("km", "distance", 1e-3),
+              "hops": ("hops", "hops", 1.0), "latency_ms": ("ms", "latency", 1.0)}
 
-    edges = _edges_layer(base)
-    if "hub_minutes" not in edges:
-        edges["hub_minutes"] = np.nan
-    issues = base.build.issues
-    weak = base.weak
-    if weak is not None and base.population is not None and (weak["population"] > 0).any():
-        # the map shows the regions where people live; the GeoPackage layer keeps them all
-        weak = weak[weak["population"] > 0]
-    kw = dict(hubs=base.hub_table, bands=base.bands[base.bands["hub_id"].isna()] if base.bands is not None else None,
-              weak=weak, diameter=base.diameter_path if len(base.diameter_path) else None,
-              issues=issues.rename(columns={"kind": "issue"}) if len(issues) else None,
-              basemap=bool(study.outputs.get("basemap", False)), title=f"geo-reach: {study.title}")
-    if scenarios:
-        name, sc = next(iter(scenarios.items()))
-        after = sc["edges"]
-        if "hub_minutes" not in after:
-            after["hub_minutes"] = np.nan
-        comp = Comparison(before=edges, after=after, change=sc["layers"].get("edge_change"),
-                          before_label="Today", after_label=f"With {name}")
-        write_map(path, comparison=comp, **kw)
-    else:
-        write_map(path, edges=edges, **kw)
+
+def _write_map(path, study, base, scenarios):
+    """Adapter from the pipeline's results to the map's input contract (export.webmap.MapInput)."""
+    import geopandas as gpd
+
+    from .export.webmap import MapInput, NetworkLayer, ScenarioView, write_map
+
+    w = study.routing.get("weight", "minutes")
+    unit, cost_name, scale = _MAP_COSTS.get(w, (w, w, 1.0))
+
+    def network(edges, node_cost):
+        if node_cost is None:
+            return None
+        ecost = edges[w].to_numpy(float) * scale if w in edges.columns else None
+        return NetworkLayer(edges, np.asarray(node_cost, float) * scale, ecost)
+
+    hub_names = {}
+    if base.hub_table is not None and "name" in base.hub_table.columns:
+        hub_names = dict(zip(base.hub_table["hub_id"].astype(str), base.hub_table["name"]))
+
+    def settlements(frame, minutes_field):
+        if frame is None:
+            return None
+        nf = (study.settlements or {}).get("name_field") or "name"
+        near = frame["nearest_hub"] if "nearest_hub" in frame.columns else pd.Series([None] * len(frame))
+        return gpd.GeoDataFrame({
+            "name": frame[nf].to_numpy(object) if nf in frame.columns else None,
+            "population": frame["population"].to_numpy(float) if "population" in frame.columns else np.nan,
+            "minutes": frame[minutes_field].to_numpy(float),
+            "hub_name": [hub_names.get(str(h), None if h is None or h != h else str(h)) for h in near],
+            "network_km": frame["network_km"].to_numpy(float) if "network_km" in frame.columns else np.nan,
+        }, geometry=frame.geometry.values, crs=frame.crs)
+
+    districts = None
+    if base.zones is not None:
+        z = base.zones.zones
+        nf = (study.zones or {}).get("name_field") or (study.zones or {}).get("id_field") or "zone"
+        pop = z["population"].to_numpy(float)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            share = np.where(pop > 0, z["population_beyond"].to_numpy(float) / pop, np.nan)
+        districts = gpd.GeoDataFrame({"name": z[nf].astype(str).to_numpy(object) if nf in z.columns else None,
+                                      "population": pop, "share_beyond": share,
+                                      "mean_minutes": z["mean_minutes"].to_numpy(float)},
+                                     geometry=z.geometry.values, crs=z.crs)
+    diameter = base.diameter_path
+    if diameter is not None and len(diameter):
+        diameter = diameter.assign(cost=diameter["cost"].to_numpy(float) * scale)
+    views = []
+    for name, sc in scenarios.items():
+        edges = sc.get("edges")
+        net = network(edges, sc.get("node_cost")) if edges is not None else None
+        change = sc["layers"].get("edge_change")
+        if change is not None:
+            change = change.rename(columns={"delta_minutes": "delta", "minutes_before": "before",
+                                            "minutes_after": "after"})
+        proposed = None
+        if edges is not None:
+            k = sc.get("kinds", {})
+            new = np.array(edges["src_layer"].isin(k.get("added_layers", [])), dtype=bool)
+            for lab, fids in k.get("upgraded", {}).items():
+                new = new | np.array((edges["src_layer"] == lab) & edges["src_fid"].isin(fids), dtype=bool)
+            proposed = edges[new & (edges["mode"] != "transfer").to_numpy()] if new.any() else None
+        after = sc["layers"].get("settlements")
+        views.append(ScenarioView(
+            name=name, description=sc.get("description", ""), network=net, change=change, proposed=proposed,
+            rings=sc["layers"].get("reach_rings"),
+            settlements=settlements(after, "minutes_after") if after is not None else None))
+    bands = [float(b) for b in study.surface["bands"]] if study.surface else [30.0, 60.0, 120.0]
+    weak_t = float(study.surface.get("weak_minutes", max(bands))) if study.surface else None
+    m = MapInput(
+        title=study.title, cost_unit=unit, cost_name=cost_name, thresholds=tuple(bands),
+        share_minutes=max(bands), weak_minutes=weak_t,
+        network=network(base.build.network.edges_frame(), base.node_cost),
+        hubs=base.hub_table, rings=base.rings, settlements=settlements(base.settlements, "minutes"),
+        districts=districts, water=base.barriers, weak=base.weak,
+        diameter=diameter if diameter is not None and len(diameter) else None,
+        issues=base.build.issues if len(base.build.issues) else None, scenarios=tuple(views),
+        basemap=bool(study.outputs.get("basemap", False)))
+    write_map(path, m)
 
 
 # --------------------------------------------------------------------------- scenarios
@@ -977,6 +1042,9 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
             log(f"scenario {n}: changes nothing (reported, still mapped)")
         scen = analyse(study, sspecs, shubs, progress=bar, with_profile=False, rasters=rasters)
         results[n] = compare(study, n, base, scen, changes, kinds)
+        results[n]["node_cost"] = scen.node_cost            # for the map's scenario view
+        if scen.rings is not None:
+            results[n]["layers"]["reach_rings"] = scen.rings
         results[n]["proposal_notes"] = scen.notes + [
             f"{k} of {v} issue spots in the scenario network" for k, v in scen.build.report["issues"].items()
             if v and v != base.build.report["issues"].get(k)]
@@ -992,7 +1060,7 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
     }
     if names:
         largest = f"{max(study.surface['bands']):g}" if study.surface else ""
-        summary["scenarios"] = {n: {k: v for k, v in r.items() if k not in ("layers", "delta", "edges")}
+        summary["scenarios"] = {n: {k: v for k, v in r.items() if k not in ("layers", "delta", "edges", "node_cost")}
                                 for n, r in results.items()}
         summary["scenario_ranking"] = rank_scenarios(summary["scenarios"], largest)
     bar("writing outputs")
