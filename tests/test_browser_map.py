@@ -197,8 +197,10 @@ def test_hostile_names_show_literally_and_never_run(browser, files):
                     "   out.push(x.getPopup().getElement().querySelector('.gr-pop-title').textContent);"
                     "   x.closePopup(); } }); return out; }")
         assert sorted(pops) == sorted(" ".join(t.split()) for t in places["settlements"])
-        labels = pg.locator(".gr-label span").all_text_contents()
+        labels = pg.locator(".gr-label:not(.gr-label-hub) span").all_text_contents()
         assert labels and set(labels) <= {" ".join(t.split()) for t in places["settlements"]}
+        hub_labels = pg.locator(".gr-label-hub span").all_text_contents()
+        assert hub_labels and set(hub_labels) <= set(places["hubs"])
         dlabels = pg.locator(".gr-dlabel span").all_text_contents()
         assert sorted(dlabels) == sorted(places["districts"])
         pg.locator(".gr-grp[data-group='districts'] input").check()
@@ -385,6 +387,19 @@ def test_legend_follows_layer_switches(full_page):
     full_page.clean()
 
 
-def test_settlement_names_show_as_labels(full_page):
-    labels = full_page.page.locator(".gr-label span").all_text_contents()
-    assert {"Ossel", "Brannock", "Marrow End"} <= set(labels)
+def test_settlement_and_hub_names_show_as_labels(full_page):
+    pg = full_page.page
+    names = set(MI.settlements()["name"])
+    labels = pg.locator(".gr-label:not(.gr-label-hub) span").all_text_contents()
+    assert len(labels) >= 3 and set(labels) <= names and "Brannock" in labels
+    assert set(pg.locator(".gr-label-hub span").all_text_contents()) == set(MI.hubs()["name"])
+    # a name left out for want of room shows when zoomed in on it
+    assert "Ossel" not in labels
+    pt = MI.settlements().geometry.iloc[0]
+    lon, lat = TO_LONLAT.transform(pt.x, pt.y)
+    full_page.js("([lon, lat]) => geoReachMap.map.setView([lat, lon], geoReachMap.map.getZoom() + 3, {animate: false})",
+                 [lon, lat])
+    pg.wait_for_timeout(300)
+    assert "Ossel" in pg.locator(".gr-label:not(.gr-label-hub) span").all_text_contents()
+    full_page.js("() => geoReachMap.map.fitBounds(geoReachMap.data.bounds, {padding: [14, 14], animate: false})")
+    full_page.clean()

@@ -50,6 +50,20 @@ def layers_of(data, group, view="any"):
     return [lay for lay in data["layers"] if lay["group"] == group and (view == "any" or lay["view"] == view)]
 
 
+def col(lay, key):
+    """A column of a layer as a list (the page packs repeated and missing values; see build._pack)."""
+    n = len(lay["geom"]["f"]) if "f" in lay["geom"] else (len(lay["geom"]["n"]) if "n" in lay["geom"]
+                                                          else len(lay["geom"]["xy"]) // 2)
+    c = lay["cols"].get(key)
+    if c is None:
+        return [None] * n
+    if isinstance(c, list):
+        return c
+    if "k" in c:
+        return [None if i < 0 else c["k"][i] for i in c["i"]]
+    return [c["v"]] * n
+
+
 def decode_points(geom, frame):
     """Reference decoding of the delta-encoded integer vertices (independent of the page script)."""
     q = np.cumsum(np.asarray(geom["xy"], dtype=np.int64).reshape(-1, 2), axis=0)
@@ -62,6 +76,8 @@ def decode_lines(geom, frame):
     for n in geom["n"]:
         parts.append(pts[k:k + n])
         k += n
+    if "f" not in geom:
+        return [[p] for p in parts]
     feats, k = [], 0
     for f in geom["f"]:
         feats.append(parts[k:k + f])
@@ -138,11 +154,11 @@ def test_data_travels_only_in_the_json_block():
     assert data["title"] == " ".join(places["title"][0].split())
     assert [v["name"] for v in data["views"]] == ["Today", "With " + places["scenario"][0]]
     hub = layers_of(data, "hubs")[0]
-    assert hub["cols"]["name"] == places["hubs"]
+    assert col(hub, "name") == places["hubs"]
     sett = layers_of(data, "settlements", "today")[0]
-    assert sett["cols"]["name"] == [" ".join(t.split()) for t in places["settlements"]]
+    assert col(sett, "name") == [" ".join(t.split()) for t in places["settlements"]]
     dist = layers_of(data, "districts")[0]
-    assert dist["cols"]["name"] == places["districts"]
+    assert col(dist, "name") == places["districts"]
     kinds = {e["t"] for g in data["groups"] if g["id"] == "hubs" for e in g["legend"]}
     assert set(places["hub kinds"]) <= kinds
     # four script elements: the data, Leaflet, ours; none with a source
@@ -249,7 +265,7 @@ def test_rings_and_settlements_share_the_travel_classes(page):
     # minutes 4, 15 (= the bound: within 15), 31, 61.5, none, 88
     assert sett["cls"] == [0, 0, 2, 3, 4, 3]
     assert sett["styles"][4]["fc"] == P.NO_VALUE
-    assert sett["cols"]["min"] == [4.0, 15.0, 31.0, 61.5, None, 88.0]
+    assert col(sett, "min") == [4.0, 15.0, 31.0, 61.5, None, 88.0]
     pop = np.array([5200, 830, 120, 2400, 35, 610.0])
     r = np.array(sett["size"])
     assert np.allclose((r - 3) ** 2 / (r[0] - 3) ** 2, pop / pop.max(), atol=0.01)  # dot area ~ people
@@ -304,22 +320,22 @@ def test_weak_regions_top_20_with_people_rest_switchable_and_key_links(page):
     pop = weak["population"].to_numpy()
     top = layers_of(d, "weak_top")
     fills = [lay for lay in top if lay["type"] == "fill"][0]
-    assert fills["cols"]["rank"] == list(range(1, 21))
+    assert col(fills, "rank") == list(range(1, 21))
     rest = [lay for lay in layers_of(d, "weak_rest") if lay["type"] == "fill"][0]
-    assert rest["cols"]["rank"] == [int(k) for k in weak["rank"][(pop >= 0.5)][20:]]
+    assert col(rest, "rank") == [int(k) for k in weak["rank"][(pop >= 0.5)][20:]]
     empty = [lay for lay in layers_of(d, "weak_empty") if lay["type"] == "fill"][0]
-    assert empty["cols"]["rank"] == [int(k) for k in weak["rank"][pop < 0.5]]
+    assert col(empty, "rank") == [int(k) for k in weak["rank"][pop < 0.5]]
     badges = [lay for lay in top if lay["type"] == "badge"]
     assert badges[0]["cols"]["rank"] == list(range(1, 21))
     # reason colours are fixed, whatever reasons occur
     for lay in (fills, rest, empty):
-        for reason, k in zip(weak.set_index("rank").loc[lay["cols"]["rank"], "reason"], lay["cls"]):
+        for reason, k in zip(weak.set_index("rank").loc[col(lay, "rank"), "reason"], lay["cls"]):
             assert lay["styles"][k]["c"] == P.REASON_COLOURS[reason]
     # each single-link region in the top 20 is keyed to its link, with the people behind it
     keys = [lay for lay in top if lay["type"] == "line"][0]
     single = weak[(weak["rank"] <= 20) & (weak["reason"] == "single_link")]
-    assert keys["cols"]["rank"] == [int(k) for k in single["rank"]]
-    assert keys["cols"]["people"] == [int(round(p)) for p in single["population"]]
+    assert col(keys, "rank") == [int(k) for k in single["rank"]]
+    assert col(keys, "people") == [int(round(p)) for p in single["population"]]
     feats = decode_lines(keys["geom"], d["frame"])
     tr = Transformer.from_crs(MI.CRS, 4326, always_xy=True)
     for f, eid in zip(feats, single["edge_id"]):
@@ -339,9 +355,8 @@ def test_popups_use_plain_labels_units_and_rounding(page):
             continue
         for label, key, fmt in p["rows"]:
             assert not raw.match(label), label
-            assert key in lay["cols"]
-        for key, values in lay["cols"].items():
-            for v in values:
+        for key in lay["cols"]:
+            for v in col(lay, key):
                 if isinstance(v, float):
                     assert v == round(v, 3), (lay["group"], key, v)
     sett = layers_of(d, "settlements", "today")[0]
@@ -356,7 +371,7 @@ def test_network_issues_off_by_default_and_clustered(page):
     assert g["on"] is False
     lay = layers_of(d, "issues")[0]
     assert lay["type"] == "cluster" and len(lay["geom"]["xy"]) == 2 * 32
-    assert lay["cols"]["kind"][:1] == ["dead end"] and "crossing kept (bridge or tunnel)" in lay["cols"]["kind"]
+    assert col(lay, "kind")[:1] == ["dead end"] and "crossing kept (bridge or tunnel)" in col(lay, "kind")
 
 
 # ---------------------------------------------------------------- any routing weight
@@ -469,3 +484,49 @@ def test_caution_and_title_travel_as_data():
     d = data_of(render_map(m))
     assert d["caution"] == "Check <with> the district office & surveys" and d["title"] == "A & B <i>"
     assert data_of(render_map(MI.full()))["caution"] == CAUTION
+
+
+# ---------------------------------------------------------------- through the pipeline (the adapter in pipeline._write_map)
+@pytest.mark.parametrize("weight,unit,name", [("minutes", "min", "minutes"), ("length_m", "km", "distance")])
+def test_a_study_run_writes_the_map_and_the_rings(tmp_path, weight, unit, name):
+    import geopandas as gpd
+    import pyogrio
+
+    from geo_reach.pipeline import run_study
+    from geo_reach.study import load_study
+
+    sys.path.insert(0, str(Path(__file__).parent / "studykit"))
+    sys.path.insert(0, str(Path(__file__).parent))
+    from studykit import write_study
+
+    path = write_study(tmp_path / "s")
+    hubs = gpd.read_file(tmp_path / "s" / "hubs.geojson")
+    hubs["name"] = ["{{ 7*7 }} {% raw %}", "<script>alert(7)</script> ${7*7}"]
+    hubs.to_file(tmp_path / "s" / "hubs.geojson")
+    text = path.read_text().replace('title = "Grid town"', 'title = "{{ 7*7 }} <b>town</b> ${7*7}"')
+    text = text.replace('kind_field = "kind"\n', 'kind_field = "kind"\nname_field = "name"\n', 1)
+    path.write_text(text.replace("[metrics]", f'[routing]\nweight = "{weight}"\n\n[metrics]'))
+    out = tmp_path / "out"
+    run_study(load_study(path), out, progress=False)
+    page = (out / "map.html").read_bytes().decode("utf-8")   # as written (the vendored CSS has CRLF lines)
+    assert _outside_data(page) == _outside_data(render_map(MI.full()))   # the fixed page, whatever the study
+    d = data_of(page)
+    assert d["title"] == "{{ 7*7 }} <b>town</b> ${7*7}"
+    assert set(col(layers_of(d, "hubs")[0], "name")) == set(hubs["name"])
+    assert [v["name"] for v in d["views"]] == ["Today", "With far_link", "With new_clinic"]
+    g = next(g for g in d["groups"] if g["id"] == "network")
+    assert g["title"] == f"Network: {name} to the nearest hub"
+    assert all(e["t"].endswith(" " + unit) for e in g["legend"] if e.get("fam") != "none")
+    # the network is coloured for this weight: some links have a cost class (not all "no route")
+    net = layers_of(d, "network", "today")[0]
+    assert sum(c < len(g["legend"]) - 2 for c in net["cls"]) > 0.9 * len(net["cls"])
+    # rings in the GeoPackage, disjoint, with their bounds; the scenario's own rings too
+    layers = set(pyogrio.list_layers(out / "results.gpkg")[:, 0])
+    assert {"reach_rings", "reach_bands", "far_link_reach_rings"} <= layers
+    rings = gpd.read_file(out / "results.gpkg", layer="reach_rings")
+    assert rings["from_minutes"].tolist()[:3] == [0.0, 15.0, 30.0] and rings["to_minutes"].tolist()[:3] == [15, 30, 60]
+    assert shapely.union_all(rings.geometry.values).area == pytest.approx(rings.geometry.area.sum(), rel=1e-9)
+    assert (out / "results.reach_rings.sld").exists()
+    assert {lay["view"] for lay in layers_of(d, "rings")} == {"today", "v1", "v2"}
+    proposed = layers_of(d, "proposed")
+    assert [lay["view"] for lay in proposed] == ["v1"]

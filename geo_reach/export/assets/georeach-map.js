@@ -43,6 +43,14 @@
     return spec.u ? s + ' ' + spec.u : s;
   }
 
+  // a column of values: a list, {v: one value for all}, {k: texts, i: index per feature (-1 = none)}, or absent
+  function val(col, i) {
+    if (col === undefined || col === null) { return null; }
+    if (Array.isArray(col)) { return col[i] === undefined ? null : col[i]; }
+    if (col.k) { return col.i[i] < 0 ? null : col.k[col.i[i]]; }
+    return col.v;
+  }
+
   // ------------------------------------------------------------------ geometry
   function decode(g, kind) {
     var xy = g.xy, k = 0, x = 0, y = 0, s = F.step, lon0 = F.lon0, lat0 = F.lat0, i, j;
@@ -63,6 +71,7 @@
       for (i = 0; i < g.r.length; i++) { polys.push(parts.slice(ri, ri + g.r[i])); ri += g.r[i]; }
       parts = polys;
     }
+    if (!g.f) { return parts.map(function (p1) { return [p1]; }); }
     var feats = [], pi = 0;
     for (i = 0; i < g.f.length; i++) { feats.push(parts.slice(pi, pi + g.f[i])); pi += g.f[i]; }
     return feats;
@@ -109,14 +118,14 @@
   // ------------------------------------------------------------------ popups and tooltips
   function popupEl(l, i) {
     var p = l.popup, box = el('div', 'gr-pop');
-    var head = p.headcol ? l.cols[p.headcol][i] : p.head;
+    var head = p.headcol ? val(l.cols[p.headcol], i) : p.head;
     if (head) { box.appendChild(el('div', 'gr-pop-head', head)); }
-    if (p.title && l.cols[p.title][i] !== null && l.cols[p.title][i] !== undefined) {
-      box.appendChild(el('div', 'gr-pop-title', l.cols[p.title][i]));
+    if (p.title && val(l.cols[p.title], i) !== null) {
+      box.appendChild(el('div', 'gr-pop-title', val(l.cols[p.title], i)));
     }
     var tbl = el('table');
     p.rows.forEach(function (r) {
-      var v = fmt(l.cols[r[1]][i], r[2]);
+      var v = fmt(val(l.cols[r[1]], i), r[2]);
       if (v === null) { return; }
       var tr = el('tr');
       tr.appendChild(el('th', null, r[0]));
@@ -191,7 +200,7 @@
     } else if (l.type === 'label') {
       L_.pts = decode(l.geom, 'point');
       L_.pts.forEach(function (ll, i2) {
-        var t = l.cols[l.label][i2];
+        var t = val(l.cols[l.label], i2);
         if (!t) { return; }
         var w = 8 + 7 * t.length;
         objs.push(L.marker(ll, {pane: 'gr-labels', interactive: false, keyboard: false,
@@ -208,7 +217,7 @@
         if (l.type === 'hub') {
           m = L.marker(pts[i], {icon: hubIcon(st), pane: 'gr-hubs', keyboard: false});
         } else if (l.type === 'badge') {
-          m = L.marker(pts[i], {icon: badgeIcon(l.cols[l.badge][i], st), pane: 'gr-badges', keyboard: false});
+          m = L.marker(pts[i], {icon: badgeIcon(val(l.cols[l.badge], i), st), pane: 'gr-badges', keyboard: false});
         } else {
           var o = style(st, l.pane);
           o.radius = l.size ? l.size[i] : 5;
@@ -225,8 +234,8 @@
   function bindInfo(m, L_, i) {
     var l = L_.d;
     if (l.popup) { m.bindPopup(function () { return popupEl(l, i); }, popupOpts()); }
-    if (l.tip && l.cols[l.tip][i]) {
-      m.bindTooltip(function () { return el('span', 'gr-tip', l.cols[l.tip][i]); },
+    if (l.tip && val(l.cols[l.tip], i)) {
+      m.bindTooltip(function () { return el('span', 'gr-tip', val(l.cols[l.tip], i)); },
                     {direction: 'top', offset: [0, -6], opacity: 0.95});
     }
   }
@@ -248,6 +257,7 @@
       L_.on = want;
     });
     updatePanel();
+    rescale();
     updateLabels();
     updateClusters();
   }
@@ -302,47 +312,89 @@
   var labelLayer = L.layerGroup().addTo(map);
   function updateLabels() {
     labelLayer.clearLayers();
-    var L_ = null;
-    layers.forEach(function (x) { if (x.on && x.d.type === 'point' && x.d.label) { L_ = x; } });
-    if (!L_) { return; }
-    var l = L_.d, names = l.cols[l.label], size = map.getSize(), placed = [], tried = 0;
+    var size = map.getSize(), placed = [], tried = 0, shown = 0, bounds = map.getBounds();
+    var MAX_LABELS = Math.round(60 * size.x * size.y / (960 * 720)), PAD = 3;
     function free(b) {
       if (b[0] < 0 || b[1] < 0 || b[2] > size.x || b[3] > size.y) { return false; }
-      for (var k = 0; k < placed.length; k++) {
-        var c = placed[k];
+      for (var q = 0; q < placed.length; q++) {
+        var c = placed[q];
         if (b[0] < c[2] && b[2] > c[0] && b[1] < c[3] && b[3] > c[1]) { return false; }
       }
       return true;
     }
+    function padded(b) { return [b[0] - PAD, b[1] - PAD, b[2] + PAD, b[3] + PAD]; }
     // hubs, rank badges and district names keep their room
     layers.forEach(function (x) {
       if (!x.on || !x.pts || (x.d.type !== 'hub' && x.d.type !== 'badge' && x.d.type !== 'label')) { return; }
       x.pts.forEach(function (ll, i) {
-        var q = map.latLngToContainerPoint(ll), t = x.d.type === 'hub' ? '' : String(x.d.cols[x.d.badge || x.d.label][i]);
+        var q = map.latLngToContainerPoint(ll), t = x.d.type === 'hub' ? '' : String(val(x.d.cols[x.d.badge || x.d.label], i));
         var hw = x.d.type === 'hub' ? 10 : (x.d.type === 'badge' ? 6 + 3.5 * t.length : 4 + 3.5 * t.length);
         var hh = x.d.type === 'label' ? 8 : 10;
         placed.push([q.x - hw, q.y - hh, q.x + hw, q.y + hh]);
       });
     });
-    var bounds = map.getBounds();
-    for (var n = 0; n < l.order.length && tried < 1500; n++) {
-      var i = l.order[n], t = names[i];
-      if (!t || !bounds.contains(L_.pts[i])) { continue; }
+    // candidates: hub names first, then settlements by people (largest first)
+    var cands = [];
+    layers.forEach(function (x) {
+      if (!x.on || !x.pts) { return; }
+      if (x.d.type === 'hub' && x.d.tip) {
+        x.pts.forEach(function (ll, i) { cands.push([ll, val(x.d.cols[x.d.tip], i), 10 + PAD + 1, 'gr-label gr-label-hub']); });
+      }
+    });
+    layers.forEach(function (x) {
+      if (!x.on || x.d.type !== 'point' || !x.d.label) { return; }
+      var k = x.scale || 1;
+      x.d.order.forEach(function (i) {
+        cands.push([x.pts[i], val(x.d.cols[x.d.label], i), (x.d.size ? x.d.size[i] : 5) * k, 'gr-label']);
+      });
+    });
+    for (var n = 0; n < cands.length && tried < 1500 && shown < MAX_LABELS; n++) {
+      var ll = cands[n][0], t = cands[n][1], r = cands[n][2];
+      if (!t || !bounds.contains(ll)) { continue; }
       tried++;
-      var p = map.latLngToContainerPoint(L_.pts[i]), r = l.size ? l.size[i] : 5, w = 7 * t.length + 6, h = 15;
+      var p = map.latLngToContainerPoint(ll), w = 7 * t.length + 6, h = 15;
       var right = [p.x + r + 2, p.y - h / 2, p.x + r + 2 + w, p.y + h / 2];
       var left = [p.x - r - 2 - w, p.y - h / 2, p.x - r - 2, p.y + h / 2];
-      var box = free(right) ? right : (free(left) ? left : null);
+      var box = free(padded(right)) ? right : (free(padded(left)) ? left : null);
       if (!box) { continue; }
-      placed.push(box);
+      shown++;
+      placed.push(padded(box));
       placed.push([p.x - r, p.y - r, p.x + r, p.y + r]);
-      var span = el('span', null, t);
-      labelLayer.addLayer(L.marker(L_.pts[i], {pane: 'gr-labels', interactive: false, keyboard: false,
-        icon: L.divIcon({className: 'gr-label' + (box === left ? ' gr-label-left' : ''), html: span,
+      labelLayer.addLayer(L.marker(ll, {pane: 'gr-labels', interactive: false, keyboard: false,
+        icon: L.divIcon({className: cands[n][3] + (box === left ? ' gr-label-left' : ''), html: el('span', null, t),
                          iconSize: [w, h], iconAnchor: [p.x - box[0], h / 2]})}));
     }
   }
-  map.on('zoomend moveend', updateLabels);
+  map.on('moveend', updateLabels);
+
+  // ------------------------------------------------------------------ keep dense layers readable at every zoom
+  // Lines: a layer with `ink` metres of line per square metre covers ink * width * (metres per pixel) of the
+  // screen; widths shrink (not below 0.6 px) so that it covers at most MAX_LINE_COVER.  Dots: radii shrink
+  // so that the dots in view cover at most MAX_DOT_COVER of the map.
+  var MAX_LINE_COVER = 0.15, MAX_DOT_COVER = 0.06;
+  function rescale() {
+    var z = map.getZoom(), lat = map.getCenter().lat;
+    var mpp = 40075016.686 * Math.cos(lat * Math.PI / 180) / (256 * Math.pow(2, z));
+    var size = map.getSize(), area = size.x * size.y, bounds = map.getBounds();
+    layers.forEach(function (L_) {
+      var l = L_.d;
+      if (!L_.on || !L_.objs) { return; }
+      if (l.type === 'line' && l.ink) {
+        var wmax = MAX_LINE_COVER / (l.ink * mpp);
+        L_.objs.forEach(function (o) {
+          var w = o.grBaseWeight || (o.grBaseWeight = o.options.weight);
+          o.setStyle({weight: Math.max(0.6, Math.min(w, wmax))});
+        });
+      } else if (l.type === 'point' && l.size) {
+        var cover = 0;
+        L_.pts.forEach(function (ll, i) { if (bounds.contains(ll)) { cover += Math.PI * l.size[i] * l.size[i]; } });
+        var k = cover > 0 ? Math.min(1, Math.sqrt(MAX_DOT_COVER * area / cover)) : 1;
+        L_.objs.forEach(function (o, i) { o.setRadius(Math.max(1.5, l.size[i] * k)); });
+        L_.scale = k;
+      }
+    });
+  }
+  map.on('zoomend', rescale);   // before 'moveend', which places the labels
 
   // ------------------------------------------------------------------ network issues, grouped by screen cell
   var clusterLayer = L.layerGroup().addTo(map);
@@ -376,7 +428,7 @@
           if (b.getNorthEast().equals(b.getSouthWest()) || map.getZoom() >= map.getMaxZoom() - 0.5) {
             var box = el('div', 'gr-pop');
             box.appendChild(el('div', 'gr-pop-head', idx.length + ' network issues here'));
-            idx.slice(0, 12).forEach(function (i) { box.appendChild(el('div', null, l.cols[l.popup.title][i])); });
+            idx.slice(0, 12).forEach(function (i) { box.appendChild(el('div', null, val(l.cols[l.popup.title], i))); });
             L.popup(popupOpts()).setLatLng(b.getCenter()).setContent(box).openOn(map);
           } else {
             map.fitBounds(b.pad(0.3), {maxZoom: map.getMaxZoom()});

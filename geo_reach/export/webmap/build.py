@@ -137,6 +137,8 @@ class _Builder:
                                  coverage=extra.pop("coverage", False))
         else:
             lay["geom"] = points_xy(f.geometry.values, f.crs, self.fr)
+        if "cols" in extra:
+            extra["cols"] = {k: v for k, v in ((k, _pack(v)) for k, v in extra["cols"].items()) if v is not None}
         lay.update(extra)
         self.layers.append(lay)
         return lay
@@ -162,7 +164,9 @@ class _Builder:
         w, s = boxes[:, 0].min(), boxes[:, 1].min()
         e, n = boxes[:, 2].max(), boxes[:, 3].max()
         lat = math.radians((s + n) / 2)
-        extent = max((e - w) * 111_320 * math.cos(lat), (n - s) * 111_320, 100.0)
+        width_m, height_m = max((e - w) * 111_320 * math.cos(lat), 100.0), max((n - s) * 111_320, 100.0)
+        extent = max(width_m, height_m)
+        self.area_m2 = width_m * height_m
         self.fr = frame_for((w, s, e, n), extent)
         self.bounds = [[round(s, 6), round(w, 6)], [round(n, 6), round(e, 6)]]
 
@@ -303,7 +307,9 @@ class _Builder:
         cls = np.where(idx >= 0, idx, len(classes))
         cls = np.where(np.isfinite(ecost), cls, len(classes) + 1)
         modes = _text(_col(f, "mode", None))
+        ink = float(f.geometry.length.sum()) / self.area_m2   # metres of line per square metre of study area
         self.add("network", view, "net", "line", f, cls=cls.tolist(), styles=self._net_styles(classes), pick=1,
+                 ink=round(ink, 8),
                  cols={"head": [_MODES.get(x, (x or "link").capitalize() + " link") for x in modes],
                        "name": _text(_col(f, "name", None), 120), "cost": _num(cost, d),
                        "len": _num(_fnum(f, "length_m"), 2, 1e-3),
@@ -501,6 +507,22 @@ class _Builder:
                 "frame": self.fr.to_json(), "bounds": self.bounds, "views": views, "groups": groups,
                 "layers": self.layers, "basemap": bool(m.basemap)}
         return data
+
+
+def _pack(values: list):
+    """A column for the page: ``None`` if every value is missing, ``{"v": x}`` if all are ``x``,
+    ``{"k": [texts], "i": [index or -1]}`` for texts that repeat, else the list itself."""
+    if all(v is None for v in values):
+        return None
+    first = values[0]
+    if first is not None and all(v == first and type(v) is type(first) for v in values):
+        return {"v": first}
+    if all(v is None or isinstance(v, str) for v in values):
+        keys: dict = {}
+        idx = [-1 if v is None else keys.setdefault(v, len(keys)) for v in values]
+        if len(keys) * 2 <= len(values):
+            return {"k": list(keys), "i": idx}
+    return values
 
 
 def _reason_label(reason: str, minutes: float) -> str:

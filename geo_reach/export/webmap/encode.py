@@ -13,7 +13,8 @@ decode it in one pass:
 ``r`` (polygons)
     Rings per polygon (exterior first).
 ``f``
-    Parts (lines) or polygons per feature.
+    Parts (lines) or polygons per feature (left out for lines when every
+    feature is one part).
 
 Lines and rings are first simplified (Douglas-Peucker, in metres) to the
 map's resolution; reach rings, which tile the plane, are simplified as a
@@ -148,7 +149,10 @@ def encode(geoms_metric, crs, kind: str, frame: Frame, coverage: bool = False) -
         q = q[good[pidx]]
         n = n[good]
         f = np.bincount(feat[good], minlength=len(g))
-        return {"xy": _delta(q), "n": n.tolist(), "f": f.tolist()}
+        out = {"xy": _delta(q), "n": n.tolist()}
+        if not (f == 1).all():            # left out when every feature is one part
+            out["f"] = f.tolist()
+        return out
     polys, feat = shapely.get_parts(g, return_index=True)
     rings, ridx = shapely.get_rings(polys, return_index=True)
     xy, cidx = shapely.get_coordinates(rings, return_index=True)
