@@ -79,10 +79,11 @@ def province(folder: Path, seed: int = 12):
                 lines.append(shapely.LineString(_winding(a, b, rng)))
                 cls.append("main" if (i % 10 == 0 or j % 10 == 0) else ("feeder" if rng.random() < 0.6 else "track"))
     lines, cls = lines[:30_000], cls[:30_000]
-    gpd.GeoDataFrame({"class": cls}, geometry=lines, crs=CRS).to_file(folder / "roads.gpkg", layer="roads")
+    roads = gpd.GeoDataFrame({"class": cls}, geometry=lines, crs=CRS)
+    roads.to_file(folder / "roads.gpkg", layer="roads")
     _points_and_areas(folder, rng, (x0, y0, x0 + side, y0 + side), n_hubs=60, n_sett=3_000, n_dist=5,
                       lakes=[(x0 + 0.3 * side, y0 + 0.6 * side, 6_000), (x0 + 0.7 * side, y0 + 0.25 * side, 9_000)])
-    return _study(folder, cell_m=250.0, margin_m=3_000.0)
+    return _study(folder, cell_m=250.0, margin_m=3_000.0), int((roads.geometry.count_coordinates() - 1).sum())
 
 
 def million(folder: Path, seed: int = 1):
@@ -251,7 +252,7 @@ def main():
         folder.mkdir(parents=True, exist_ok=True)
         t = time.perf_counter()
         if case == "province":
-            study, segs = province(folder), None
+            study, segs = province(folder)
         else:
             study, segs = million(folder)
         gen_s = time.perf_counter() - t
