@@ -530,3 +530,15 @@ def test_a_study_run_writes_the_map_and_the_rings(tmp_path, weight, unit, name):
     assert {lay["view"] for lay in layers_of(d, "rings")} == {"today", "v1", "v2"}
     proposed = layers_of(d, "proposed")
     assert [lay["view"] for lay in proposed] == ["v1"]
+
+
+def test_a_single_link_region_without_its_link_is_drawn_without_a_key():
+    import pandas as pd
+
+    weak = MI.weak()
+    ids = [None if k in (0, 3) else v for k, v in enumerate(weak["edge_id"])]
+    weak["edge_id"] = pd.array(ids, dtype="Int64")
+    d = data_of(render_map(MI.full(weak=weak, scenarios=())))
+    keys = [lay for lay in layers_of(d, "weak_top") if lay["type"] == "line"][0]
+    single = weak[(weak["rank"] <= 20) & (weak["reason"] == "single_link") & weak["edge_id"].notna()]
+    assert col(keys, "rank") == [int(k) for k in single["rank"]] and 1 not in col(keys, "rank")

@@ -17,6 +17,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import pandas as pd
 
 from .. import palette as P
 from .contract import MapInput, NetworkLayer
@@ -78,8 +79,6 @@ def _col(frame, name, default=np.nan):
 
 
 def _fnum(frame, name):
-    import pandas as pd
-
     if name not in frame.columns:
         return np.full(len(frame), np.nan)
     return pd.to_numeric(frame[name], errors="coerce").to_numpy(np.float64, na_value=np.nan)
@@ -394,7 +393,7 @@ class _Builder:
                 eid = edges["edge_id"].to_numpy()
                 pos = {int(v): i for i, v in enumerate(eid)}
                 for i, (r, e) in enumerate(zip(rs, g["edge_id"])):
-                    if r == "single_link" and e is not None and e == e and int(e) in pos:
+                    if r == "single_link" and not pd.isna(e) and int(e) in pos:
                         key_rows.append((i, pos[int(e)]))
             if key_rows:
                 legend.append({"sw": "line", "c": P.reason_colour("single_link"), "w": 6,
