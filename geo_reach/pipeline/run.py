@@ -124,6 +124,9 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
             log.warning("scenario %s: changes nothing (reported, still mapped)", n)
         scen = analyse(study, sspecs, shubs, progress=bar, with_profile=False, rasters=rasters)
         results[n] = compare(study, n, base, scen, changes, kinds)
+        results[n]["node_cost"] = scen.node_cost            # for the map's scenario view
+        if scen.rings is not None:
+            results[n]["layers"]["reach_rings"] = scen.rings
         results[n]["proposal_notes"] = scen.notes + [
             f"{k} of {v} issue spots in the scenario network" for k, v in scen.build.report["issues"].items()
             if v and v != base.build.report["issues"].get(k)]
@@ -139,7 +142,7 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
     }
     if names:
         largest = f"{max(study.surface.bands):g}" if study.surface else ""
-        summary["scenarios"] = {n: {k: v for k, v in r.items() if k not in ("layers", "delta", "edges")}
+        summary["scenarios"] = {n: {k: v for k, v in r.items() if k not in ("layers", "delta", "edges", "node_cost")}
                                 for n, r in results.items()}
         summary["scenario_ranking"] = rank_scenarios(summary["scenarios"], largest)
     bar("writing outputs")

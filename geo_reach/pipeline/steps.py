@@ -46,6 +46,8 @@ class Analysis:
     population: np.ndarray | None = None
     kind_surfaces: dict = field(default_factory=dict)
     bands: object = None
+    rings: object = None                                  # disjoint reach rings (layer reach_rings)
+    barriers: object = None                               # water and barrier polygons (for the map)
     pop_stats: object = None
     kind_pop_stats: dict = field(default_factory=dict)
     zones: object = None
@@ -131,7 +133,8 @@ def path_frame(net, path_nodes, weight, value):
     import geopandas as gpd
     import shapely
 
-    cols = {"cost": [], "weight": [], "minutes": [], "length_m": [], "edges": [], "from_node": [], "to_node": []}
+    cols = {"path_cost": [], "weight": [], "minutes": [], "length_m": [], "edge_count": [], "from_node": [],
+            "to_node": []}
     if path_nodes is None or len(path_nodes) < 2:
         return gpd.GeoDataFrame(cols, geometry=[], crs=net.crs)
     adj = net.csr(weight)
@@ -143,15 +146,15 @@ def path_frame(net, path_nodes, weight, value):
     coords = np.concatenate([shapely.get_coordinates(p) if i == 0 else shapely.get_coordinates(p)[1:]
                              for i, p in enumerate(parts)])
     mins = net.edge_minutes[eids]
-    return gpd.GeoDataFrame({"cost": [float(value)], "weight": [weight.name],
+    return gpd.GeoDataFrame({"path_cost": [float(value)], "weight": [weight.name],
                              "minutes": [float(mins.sum()) if np.isfinite(mins).all() else np.nan],
-                             "length_m": [float(net.edge_length_m[eids].sum())], "edges": [len(eids)],
+                             "length_m": [float(net.edge_length_m[eids].sum())], "edge_count": [len(eids)],
                              "from_node": [int(path_nodes[0])], "to_node": [int(path_nodes[-1])]},
                             geometry=[shapely.LineString(coords)], crs=net.crs)
 
 
 def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
-    from ..analysis.bands import band_polygons, population_stats, rural_access_index, zone_table
+    from ..analysis.bands import band_polygons, population_stats, ring_polygons, rural_access_index, zone_table
     from ..analysis.regions import weak_regions
     from ..analysis.surface import compute_surface
 
@@ -191,6 +194,8 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
     bands_txt = [f"{b:g}" for b in s.bands]
     hub_ids = list(hubs.ids)
     out.bands = band_polygons(surf.minutes, surf.nearest_hub, grid, bands_txt, population=pop, hub_ids=hub_ids)
+    out.rings = ring_polygons(surf.minutes, grid, bands_txt, population=pop, passable=surf.flat_kmh > 0)
+    out.barriers = rasters.get("barriers")
     if pop is not None:
         out.pop_stats = population_stats(surf.minutes, pop, bands_txt)
     for kind, (kc, kh) in kind_costs.items():
