@@ -29,7 +29,11 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-__all__ = ["Term", "TERMS", "lookup", "describe", "markdown"]
+__all__ = ["Term", "TERMS", "lookup", "describe", "markdown", "update_readme", "START", "END"]
+
+#: Markers around the glossary section in README.md (the text between them is :func:`markdown`).
+START = "<!-- glossary:start (generated from geo_reach/glossary.py; python -m geo_reach.glossary) -->"
+END = "<!-- glossary:end -->"
 
 
 @dataclass(frozen=True)
@@ -245,3 +249,25 @@ def markdown() -> str:
     for t in sorted(TERMS, key=lambda t: t.name.lstrip("<")):
         rows.append(f"| `{t.name}` | {t.meaning} | {t.unit} | {t.where} |")
     return "\n".join(rows) + "\n"
+
+
+def update_readme(path) -> bool:
+    """Rewrite the glossary section of the README at ``path``; True when it changed."""
+    from pathlib import Path
+
+    p = Path(path)
+    text = p.read_text(encoding="utf-8")
+    head, _, rest = text.partition(START)
+    _, _, tail = rest.partition(END)
+    new = f"{head}{START}\n{markdown()}{END}{tail}"
+    if new != text:
+        p.write_text(new, encoding="utf-8")
+    return new != text
+
+
+if __name__ == "__main__":   # python -m geo_reach.glossary: refresh README.md's glossary section
+    import sys
+    from pathlib import Path
+
+    readme = Path(__file__).resolve().parents[1] / "README.md"
+    print(f"{readme}: {'updated' if update_readme(readme) else 'already current'}", file=sys.stderr)

@@ -282,23 +282,34 @@ def test_od_pairs_layer_and_csv(tmp_path, net_path, capsys, monkeypatch):
     assert code == 0, err
     assert "1 destinations farther than --max-access-m" in err
     pairs = pyogrio.read_dataframe(out, layer="od_pairs")
-    assert {"origin_id", "destination_id", "cost", "length_m"} <= set(pairs.columns)
-    assert len(pairs) == 4  # 2 origins x 2 attached destinations
+    assert {"origin_id", "destination_id", "trip_cost", "length_m", "reason"} <= set(pairs.columns)
+    assert len(pairs) == 6  # 2 origins x 3 destinations: none is dropped, each empty cost has a reason
     row = pairs[(pairs.origin_id == 10) & (pairs.destination_id == 1)].iloc[0]
-    assert row.cost == pytest.approx(8.0) and row.length_m == pytest.approx(6900.0)  # as in the route test
+    assert row.trip_cost == pytest.approx(8.0) and row.length_m == pytest.approx(6900.0)  # as in the route test
     assert row.geometry.length == pytest.approx(np.hypot(3800, 2900))  # straight connecting line
+    assert row.reason in ("", None)
     island = pairs[pairs.destination_id == 2]
-    assert island.cost.isna().all()
+    assert island.trip_cost.isna().all() and island.reason.str.startswith("no path").all()
+    far = pairs[pairs.destination_id == 3]
+    assert far.trip_cost.isna().all() and far.reason.str.startswith("destination farther").all()
     import pandas as pd
 
     table = pd.read_csv(csv)
-    assert list(table.columns[:4]) == ["origin_id", "destination_id", "cost", "length_m"] and len(table) == 4
+    assert list(table.columns[:4]) == ["origin_id", "destination_id", "trip_cost", "length_m"] and len(table) == 6
     code, _, err = run(["od", net_path, "--origins", o, "--destinations", d, "--nearest", "1", "-o", out,
                         "--overwrite"], capsys, monkeypatch)
     assert code == 0, err
     near = pyogrio.read_dataframe(out, layer="od_pairs")
     assert len(near) == 2 and near["rank"].tolist() == [1, 1]
     assert near.set_index("origin_id").loc[2, "destination_id"] == 1  # origin 2 stands on destination 1
+    # an origin that reaches no destination is kept, with a null cost and the reason
+    code, _, err = run(["od", net_path, "--origins", o, "--destinations", write_points(tmp_path / "d2.gpkg",
+                        [(X0 + 50500, Y0 + 20)]), "--nearest", "1", "-o", out, "--overwrite"], capsys, monkeypatch)
+    assert code == 0, err
+    near = pyogrio.read_dataframe(out, layer="od_pairs")
+    assert len(near) == 2 and near["trip_cost"].isna().all() and near["destination_id"].isna().all()
+    assert near["reason"].str.startswith("no destination reachable").all()
+    assert "2 without a path" in err
 
 
 # ====================================================================== metrics

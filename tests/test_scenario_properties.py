@@ -258,7 +258,7 @@ def test_pipeline_added_road_never_slower_and_closure_never_faster(kit_run):
     assert np.nanmax(shut) > 0.1
     for name, sign in (("far_link", -1), ("shut", 1)):
         s = gpd.read_file(out / "results.gpkg", layer=f"{name}_settlements")
-        d = s["delta_minutes"].dropna().to_numpy()
+        d = s["hub_minutes_change"].dropna().to_numpy()
         assert len(d)
         assert (sign * d >= -1e-6).all(), (name, d)
         # Edges, like for like: each edge in the change layer against the baseline edge of the same

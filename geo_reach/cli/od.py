@@ -60,37 +60,63 @@ def run(args):
     report_left_out(da, d.ids, "destinations", args.max_access_m)
     oi = np.nonzero(oa.attached)[0]
     di = np.nonzero(da.attached)[0]
-    od = od_matrix(net, oa.subset(oi), da.subset(di), opt.weight)
-    cost, length = od.cost, od.length_m
+    part = od_matrix(net, oa.subset(oi), da.subset(di), opt.weight)
+    n_o, n_d = len(o.ids), len(d.ids)
+    cost = np.full((n_o, n_d), np.inf)
+    length = np.full((n_o, n_d), np.inf)
+    cost[np.ix_(oi, di)] = part.cost
+    length[np.ix_(oi, di)] = part.length_m
+    far = f"farther than the largest access distance ({opt.max_access_m:g} m) from the network"
+    why = np.full((n_o, n_d), "", dtype=object)
+    why[~np.isfinite(cost)] = f"no path on {opt.weight.name}: the two lie in parts of the network no trip joins"
+    why[:, ~da.attached] = f"destination {far}"
+    why[~oa.attached, :] = f"origin {far}"
     rows_o, rows_d, rank = [], [], []
-    for a in range(len(oi)):
+    for a in range(n_o):
         if args.nearest is not None:
             fin = np.nonzero(np.isfinite(cost[a]))[0]
             order = fin[np.lexsort((length[a, fin], cost[a, fin]))][: args.nearest]
+            if len(order) == 0:   # kept, with a null destination and the reason
+                rows_o.append(np.array([a]))
+                rows_d.append(np.array([-1]))
+                rank.append(np.array([0]))
+                continue
             rows_o.append(np.full(len(order), a))
             rows_d.append(order)
             rank.append(np.arange(1, len(order) + 1))
         else:
-            rows_o.append(np.full(len(di), a))
-            rows_d.append(np.arange(len(di)))
+            rows_o.append(np.full(n_d, a))
+            rows_d.append(np.arange(n_d))
     ro = np.concatenate(rows_o) if rows_o else np.zeros(0, np.int64)
     rd = np.concatenate(rows_d) if rows_d else np.zeros(0, np.int64)
-    c = cost[ro, rd] if len(ro) else np.zeros(0)
-    ln = length[ro, rd] if len(ro) else np.zeros(0)
+    none = rd < 0
+    rdx = np.maximum(rd, 0)
+    c = np.where(none, np.inf, cost[ro, rdx]) if len(ro) else np.zeros(0)
+    ln = np.where(none, np.inf, length[ro, rdx]) if len(ro) else np.zeros(0)
+    reason = why[ro, rdx] if len(ro) else np.zeros(0, object)
+    if none.any():
+        reason[none] = np.where(~oa.attached[ro[none]], f"origin {far}", "no destination reachable on "
+                                f"{opt.weight.name}")
+    dest = d.ids[rdx].astype(object) if len(ro) else np.zeros(0, object)
+    dest[none] = None
     data = {
-        "origin_id": o.ids[oi][ro] if len(ro) else np.zeros(0, object),
-        "destination_id": d.ids[di][rd] if len(ro) else np.zeros(0, object),
-        "cost": np.where(np.isfinite(c), c, np.nan),
+        "origin_id": o.ids[ro] if len(ro) else np.zeros(0, object),
+        "destination_id": dest,
+        "trip_cost": np.where(np.isfinite(c), c, np.nan),
         "length_m": np.where(np.isfinite(c), ln, np.nan),
         "weight": np.full(len(ro), opt.weight.name, dtype=object),
+        "reason": reason,
     }
     if args.nearest is not None:
-        data["rank"] = np.concatenate(rank) if rank else np.zeros(0, np.int64)
+        r = np.concatenate(rank) if rank else np.zeros(0, np.int64)
+        data["rank"] = pd.array(np.where(r > 0, r, 0), dtype="Int64")
+        data["rank"][r == 0] = pd.NA
     frame = pd.DataFrame(data)
     for col, ids in (("origin_id", o.ids), ("destination_id", d.ids)):
         if all(isinstance(v, (int, np.integer)) for v in ids):
-            frame[col] = frame[col].astype(np.int64)
-    lines = shapely.linestrings(np.stack([o.xy[oi][ro], d.xy[di][rd]], axis=1)) if len(ro) else []
+            frame[col] = frame[col].astype("Int64")
+    ends = np.where(none[:, None], o.xy[ro], d.xy[rdx]) if len(ro) else np.zeros((0, 2))
+    lines = shapely.linestrings(np.stack([o.xy[ro], ends], axis=1)) if len(ro) else []
     layer = gpd.GeoDataFrame(frame, geometry=np.asarray(lines, dtype=object), crs=net.crs)
     with OutputSet([args.output, args.csv]) as out:
         write_layers(out.path(args.output), {"od_pairs": layer},
@@ -98,8 +124,8 @@ def run(args):
                                                f"origins and destinations. {CAUTION}"})
         if args.csv:
             frame.to_csv(out.path(args.csv), index=False)
-    none = int((~np.isfinite(c)).sum())
-    note(f"od: {len(frame)} pairs ({len(oi)} origins x {'K nearest' if args.nearest else len(di)} destinations), "
-         f"{none} without a path -> {args.output}{' and ' + args.csv if args.csv else ''}")
+    unreached = int((~np.isfinite(c)).sum())
+    note(f"od: {len(frame)} rows ({n_o} origins x {'the K nearest' if args.nearest else n_d} destinations), "
+         f"{unreached} without a path (reason given) -> {args.output}{' and ' + args.csv if args.csv else ''}")
     note(CAUTION)
     return 0

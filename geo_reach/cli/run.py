@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-__all__ = ["register", "default_outdir", "run", "run_compare", "print_summary"]
+__all__ = ["register", "default_outdir", "run", "run_compare", "print_summary", "scenario_headline"]
 
 
 def register(sub):
@@ -69,6 +69,30 @@ def run_compare(args):
     return 0
 
 
+def scenario_headline(s: dict, unit: str) -> str:
+    """One line per scenario, the people it cuts off first (a loss is never hidden behind a gain)."""
+    parts = []
+    cut = s.get("people_cut_off") or {}
+    by_kind = {k: v for k, v in (cut.get("by_kind") or {}).items() if v}
+    if cut.get("total") or by_kind:
+        kinds = ", ".join(f"{k} {v:,.0f}" for k, v in by_kind.items())
+        parts.append(f"CUTS OFF {cut.get('total') or 0:,.0f} people from every hub"
+                     + (f" (from their nearest hub of a kind: {kinds})" if kinds else ""))
+    parts.append("; ".join(s["changes"]) or "changes nothing")
+    parts.append(f"{s.get('new_or_upgraded_km', 0):.1f} km new/upgraded")
+    newly = s.get("people_newly_within", {})
+    if newly:
+        parts.append("people newly within " + ", ".join(f"{k} min: {v:+,.0f}" for k, v in newly.items()))
+    parts.append(f"person-minutes saved {s.get('person_minutes_saved', 0):,.0f}")
+    lc = s.get("largest_component") or {}
+    if lc and not lc.get("same_places", True):
+        parts.append(f"network split: largest part {lc['nodes_before']:,} -> {lc['nodes_after']:,} nodes "
+                     "(diameter not compared)")
+    elif s.get("diameter_change") is not None:
+        parts.append(f"diameter {s['diameter_change']:+.1f} {unit}")
+    return "; ".join(parts)
+
+
 def print_summary(summary: dict, out: Path, file=None):
     """The closing text summary: where the outputs are and the main figures."""
     file = file or sys.stdout
@@ -83,9 +107,10 @@ def print_summary(summary: dict, out: Path, file=None):
       f"{(n['network_length_m'] or 0) / 1000:.1f} km", file=file)
     d = m["diameter"]
     mp = m["mean_path"]
+    unit = m.get("unit", m["weight"])
     if d["value"] is not None:
-        p(f"diameter: {d['value']:.1f} {m['weight']} (node {d['from_node']} to {d['to_node']}); "
-          f"mean path {mp['value']:.1f} {m['weight']}", file=file)
+        p(f"diameter: {d['value']:.1f} {unit} (node {d['from_node']} to {d['to_node']}); "
+          f"mean path {mp['value']:.1f} {unit}", file=file)
     if "population_total" in b:
         bands = b["population_by_band"]
         largest = max(bands, key=float)
@@ -97,9 +122,5 @@ def print_summary(summary: dict, out: Path, file=None):
           file=file)
     for r in summary.get("scenario_ranking", []):
         s = summary["scenarios"][r["scenario"]]
-        newly = s.get("people_newly_within", {})
-        p(f"scenario {r['rank']}. {r['scenario']}: {'; '.join(s['changes']) or 'changes nothing'}; "
-          f"{s.get('new_or_upgraded_km', 0):.1f} km new/upgraded; people newly within "
-          + ", ".join(f"{k} min: {v:+,.0f}" for k, v in newly.items())
-          + f"; person-minutes saved {s.get('person_minutes_saved', 0):,.0f}", file=file)
+        p(f"scenario {r['rank']}. {r['scenario']}: {scenario_headline(s, unit)}", file=file)
     p(summary["caution"], file=file)

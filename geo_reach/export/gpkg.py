@@ -37,8 +37,8 @@ import pandas as pd
 from ..errors import CRSError, LayerError, OptionError, OutputError, where
 from .atomic import atomic_path, check_output
 
-__all__ = ["write_layers", "write_network", "write_layer_file", "network_files", "network_layers", "layer_file",
-           "LAYER_FILE_FORMATS", "NETWORK_FORMATS", "GPKG_VERSION", "LAYER_NAME"]
+__all__ = ["write_layers", "write_network", "write_column_descriptions", "write_layer_file", "network_files",
+           "network_layers", "layer_file", "LAYER_FILE_FORMATS", "NETWORK_FORMATS", "GPKG_VERSION", "LAYER_NAME"]
 
 #: GeoPackage version written (``user_version`` 10400).
 GPKG_VERSION = "1.4"
@@ -174,11 +174,61 @@ def write_layers(path, layers: Mapping[str, pd.DataFrame], overwrite: bool = Fal
                     msg = " ".join(str(err).split())[:200]
                     raise OutputError(f"{where(path, name)}could not be written ({msg}); "
                                       "check the folder is writable and has free space") from err
+            write_column_descriptions(tmp, {n: list(f.columns) for n, f in prepared.items()}, path)
         finally:
             for extra in ("-journal", "-wal", "-shm"):
                 with contextlib.suppress(FileNotFoundError):
                     Path(str(tmp) + extra).unlink()
     return path
+
+
+def write_column_descriptions(gpkg, columns: Mapping[str, list], shown=None) -> int:
+    """Describe every field the glossary knows in the standard ``gpkg_data_columns`` table.
+
+    OGC 12-128 (GeoPackage 1.3.1), clause F.9 "Schema": the table holds, per
+    feature or attribute table column, a title and a description that
+    desktop GIS shows beside the field; the extension is registered in
+    ``gpkg_extensions``.  Text comes from :mod:`geo_reach.glossary`; fields
+    it does not know get no row.  Returns the number of rows written.
+
+    References
+    ----------
+    .. [1] OGC 12-128r18 (2021). OGC GeoPackage Encoding Standard 1.3.1, Annex F.9.
+    """
+    import sqlite3
+
+    from .. import glossary
+
+    rows = []
+    for table, cols in columns.items():
+        for c in cols:
+            if c in ("geometry", "geom", "fid"):
+                continue
+            d = glossary.describe(str(c))
+            if d is not None:
+                rows.append((table, str(c), str(c), str(c).replace("_", " "), d))
+    try:
+        db = sqlite3.connect(gpkg)
+        try:
+            db.execute("CREATE TABLE IF NOT EXISTS gpkg_data_columns (table_name TEXT NOT NULL, column_name TEXT NOT "
+                       "NULL, name TEXT, title TEXT, description TEXT, mime_type TEXT, constraint_name TEXT, "
+                       "CONSTRAINT pk_gdc PRIMARY KEY (table_name, column_name), CONSTRAINT gdc_tn UNIQUE "
+                       "(table_name, name))")
+            db.execute("CREATE TABLE IF NOT EXISTS gpkg_extensions (table_name TEXT, column_name TEXT, "
+                       "extension_name TEXT NOT NULL, definition TEXT NOT NULL, scope TEXT NOT NULL, "
+                       "CONSTRAINT ge_tce UNIQUE (table_name, column_name, extension_name))")
+            db.executemany("INSERT OR REPLACE INTO gpkg_data_columns (table_name, column_name, name, title, "
+                           "description) VALUES (?, ?, ?, ?, ?)", rows)
+            db.execute("DELETE FROM gpkg_extensions WHERE table_name = 'gpkg_data_columns'")
+            db.execute("INSERT INTO gpkg_extensions VALUES ('gpkg_data_columns', NULL, 'gpkg_schema', "
+                       "'http://www.geopackage.org/spec/#extension_schema', 'read-write')")
+            db.commit()
+        finally:
+            db.close()
+    except sqlite3.Error as err:
+        raise OutputError(f"{where(shown or gpkg)}the field descriptions could not be written ({err}); check the "
+                          "folder is writable and has free space") from err
+    return len(rows)
 
 
 # ------------------------------------------------------------------ other formats: one file per layer

@@ -170,31 +170,45 @@ def settlement_population(study: Study, grid) -> np.ndarray:
 
 
 def study_grid(study: Study, net, hubs: Hubs, pop_bounds=None):
-    """The analysis grid: bounds of network, hubs and population raster plus the margin (or the extent).
+    """The analysis grid: every place the study counts, plus the margin (or the given extent).
 
-    ``pop_bounds`` is the population raster's ``(bounds, crs)`` (from
-    :func:`~geo_reach.ingest.rasters.raster_bounds`); the grid is then large
-    enough for every person in it, and the refusal when that is too large
-    for memory names the size.
+    The grid covers the network, every hub, every settlement and the
+    population raster (``pop_bounds``, its ``(bounds, crs)`` from
+    :func:`~geo_reach.ingest.rasters.raster_bounds`) - within the zones'
+    extent when zones are given, so a country-wide raster used for one
+    district costs only the district.  Nobody is left out silently: with a
+    given ``extent`` that cuts places off, they are named in the notes.
     """
     from ..ingest.rasters import Grid
 
     s = study.surface
     if s.extent is not None:
-        bounds = s.extent
-        margin = 0.0
-    else:
-        xs = [net.node_x.min(), net.node_x.max(), hubs.xy[:, 0].min(), hubs.xy[:, 0].max()]
-        ys = [net.node_y.min(), net.node_y.max(), hubs.xy[:, 1].min(), hubs.xy[:, 1].max()]
-        if pop_bounds is not None:
-            from rasterio.warp import transform_bounds
+        return Grid.from_bounds(s.extent, s.cell_m, 0.0, crs=net.crs)
+    xs = [net.node_x.min(), net.node_x.max(), hubs.xy[:, 0].min(), hubs.xy[:, 0].max()]
+    ys = [net.node_y.min(), net.node_y.max(), hubs.xy[:, 1].min(), hubs.xy[:, 1].max()]
+    if study.settlements is not None:
+        b = read_settlements(study, net.crs).total_bounds
+        xs += [b[0], b[2]]
+        ys += [b[1], b[3]]
+    if pop_bounds is not None:
+        from rasterio.warp import transform_bounds
 
-            b = transform_bounds(pop_bounds[1], net.crs, *pop_bounds[0], densify_pts=21)
+        b = list(transform_bounds(pop_bounds[1], net.crs, *pop_bounds[0], densify_pts=21))
+        if study.zones is not None:
+            z = _zone_bounds(study, net.crs)
+            b = [max(b[0], z[0]), max(b[1], z[1]), min(b[2], z[2]), min(b[3], z[3])]
+        if b[0] < b[2] and b[1] < b[3]:
             xs += [b[0], b[2]]
             ys += [b[1], b[3]]
-        bounds = (min(xs), min(ys), max(xs), max(ys))
-        margin = s.margin_m
-    return Grid.from_bounds(bounds, s.cell_m, margin, crs=net.crs)
+    bounds = (min(xs), min(ys), max(xs), max(ys))
+    return Grid.from_bounds(bounds, s.cell_m, s.margin_m, crs=net.crs)
+
+
+def _zone_bounds(study: Study, crs):
+    from ..ingest.layers import parse_layer_ref, read_layer
+
+    z = study.zones
+    return read_layer(parse_layer_ref(layer_ref(study, z["path"], z.get("layer"))), "polygons").to_crs(crs).total_bounds
 
 
 def load_rasters(study: Study, net, hubs: Hubs) -> dict:

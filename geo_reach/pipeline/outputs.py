@@ -152,7 +152,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
         gpkg = folder / "comparison.gpkg"
         if layers:
             write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
-            write_styles(gpkg, layers)
+            write_styles(gpkg, layers, cost_unit=base.weight.unit)
         _write_deltas(folder, base, scenarios)
         _write_tables(folder, study, base, scenarios, baseline=False)
         if study.outputs.map:
@@ -164,6 +164,8 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     if base.hub_table is not None:
         layers["hubs"] = base.hub_table
     layers["diameter_path"] = base.diameter_path
+    if base.rings is not None:
+        layers["reach_rings"] = base.rings
     if base.bands is not None:
         layers["reach_bands"] = base.bands
     if base.weak is not None:
@@ -171,13 +173,13 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     if base.settlements is not None:
         layers["settlements"] = base.settlements
     if base.zones is not None:
-        layers["zones"] = base.zones.zones
+        layers["zones"] = base.zones
     for name, sc in scenarios.items():
         for lname, frame in sc["layers"].items():
             layers[f"{name}_{lname}"] = frame
     gpkg = folder / "results.gpkg"
     write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
-    write_styles(gpkg, layers)
+    write_styles(gpkg, layers, cost_unit=base.weight.unit)
     _write_tables(folder, study, base, scenarios)
     if base.surface is not None:
         _write_surface_rasters(folder, base)
@@ -192,37 +194,86 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     write_summary(folder, summary)
 
 
-def _write_map(path, study, base, scenarios):
-    from ..export.html_map import Comparison, write_map
+#: How each routing weight is shown on the map: unit label, what it is, scale from the weight's unit.
+_MAP_COSTS = {"minutes": ("min", "minutes", 1.0), "length_m": ("km", "distance", 1e-3),
+              "hops": ("hops", "hops", 1.0), "latency_ms": ("ms", "latency", 1.0)}
 
-    edges = edges_layer(base).rename(columns={"hub_cost": "hub_minutes"})
-    if "hub_minutes" not in edges:
-        edges["hub_minutes"] = np.nan
-    issues = base.build.issues
-    weak = base.weak
-    if weak is not None and base.population is not None and (weak["population"] > 0).any():
-        # the map shows the regions where people live; the GeoPackage layer keeps them all
-        weak = weak[weak["population"] > 0]
-    kw = dict(hubs=base.hub_table, bands=base.bands[base.bands["hub_id"].isna()] if base.bands is not None else None,
-              weak=weak, diameter=base.diameter_path if len(base.diameter_path) else None,
-              issues=issues.rename(columns={"kind": "issue"}) if len(issues) else None,
-              basemap=study.outputs.basemap, title=f"geo-reach: {study.title}")
-    if scenarios:
-        name, sc = next(iter(scenarios.items()))
-        after = sc["edges"].rename(columns={"hub_cost": "hub_minutes"})
-        if "hub_minutes" not in after:
-            after["hub_minutes"] = np.nan
+
+def _write_map(path, study, base, scenarios):
+    """Adapter from the pipeline's results to the map's input contract (:class:`geo_reach.export.webmap.MapInput`)."""
+    import geopandas as gpd
+
+    from ..export.webmap import MapInput, NetworkLayer, ScenarioView, write_map
+
+    w = base.weight.name
+    unit, cost_name, scale = _MAP_COSTS.get(w, (w, w, 1.0))
+
+    def network(edges, node_cost):
+        if node_cost is None:
+            return None
+        ecost = edges[w].to_numpy(float) * scale if w in edges.columns else None
+        return NetworkLayer(edges, np.asarray(node_cost, float) * scale, ecost)
+
+    def settlements(frame, suffix=""):
+        if frame is None:
+            return None
+        col = lambda c: frame[f"{c}{suffix}"] if f"{c}{suffix}" in frame.columns else (  # noqa: E731
+            frame[c] if c in frame.columns else None)
+        minutes, hub, length = col("hub_minutes"), col("nearest_hub_name"), col("network_length_m")
+        return gpd.GeoDataFrame({
+            "name": frame["name"].to_numpy(object) if "name" in frame.columns else None,
+            "population": frame["population"].to_numpy(float) if "population" in frame.columns else np.nan,
+            "minutes": minutes.to_numpy(float),
+            "hub_name": hub.to_numpy(object) if hub is not None else None,
+            "network_km": length.to_numpy(float) / 1000.0 if length is not None else np.nan,
+        }, geometry=frame.geometry.values, crs=frame.crs)
+
+    districts = None
+    if base.zones is not None:
+        z = base.zones
+        names = z["name"] if "name" in z.columns else z["zone_id"]
+        districts = gpd.GeoDataFrame({"name": names.astype(str).to_numpy(object),
+                                      "population": z["population"].to_numpy(float),
+                                      "share_beyond": z["share_beyond_pct"].to_numpy(float) / 100.0,
+                                      "mean_minutes": z["mean_hub_minutes"].to_numpy(float)},
+                                     geometry=z.geometry.values, crs=z.crs)
+    diameter = base.diameter_path
+    if diameter is not None and len(diameter):
+        diameter = diameter.rename(columns={"path_cost": "cost"})
+        diameter = diameter.assign(cost=diameter["cost"].to_numpy(float) * scale)
+    views = []
+    for name, sc in scenarios.items():
+        edges = sc.get("edges")
+        net = network(edges, sc.get("node_cost")) if edges is not None else None
         change = sc["layers"].get("edge_change")
         if change is not None:
-            change = change.rename(columns={"hub_cost_change": "delta_minutes"})
-        comp = Comparison(before=edges, after=after, change=change,
-                          before_label="Today", after_label=f"With {name}")
-        write_map(path, comparison=comp, **kw)
-    else:
-        write_map(path, edges=edges, **kw)
-
-
-# --------------------------------------------------------------------------- scenarios
+            change = change.rename(columns={"hub_cost_change": "delta", "hub_cost_before": "before",
+                                            "hub_cost_after": "after"})
+            for c in ("delta", "before", "after"):
+                change[c] = change[c].to_numpy(float) * scale
+        proposed = None
+        if edges is not None:
+            k = sc.get("kinds", {})
+            new = np.array(edges["src_layer"].isin(k.get("added_layers", [])), dtype=bool)
+            for lab, fids in k.get("upgraded", {}).items():
+                new = new | np.array((edges["src_layer"] == lab) & edges["src_fid"].isin(fids), dtype=bool)
+            proposed = edges[new & (edges["mode"] != "transfer").to_numpy()] if new.any() else None
+        after = sc["layers"].get("settlements")
+        views.append(ScenarioView(
+            name=name, description=sc.get("description", ""), network=net, change=change, proposed=proposed,
+            rings=sc["layers"].get("reach_rings"),
+            settlements=settlements(after, "_after") if after is not None else None))
+    bands = list(study.surface.bands) if study.surface else [30.0, 60.0, 120.0]
+    m = MapInput(
+        title=study.title, cost_unit=unit, cost_name=cost_name, thresholds=tuple(bands),
+        share_minutes=max(bands), weak_minutes=study.surface.threshold if study.surface else None,
+        network=network(base.build.network.edges_frame(), base.node_cost),
+        hubs=base.hub_table, rings=base.rings, settlements=settlements(base.settlements),
+        districts=districts, water=base.barriers, weak=base.weak,
+        diameter=diameter if diameter is not None and len(diameter) else None,
+        issues=base.build.issues if len(base.build.issues) else None, scenarios=tuple(views),
+        basemap=study.outputs.basemap)
+    write_map(path, m)
 
 
 def write_surface_outputs(folder: Path, study: Study, a: Analysis, summary: dict) -> None:
@@ -231,13 +282,13 @@ def write_surface_outputs(folder: Path, study: Study, a: Analysis, summary: dict
     from ..export.styles import write_styles
 
     _write_surface_rasters(folder, a)
-    layers = {"reach_bands": a.bands, "weak_regions": a.weak}
+    layers = {"reach_rings": a.rings, "reach_bands": a.bands, "weak_regions": a.weak}
     if a.settlements is not None:
         layers["settlements"] = a.settlements
     if a.zones is not None:
-        layers["zones"] = a.zones.zones
+        layers["zones"] = a.zones
     write_layers(folder / "reach.gpkg", layers, descriptions={k: CAUTION for k in layers})
-    write_styles(folder / "reach.gpkg", layers)
+    write_styles(folder / "reach.gpkg", layers, cost_unit="min")
     _write_tables(folder, study, a)
     write_report(folder / "report.html", study, a, {}, summary)
     write_summary(folder, summary)

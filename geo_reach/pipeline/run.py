@@ -125,6 +125,9 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
             log.warning("scenario %s: changes nothing (reported, still mapped)", n)
         scen = analyse(study, sspecs, shubs, progress=bar, with_profile=False, rasters=rasters)
         results[n] = compare(study, n, base, scen, changes, kinds)
+        results[n]["node_cost"] = scen.node_cost            # for the map's scenario view
+        if scen.rings is not None:
+            results[n]["layers"]["reach_rings"] = scen.rings
         results[n]["tables"] = change_tables(study, base, scen)   # per settlement and zone, each hub kind
         results[n]["proposal_notes"] = scen.notes + [
             f"{k} of {v} issue spots in the scenario network" for k, v in scen.build.report["issues"].items()
@@ -141,7 +144,8 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
     }
     if names:
         largest = f"{max(study.surface.bands):g}" if study.surface else ""
-        summary["scenarios"] = {n: {k: v for k, v in r.items() if k not in ("layers", "delta", "edges", "tables")}
+        summary["scenarios"] = {n: {k: v for k, v in r.items()
+                                    if k not in ("layers", "delta", "edges", "node_cost", "tables")}
                                 for n, r in results.items()}
         summary["scenario_ranking"] = rank_scenarios(summary["scenarios"], largest)
     bar("writing outputs")

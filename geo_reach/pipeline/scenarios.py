@@ -125,14 +125,9 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
     import geopandas as gpd
 
     out = {"description": study.scenarios[name].get("description", ""), "changes": changes, "layers": {}}
-    bm, sm = base.metrics, scen.metrics
-    def change(a, b):
-        return None if a is None or b is None or not np.isfinite(a) or not np.isfinite(b) else a - b
-
-    out["diameter_change"] = change(sm["diameter"]["value"], bm["diameter"]["value"])
-    out["mean_path_change"] = change(sm["mean_path"]["value"], bm["mean_path"]["value"])
-    # km of new or upgraded line: added layers' length plus upgraded features' length
     bnet, snet = base.build.network, scen.build.network
+    out.update(_figure_changes(base, scen))
+    # km of new or upgraded line: added layers' length plus upgraded features' length
     new_km = 0.0
     base_layers = set(bnet.edge_src_layer)
     new_mask = ~np.isin(snet.edge_src_layer, list(base_layers)) & (snet.edge_mode != "transfer")
@@ -177,24 +172,19 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
             wa = np.nan_to_num(pop[~(a <= weak_t)]).sum()
             wb = np.nan_to_num(pop[~(b <= weak_t)]).sum()
             out["people_leaving_weak_regions"] = float(wa - wb)
+            out["people_cut_off"] = _people_cut_off(base, scen, pop)
         out["delta"] = np.where(np.isfinite(delta), delta, np.nan)
     out["edges"] = edges_layer(scen)
     # per-settlement and per-zone change
     if base.settlements is not None and scen.settlements is not None:
-        s = base.settlements[["geometry"]].copy()
-        for col in base.settlements.columns:
-            if col not in ("geometry",):
-                s[col] = base.settlements[col].to_numpy()
-        s["minutes_after"] = scen.settlements["minutes"].to_numpy()
-        s["delta_minutes"] = s["minutes_after"] - s["minutes"]
-        out["layers"]["settlements"] = gpd.GeoDataFrame(s, geometry="geometry", crs=base.settlements.crs)
+        keep = [c for c in ("settlement_id", "name", "population") if c in base.settlements.columns]
+        compared = [c for c in base.settlements.columns if c.startswith("hub_minutes")
+                    or c.startswith("nearest_hub")]
+        out["layers"]["settlements"] = before_after(base.settlements, scen.settlements, keep, compared)
     if base.zones is not None and scen.zones is not None:
-        z = base.zones.zones.copy()
-        wm = [c for c in z.columns if "weighted" in c or c.endswith("minutes")]
-        for c in wm:
-            z[f"{c}_after"] = scen.zones.zones[c].to_numpy()
-            z[f"{c}_delta"] = z[f"{c}_after"] - z[c]
-        out["layers"]["zones"] = z
+        keep = [c for c in ("zone_id", "name", "population") if c in base.zones.columns]
+        compared = [c for c in base.zones.columns if c not in keep and c != "geometry"]
+        out["layers"]["zones"] = before_after(base.zones, scen.zones, keep, compared)
     # edge change layer: each scenario edge's minutes to the nearest hub (at its cheaper end) against
     # the baseline's minutes at the same places (nodes matched by position, to 1 mm); a scenario
     # node the baseline lacks (a new junction, a new line) has no "before".
@@ -223,8 +213,78 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
     return out
 
 
+def before_after(base, scen, keep, compared):
+    """A scenario layer: ``keep`` columns as they are, and ``<c>_before``, ``<c>_after``, ``<c>_change`` per
+    compared column (change = after minus before for numbers; ids have no change)."""
+    import geopandas as gpd
+    import pandas as pd
+
+    data = {c: base[c].to_numpy() for c in keep}
+    for c in compared:
+        b = base[c].to_numpy()
+        a = scen[c].to_numpy() if c in scen.columns else np.full(len(base), np.nan)
+        data[f"{c}_before"] = b
+        data[f"{c}_after"] = a
+        if np.issubdtype(np.asarray(b).dtype, np.number) and not c.startswith("nearest_hub"):
+            data[f"{c}_change"] = np.asarray(a, float) - np.asarray(b, float)
+    return gpd.GeoDataFrame(pd.DataFrame(data), geometry=base.geometry.values, crs=base.crs)
+
+
+def _people_cut_off(base: Analysis, scen: Analysis, pop) -> dict:
+    """People who reached a hub (of each kind) before and reach none after; ``total`` = those losing every hub."""
+    def lost(a, b):
+        return float(np.nan_to_num(pop[np.isfinite(a) & ~np.isfinite(b)]).sum())
+
+    out = {"total": lost(base.surface.minutes, scen.surface.minutes), "by_kind": {}}
+    for kind, ks in base.kind_surfaces.items():
+        sk = scen.kind_surfaces.get(kind)
+        out["by_kind"][kind] = lost(ks.minutes, sk.minutes if sk is not None else np.full_like(ks.minutes, np.nan))
+    return out
+
+
+def _figure_changes(base: Analysis, scen: Analysis) -> dict:
+    """Diameter and mean-path changes, given only when no place of today's largest part leaves it.
+
+    A closure that splits the network shrinks its largest part, and a smaller
+    part has a smaller diameter: that would read as an improvement.  Then the
+    split is reported (``largest_component``: nodes before and after) and no
+    change is given.  Places are matched by position (1 mm).
+    """
+    from scipy.spatial import cKDTree
+
+    from ..analysis.metrics import largest_strong_component
+
+    bm, sm = base.metrics, scen.metrics
+    if not bm or not sm:
+        return {}
+    bnet, snet = base.build.network, scen.build.network
+    bl = largest_strong_component(bnet, base.weight)
+    sl = largest_strong_component(snet, scen.weight)
+    out = {"largest_component": {"nodes_before": int(len(bl)), "nodes_after": int(len(sl))}}
+    kept = True
+    if len(bl):
+        d, _ = cKDTree(np.column_stack([snet.node_x[sl], snet.node_y[sl]])).query(
+            np.column_stack([bnet.node_x[bl], bnet.node_y[bl]])) if len(sl) else (np.full(len(bl), np.inf), None)
+        kept = bool(np.all(d < 1e-3))
+    out["largest_component"]["same_places"] = kept
+
+    def change(a, b):
+        return None if a is None or b is None or not np.isfinite(a) or not np.isfinite(b) else a - b
+
+    if kept:
+        out["diameter_change"] = change(sm["diameter"]["value"], bm["diameter"]["value"])
+        out["mean_path_change"] = change(sm["mean_path"]["value"], bm["mean_path"]["value"])
+    else:
+        out["diameter_change"] = None
+        out["mean_path_change"] = None
+        out["largest_component"]["note"] = (f"the largest part of the network went from {len(bl):,} to {len(sl):,} "
+                                            "nodes and lost places: diameter and mean path are not compared")
+    return out
+
+
 def rank_scenarios(results: dict, largest_band: str) -> list[dict]:
-    """Rank by people newly within the largest band, then person-minutes saved per km of new line.
+    """Rank: scenarios that cut nobody off first, by people newly within the largest band, then by
+    person-minutes saved per km of new line; scenarios that cut people off last, fewest cut off first.
 
     Closures and hub-only changes have no new line: they are ranked by
     person-minutes saved alone, and the ranking says so.
@@ -234,19 +294,26 @@ def rank_scenarios(results: dict, largest_band: str) -> list[dict]:
         newly = (r.get("people_newly_within") or {}).get(largest_band, 0.0)
         pm = r.get("person_minutes_saved", 0.0)
         km = r.get("new_or_upgraded_km", 0.0)
+        cut = (r.get("people_cut_off") or {}).get("total", 0.0) or 0.0
+        cut_any = max([cut, *((r.get("people_cut_off") or {}).get("by_kind", {}) or {}).values()], default=0.0)
         per_km = pm / km if km > 0 else None
-        rows.append({"scenario": name, "people_newly_within_largest_band": newly,
-                     "person_minutes_saved": pm, "person_minutes_saved_per_km": per_km,
-                     "ranked_by": "person-minutes per km of new or upgraded line" if km > 0 else
-                     "person-minutes alone (no new or upgraded line)"})
+        why = ("person-minutes per km of new or upgraded line" if km > 0 else
+               "person-minutes alone (no new or upgraded line)")
+        if cut_any > 0:
+            why = (f"ranked after every scenario that cuts nobody off: {cut_any:,.0f} people lose their hub "
+                   f"(of some kind); then {why}")
+        rows.append({"scenario": name, "people_cut_off": cut, "people_newly_within_largest_band": newly,
+                     "person_minutes_saved": pm, "person_minutes_saved_per_km": per_km, "ranked_by": why,
+                     "_cut_any": cut_any})
     # Per-km and raw person-minutes are different units: line scenarios are ordered among themselves
     # by person-minutes per km, then closures and hub-only changes by person-minutes.
-    rows.sort(key=lambda r: (-r["people_newly_within_largest_band"],
+    rows.sort(key=lambda r: (r["_cut_any"] > 0, r["_cut_any"], -r["people_newly_within_largest_band"],
                              r["person_minutes_saved_per_km"] is None,
                              -(r["person_minutes_saved_per_km"] if r["person_minutes_saved_per_km"] is not None
                                else r["person_minutes_saved"])))
     for i, r in enumerate(rows, 1):
         r["rank"] = i
+        del r["_cut_any"]
     return rows
 
 

@@ -18,7 +18,7 @@ from ..errors import InputError
 from ..study import Study
 from .inputs import Hubs, build_or_read, load_rasters, read_settlements
 
-__all__ = ["Analysis", "ALL_STEPS", "analyse", "path_frame"]
+__all__ = ["Analysis", "ALL_STEPS", "analyse", "path_frame", "zones_layer"]
 
 log = logging.getLogger("geo_reach")
 
@@ -46,6 +46,8 @@ class Analysis:
     population: np.ndarray | None = None
     kind_surfaces: dict = field(default_factory=dict)
     bands: object = None
+    rings: object = None                                  # disjoint reach rings (layer reach_rings)
+    barriers: object = None                               # water and barrier polygons (for the map)
     pop_stats: object = None
     kind_pop_stats: dict = field(default_factory=dict)
     zones: object = None
@@ -131,7 +133,8 @@ def path_frame(net, path_nodes, weight, value):
     import geopandas as gpd
     import shapely
 
-    cols = {"cost": [], "weight": [], "minutes": [], "length_m": [], "edges": [], "from_node": [], "to_node": []}
+    cols = {"path_cost": [], "weight": [], "minutes": [], "length_m": [], "edge_count": [], "from_node": [],
+            "to_node": []}
     if path_nodes is None or len(path_nodes) < 2:
         return gpd.GeoDataFrame(cols, geometry=[], crs=net.crs)
     adj = net.csr(weight)
@@ -143,15 +146,15 @@ def path_frame(net, path_nodes, weight, value):
     coords = np.concatenate([shapely.get_coordinates(p) if i == 0 else shapely.get_coordinates(p)[1:]
                              for i, p in enumerate(parts)])
     mins = net.edge_minutes[eids]
-    return gpd.GeoDataFrame({"cost": [float(value)], "weight": [weight.name],
+    return gpd.GeoDataFrame({"path_cost": [float(value)], "weight": [weight.name],
                              "minutes": [float(mins.sum()) if np.isfinite(mins).all() else np.nan],
-                             "length_m": [float(net.edge_length_m[eids].sum())], "edges": [len(eids)],
+                             "length_m": [float(net.edge_length_m[eids].sum())], "edge_count": [len(eids)],
                              "from_node": [int(path_nodes[0])], "to_node": [int(path_nodes[-1])]},
                             geometry=[shapely.LineString(coords)], crs=net.crs)
 
 
 def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
-    from ..analysis.bands import band_polygons, population_stats, rural_access_index, zone_table
+    from ..analysis.bands import band_polygons, population_stats, ring_polygons, rural_access_index, zone_table
     from ..analysis.regions import weak_regions
     from ..analysis.surface import compute_surface
 
@@ -191,6 +194,8 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
     bands_txt = [f"{b:g}" for b in s.bands]
     hub_ids = list(hubs.ids)
     out.bands = band_polygons(surf.minutes, surf.nearest_hub, grid, bands_txt, population=pop, hub_ids=hub_ids)
+    out.rings = ring_polygons(surf.minutes, grid, bands_txt, population=pop, passable=surf.flat_kmh > 0)
+    out.barriers = rasters.get("barriers")
     if pop is not None:
         out.pop_stats = population_stats(surf.minutes, pop, bands_txt)
     for kind, (kc, kh) in kind_costs.items():
@@ -208,7 +213,9 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
         if pop is None:
             out.notes.append("zones given without population: zone tables skipped")
         else:
-            out.zones = zone_table(surf.minutes, pop, grid, zones, bands_txt, zone_field=z.get("id_field"))
+            summary = zone_table(surf.minutes, pop, grid, zones, bands_txt, zone_field=z.get("id_field"))
+            out.zones = zones_layer(summary, zones, z.get("id_field"), z.get("name_field") or
+                                    ("name" if "name" in zones.columns else None), bands_txt, s.threshold)
     if study.settlements is not None:
         out.settlements = _settlements(study, out, net, hubs, surf, grid, hub_ids)
     hub_nodes = _hub_nodes(net, hubs, routing)
@@ -227,7 +234,9 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
 
 
 def _settlements(study, out, net, hubs, surf, grid, hub_ids):
-    """The settlements layer: minutes to the nearest hub (and per kind) and the network km of the trip."""
+    """The settlements layer (glossary names): ids, names, people, minutes to the nearest hub (and per kind),
+    the nearest hub's id and name, and the network length of the trip."""
+    import geopandas as gpd
     import shapely
 
     from ..analysis.attach import attach_points
@@ -235,10 +244,26 @@ def _settlements(study, out, net, hubs, surf, grid, hub_ids):
     from ..analysis.routing import nearest_hub_route_m
 
     routing = study.routing
+    t = study.settlements
     st = read_settlements(study, net.crs)
-    sp = sample_points(surf.minutes, surf.nearest_hub, grid, st, hub_ids=hub_ids)
-    sp = sp.rename(columns={"hub_id": "nearest_hub"})   # as in the nodes layer
-    # network km: along the least-cost route from the node where the settlement's trip joins
+    ids = st[t["id_field"]].to_numpy() if t.get("id_field") in st.columns \
+        else np.arange(1, len(st) + 1, dtype=np.int64)
+    data = {"settlement_id": ids}
+    nf = t.get("name_field") or ("name" if "name" in st.columns else None)
+    if nf:
+        if nf not in st.columns:
+            raise InputError(f"settlements: no field '{nf}' for the names; check the name field",
+                             key="settlement_name_field")
+        data["name"] = st[nf].astype(str).to_numpy(object)
+    data["population"] = st["population"].to_numpy(float)
+    frame = gpd.GeoDataFrame(data, geometry=st.geometry.values, crs=st.crs)
+    names = dict(zip(map(str, hubs.ids), hubs.names))
+    sp = sample_points(surf.minutes, surf.nearest_hub, grid, frame, hub_ids=hub_ids)
+    layer = frame.copy()
+    layer["hub_minutes"] = sp["minutes"].to_numpy()
+    layer["nearest_hub"] = sp["hub_id"].to_numpy()
+    layer["nearest_hub_name"] = [names.get(str(h)) if h is not None else None for h in layer["nearest_hub"]]
+    # network length: along the least-cost route from the node where the settlement's trip joins
     # the network (the surface's entry node at its cell) to its nearest hub
     att = attach_points(net, hubs.xy, "minutes", max_access_m=routing.max_access_m, walk_kmh=routing.walk_kmh)
     route_m = nearest_hub_route_m(net, att, "minutes", routing.direction)
@@ -247,12 +272,44 @@ def _settlements(study, out, net, hubs, surf, grid, hub_ids):
     inside = (r >= 0) & (r < grid.height) & (c >= 0) & (c < grid.width)
     entry = np.full(len(st), -1, np.int64)
     entry[inside] = surf.entry_node[r[inside], c[inside]]
-    sp["network_km"] = np.where(entry >= 0, route_m[np.maximum(entry, 0)] / 1000.0, np.nan)
+    layer["network_length_m"] = np.where(entry >= 0, route_m[np.maximum(entry, 0)], np.nan)
     for kind, ks in out.kind_surfaces.items():
-        kp = sample_points(ks.minutes, ks.nearest_hub, grid, st, hub_ids=hub_ids)
-        sp[f"nearest_{kind}"] = kp["hub_id"].to_numpy()
-        sp[f"{kind}_minutes"] = kp["minutes"].to_numpy()
-    return sp
+        kp = sample_points(ks.minutes, ks.nearest_hub, grid, frame, hub_ids=hub_ids)
+        layer[f"hub_minutes_{kind}"] = kp["minutes"].to_numpy()
+        layer[f"nearest_hub_{kind}"] = kp["hub_id"].to_numpy()
+    left = ~inside
+    if left.any():
+        people = float(layer["population"].to_numpy()[left].sum())
+        shown = ", ".join(str(v) for v in layer["settlement_id"].to_numpy()[left][:5])
+        out.notes.append(f"{int(left.sum())} settlements ({people:,.0f} people) lie outside the grid and have no "
+                         f"minutes: {shown}{' ...' if left.sum() > 5 else ''}; widen surface.extent")
+    return layer
+
+
+def zones_layer(zone_summary, zones, id_field, name_field, bands_txt, threshold):
+    """The zones layer in the glossary's names: ids, names, people per band, shares in percent."""
+    z = zone_summary.zones
+    out = z[["geometry"]].copy() if "geometry" in z.columns else None
+    data = {"zone_id": z["zone"].to_numpy() if id_field else np.arange(1, len(z) + 1)}
+    if name_field and name_field in zones.columns:
+        data["name"] = zones[name_field].astype(str).to_numpy(object)
+    data["population"] = z["population"].to_numpy(float)
+    for b in bands_txt:
+        col = [c for c in z.columns if c.startswith("share_within_") and c.endswith(b.replace(".", "_"))]
+        share = z[col[0]].to_numpy(float) if col else np.full(len(z), np.nan)
+        data[f"population_within_{b}"] = share * data["population"]
+        data[f"share_within_{b}_pct"] = 100.0 * share
+    data["population_beyond"] = z["population_beyond"].to_numpy(float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        data["share_beyond_pct"] = np.where(data["population"] > 0,
+                                            100.0 * data["population_beyond"] / data["population"], np.nan)
+    data["mean_hub_minutes"] = z["mean_minutes"].to_numpy(float)
+    import geopandas as gpd
+    import pandas as pd
+
+    frame = pd.DataFrame(data)
+    geom = out.geometry.values if out is not None else zones.geometry.values
+    return gpd.GeoDataFrame(frame, geometry=geom, crs=zones.crs)
 
 
 def _minutes_access(study: Study, net, hubs: Hubs):
