@@ -316,7 +316,9 @@ def _overview_map(study, a) -> str | None:
                 [f"beyond {bands[-1]} min"]
         handles += [Patch(facecolor=c, edgecolor="none", alpha=0.85, label=n) for c, n in zip(colours, names)]
         handles.append(Patch(facecolor="white", edgecolor="#999999", label="unreachable or impassable"))
-    zones = getattr(getattr(a, "zones", None), "zones", None)
+    from .tables import zones_frame
+
+    zones = zones_frame(a)
     if zones is not None and len(zones):
         for g in zones.geometry.values:
             if g is None:

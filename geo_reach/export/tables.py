@@ -237,6 +237,14 @@ def _suffix(key: str) -> str:
     return key.replace(".", "_").replace("-", "_")
 
 
+def zones_frame(a):
+    """The zones of an analysis as a frame (``a.zones`` is the layer, or a zone summary holding it)."""
+    z = getattr(a, "zones", None)
+    if z is None or isinstance(z, pd.DataFrame):
+        return z
+    return getattr(z, "zones", None)
+
+
 def _zone_figures(frame, keys) -> pd.DataFrame:
     """population, shares (%), people beyond and mean minutes of a zone-table frame, by position."""
     out = pd.DataFrame(index=range(len(frame)))
@@ -244,11 +252,12 @@ def _zone_figures(frame, keys) -> pd.DataFrame:
     out["population"] = pop
     for key in keys:
         sfx = _suffix(key)
-        pct = _pick(frame, (f"share_within_{sfx}_pct",))
+        pct = _pick(frame, (f"share_within_{sfx}_pct", f"share_within_{key}_pct"))
         if pct is not None:
             out[f"share_within_{sfx}_pct"] = _floats(pct)
         else:
-            out[f"share_within_{sfx}_pct"] = _floats(_pick(frame, (f"share_within_{sfx}",))) * 100.0
+            out[f"share_within_{sfx}_pct"] = _floats(_pick(frame, (f"share_within_{sfx}", f"share_within_{key}"))) \
+                * 100.0
     if "population_beyond" in frame.columns:
         out["population_beyond"] = _floats(frame["population_beyond"])
     mean = _pick(frame, ALIASES["mean_hub_minutes"])
@@ -258,7 +267,7 @@ def _zone_figures(frame, keys) -> pd.DataFrame:
 
 
 def _zone_keys(a, study) -> pd.DataFrame:
-    zs = a.zones.zones
+    zs = zones_frame(a)
     id_field, name_field = _table_fields(study, "zones")
     out = pd.DataFrame(index=range(len(zs)))
     zid = _pick(zs, ALIASES["zone_id"]) if id_field else None
@@ -271,10 +280,10 @@ def _zone_keys(a, study) -> pd.DataFrame:
 
 def zone_table(a, study) -> pd.DataFrame | None:
     """The districts of one analysis (glossary names, shares in %, full precision); None without zones."""
-    if getattr(a, "zones", None) is None:
+    if zones_frame(a) is None:
         return None
     keys = _zone_keys(a, study)
-    return pd.concat([keys, _zone_figures(a.zones.zones, _band_keys(study))], axis=1)
+    return pd.concat([keys, _zone_figures(zones_frame(a), _band_keys(study))], axis=1)
 
 
 def _zones_by_kind(a, study) -> dict:
@@ -282,12 +291,13 @@ def _zones_by_kind(a, study) -> dict:
     from ..analysis.bands import zone_table as _zt
 
     keys = _band_keys(study)
-    out = {ANY_KIND: _zone_figures(a.zones.zones, keys)}
+    zs = zones_frame(a)
+    out = {ANY_KIND: _zone_figures(zs, keys)}
     if a.population is None or a.grid is None:
         return out
     import geopandas as gpd
 
-    polys = gpd.GeoDataFrame(geometry=a.zones.zones.geometry.values, crs=a.zones.zones.crs)
+    polys = gpd.GeoDataFrame(geometry=zs.geometry.values, crs=zs.crs)
     for kind in _kinds(a):
         z = _zt(a.kind_surfaces[kind].minutes, a.population, a.grid, polys, keys).zones
         out[kind] = _zone_figures(z, keys)
@@ -348,7 +358,7 @@ def change_tables(study, base, scen) -> dict:
             if "nearest_hub_name" in src.columns:
                 t[f"nearest_hub_name_{when}"] = src["nearest_hub_name"].to_numpy()
         out["settlements"] = t
-    if getattr(base, "zones", None) is not None and getattr(scen, "zones", None) is not None:
+    if zones_frame(base) is not None and zones_frame(scen) is not None:
         keys = _zone_keys(base, study)
         zb, za = _zones_by_kind(base, study), _zones_by_kind(scen, study)
         parts = []
