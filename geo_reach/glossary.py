@@ -220,6 +220,8 @@ def lookup(name: str) -> Term | None:
 
     >>> lookup("hub_minutes_clinic").name
     'hub_minutes_<kind>'
+    >>> lookup("nearest_hub_name_clinic").name
+    'nearest_hub_name_<kind>'
     >>> lookup("nonsense_field") is None
     True
     """
@@ -229,10 +231,12 @@ def lookup(name: str) -> Term | None:
     for suffix in ("_before", "_after", "_change"):
         if name.endswith(suffix) and lookup(name[: -len(suffix)]) is not None:
             return next(t for t in TERMS if t.name == f"<field>{suffix}")
-    for t in TERMS:
-        if "<" in t.name and t.pattern.match(name):
-            return t
-    return None
+    # patterns: the most specific first (the most literal text), so nearest_hub_name_clinic finds
+    # nearest_hub_name_<kind>, not nearest_hub_<kind>
+    hits = [t for t in TERMS if "<" in t.name and t.pattern.match(name)]
+    if not hits:
+        return None
+    return max(hits, key=lambda t: len(re.sub(r"<[^>]+>", "", t.name)))
 
 
 def describe(name: str) -> str | None:
