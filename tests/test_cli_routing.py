@@ -294,7 +294,8 @@ def test_od_pairs_layer_and_csv(tmp_path, net_path, capsys, monkeypatch):
     assert far.trip_cost.isna().all() and far.reason.str.startswith("destination farther").all()
     import pandas as pd
 
-    table = pd.read_csv(csv)
+    table = pd.read_csv(csv, skiprows=1, encoding="utf-8-sig")   # line 1 is the caution
+    assert open(csv, encoding="utf-8-sig").readline().strip().strip('"').startswith("Model estimates")
     assert list(table.columns[:4]) == ["origin_id", "destination_id", "trip_cost", "length_m"] and len(table) == 6
     code, _, err = run(["od", net_path, "--origins", o, "--destinations", d, "--nearest", "1", "-o", out,
                         "--overwrite"], capsys, monkeypatch)

@@ -123,7 +123,9 @@ def run(args):
                      descriptions={"od_pairs": f"least cost ({opt.weight.describes}, {opt.weight.unit}) between "
                                                f"origins and destinations. {CAUTION}"})
         if args.csv:
-            frame.to_csv(out.path(args.csv), index=False)
+            from ..export.tables import write_csv
+
+            write_csv(out.path(args.csv), frame)   # the caution on line 1, as every table geo-reach writes
     unreached = int((~np.isfinite(c)).sum())
     note(f"od: {len(frame)} rows ({n_o} origins x {'the K nearest' if args.nearest else n_d} destinations), "
          f"{unreached} without a path (reason given) -> {args.output}{' and ' + args.csv if args.csv else ''}")
