@@ -36,6 +36,18 @@ def _grid_cells(box: np.ndarray, cell: float, origin: np.ndarray) -> tuple[np.nd
     return idx, cx, cy
 
 
+#: A box spanning more grid cells than about this is paired in a coarser grid of its own, so one
+#: long segment among short ones cannot fill memory with the cells it covers.
+MAX_CELLS_PER_BOX = 64
+
+_EMPTY = (np.zeros(0, np.int64), np.zeros(0, np.int64))
+
+
+def _too_big(box: np.ndarray, cell: float) -> np.ndarray:
+    """Boxes that may touch more than :data:`MAX_CELLS_PER_BOX` cells of side ``cell``."""
+    return ((box[:, 2] - box[:, 0]) / cell + 2) * ((box[:, 3] - box[:, 1]) / cell + 2) > MAX_CELLS_PER_BOX
+
+
 def box_pairs(abox: np.ndarray, bbox: np.ndarray | None = None,
               cell: float | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Pairs of boxes that overlap (touching counts), found with a uniform grid hash.
@@ -59,18 +71,35 @@ def box_pairs(abox: np.ndarray, bbox: np.ndarray | None = None,
     -----
     Each box is listed in every cell it touches; a pair is reported only in
     the cell holding the lower-left corner of the two boxes' overlap, so it
-    comes out exactly once.  Cost O(n + pairs) for boxes of similar size.
+    comes out exactly once.  Boxes that would touch more than
+    :data:`MAX_CELLS_PER_BOX` cells are paired separately in a grid sized
+    on them (recursively; at least half of a set is small at its own
+    median size, so the recursion ends), which keeps the memory at
+    O(n + pairs) even for a few very long segments among many short ones.
     """
     same = bbox is None
     bbox = abox if same else bbox
     if len(abox) == 0 or len(bbox) == 0:
-        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+        return _EMPTY
     if same:
         return _self_box_pairs(abox, cell)
     if cell is None:   # sized on the larger boxes, so neither side spreads over many cells
         ext_a = np.maximum(abox[:, 2] - abox[:, 0], abox[:, 3] - abox[:, 1])
         ext_b = np.maximum(bbox[:, 2] - bbox[:, 0], bbox[:, 3] - bbox[:, 1])
         cell = max(2.0 * float(np.median(ext_a)), 2.0 * float(np.median(ext_b)), 1e-3)
+    big_a, big_b = _too_big(abox, cell), _too_big(bbox, cell)
+    if not (big_a.any() or big_b.any()):
+        return _grid_cross(abox, bbox, cell)
+    sa, ba = np.nonzero(~big_a)[0], np.nonzero(big_a)[0]
+    sb, bb = np.nonzero(~big_b)[0], np.nonzero(big_b)[0]
+    i1, j1 = _grid_cross(abox[sa], bbox[sb], cell) if len(sa) and len(sb) else _EMPTY
+    i2, j2 = box_pairs(abox[ba], bbox) if len(ba) else _EMPTY
+    i3, j3 = box_pairs(abox[sa], bbox[bb]) if len(sa) and len(bb) else _EMPTY
+    return np.concatenate([sa[i1], ba[i2], sa[i3]]), np.concatenate([sb[j1], j2, bb[j3]])
+
+
+def _grid_cross(abox: np.ndarray, bbox: np.ndarray, cell: float) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`box_pairs` across two sets in one grid of side ``cell``."""
     origin = np.minimum(abox[:, :2].min(axis=0), bbox[:, :2].min(axis=0))
     ai, ax_, ay_ = _grid_cells(abox, cell, origin)
     bi, bx_, by_ = _grid_cells(bbox, cell, origin)
@@ -98,10 +127,24 @@ def box_pairs(abox: np.ndarray, bbox: np.ndarray | None = None,
 
 
 def _self_box_pairs(box: np.ndarray, cell: float | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """:func:`box_pairs` within one set: each cell's entries are paired only with those after them."""
+    """:func:`box_pairs` within one set (pairs as (smaller, larger) index)."""
     if cell is None:
         ext = np.maximum(box[:, 2] - box[:, 0], box[:, 3] - box[:, 1])
         cell = max(float(np.median(ext)), 1e-3)
+    big = _too_big(box, cell)
+    if not big.any():
+        return _grid_self(box, cell)
+    s, b = np.nonzero(~big)[0], np.nonzero(big)[0]
+    i1, j1 = _grid_self(box[s], cell) if len(s) else _EMPTY
+    i2, j2 = box_pairs(box[b], box[s]) if len(s) else _EMPTY
+    i3, j3 = _self_box_pairs(box[b])
+    i = np.concatenate([s[i1], b[i2], b[i3]])
+    j = np.concatenate([s[j1], s[j2], b[j3]])
+    return np.minimum(i, j), np.maximum(i, j)
+
+
+def _grid_self(box: np.ndarray, cell: float) -> tuple[np.ndarray, np.ndarray]:
+    """Pairs within one set in one grid: each cell's entries are paired only with those after them."""
     origin = box[:, :2].min(axis=0)
     bi, cx, cy = _grid_cells(box, cell, origin)
     key = cx * (int(cy.max()) + 1) + cy

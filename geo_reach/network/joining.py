@@ -8,17 +8,26 @@
    seen.  One ``gap_joined`` per cluster that moved by 1 mm or more, saying
    whether it closed a gap or pulled an overshoot back.
 2. *Crossing artefacts.*  A joined end that ran past its junction also
-   crossed a line there; those crossing vertices are dropped
-   (:func:`~geo_reach.network.overshoots.drop_overshoot_crossings`).
-3. *T-junctions.*  A dead end (an end not joined to another) within
-   ``snap_m`` of the interior of another line of its mode is moved onto the
-   nearest point of that line (an existing vertex of the line within the
-   tolerance is preferred); the point becomes a node of both.  Candidate
+   crossed a line there; those crossing vertices, within ``snap_m`` of the
+   joined end, are dropped (on both lines).
+3. *T-junctions.*  A dead end (an end not joined to another), and a
+   cluster of joined ends taken as one, within ``snap_m`` of the interior
+   of another line of its mode (one holding none of its ends) is moved onto
+   the nearest point of that line (an existing vertex of the line within
+   the tolerance is preferred); the point becomes a node of both.  So two
+   lines meeting a millimetre past a through line join it too.  Candidate
    segments come from the grid hash
    (:func:`~geo_reach.network.gridhash.box_pairs`) over the ends' boxes
    grown by ``snap_m``; the exact test is the point-segment distance, and a
    distance equal to ``snap_m`` joins.
-4. The moved ends are written into the table, and the length they add (a
+4. *More crossing artefacts.*  Two straight segments from one point meet
+   only there, and a straight segment ending on another meets it only at
+   that end.  So once the ends have moved, a crossing between the end
+   segments of two lines joined at one junction (two lines leaving it at a
+   sharp angle, their ends swapped over, cross just beyond it), or between
+   an end segment and the segment it was snapped onto, is gone: those
+   crossing vertices are dropped too, however far from the end they were.
+5. The moved ends are written into the table, and the length they add (a
    gap closed) or remove (an overshoot pulled back) is measured on the
    ellipsoid over each end's terminal segment (``joined_gap_length_m``).
 
@@ -34,13 +43,13 @@ References
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 from pyproj import CRS
 
 from .geodesy import geodesic_lengths
 from .gridhash import box_pairs
 from .issues import IssueLog
-from .overshoots import drop_overshoot_crossings
-from .table import NOISE_M, LineTable, union_find_labels
+from .table import NOISE_M, LineTable, metres, union_find_labels
 
 __all__ = ["join_ends"]
 
@@ -56,17 +65,24 @@ def _report_cluster(tab: LineTable, exy: np.ndarray, e0: int, place_xy: np.ndarr
     d = adj - end
     t = float(np.clip(np.dot(place_xy - end, d) / max(np.dot(d, d), 1e-18), 0, 1))
     back = t > 0 and np.hypot(*(end + t * d - place_xy)) < NOISE_M
-    what = (f"overshoot of {span:.2f} m past a junction of {nends} line ends pulled back" if back else
-            f"gap of {span:.2f} m between {nends} line ends joined")
+    what = (f"overshoot of {metres(span)} past a junction of {nends} line ends pulled back" if back else
+            f"gap of {metres(span)} between {nends} line ends joined")
     issues.add("gap_joined", place_xy[0], place_xy[1], what, tab.label[l0], tab.fid[l0])
 
 
 def _cluster_ends(tab: LineTable, snap_m: float, idx: np.ndarray, exy: np.ndarray, end_target: np.ndarray,
-                  issues: IssueLog) -> np.ndarray:
-    """Step 1: join the active ends ``idx`` to each other; returns which ends were joined.
+                  issues: IssueLog) -> tuple[np.ndarray, np.ndarray]:
+    """Step 1: join the active ends ``idx`` to each other.
 
     Sets ``end_target`` of the ends ``idx``; never joins the two ends of one
     line to each other alone (a closed line is not a junction).
+
+    Returns
+    -------
+    joined : ndarray of bool, shape (2 * nlines,)
+        Ends that meet another end.
+    cluster : ndarray of int64, shape (2 * nlines,)
+        Cluster of each joined end (its representative place); -1 elsewhere.
     """
     nl = tab.nlines
     eline = tab.end_lines()
@@ -89,7 +105,10 @@ def _cluster_ends(tab: LineTable, snap_m: float, idx: np.ndarray, exy: np.ndarra
     rep[plab[order][first_of]] = order[first_of]
     target_place = rep[plab]                       # place -> representative place
     csize = np.bincount(plab)
-    joined[idx[(csize[plab[pinv]] > 1) | (pcount[pinv] > 1)]] = True
+    multi = (csize[plab[pinv]] > 1) | (pcount[pinv] > 1)
+    joined[idx[multi]] = True
+    cluster = np.full(2 * nl, -1, np.int64)
+    cluster[idx[multi]] = target_place[pinv[multi]]
     end_target[idx] = pxy[target_place[pinv]]
     moved_place = np.nonzero(target_place != np.arange(npl))[0]
     if len(moved_place):
@@ -103,7 +122,65 @@ def _cluster_ends(tab: LineTable, snap_m: float, idx: np.ndarray, exy: np.ndarra
         for rp in np.nonzero(span >= NOISE_M)[0]:
             _report_cluster(tab, exy, int(pfirst[worst[rp]]), pxy[rp], float(span[rp]), int(nends[plab[rp]]),
                             issues)
-    return joined
+    return joined, cluster
+
+
+def _drop_crossings_near_joined_ends(tab: LineTable, ends: np.ndarray, exy: np.ndarray, snap_m: float) -> None:
+    """Step 2: drop crossing vertices within ``snap_m`` of a joined end of their own line, on both lines.
+
+    ``ends`` are the joined ends and ``exy`` the ends' coordinates before
+    they move.  Every crossing vertex at such a place (to 1 mm) is dropped,
+    on whichever line it lies.
+    """
+    k = tab.n_crossing_events
+    if k == 0 or len(ends) == 0:
+        return
+    line, _, ex, ey = tab.new.head(k)
+    m = pd.DataFrame({"line": line, "ev": np.arange(k)}).merge(
+        pd.DataFrame({"line": tab.end_lines()[ends], "end": ends}), on="line")
+    if len(m) == 0:
+        return
+    evi, eni = m["ev"].to_numpy(), m["end"].to_numpy()
+    near = np.hypot(ex[evi] - exy[eni, 0], ey[evi] - exy[eni, 1]) <= snap_m
+    if not near.any():
+        return
+    key = np.column_stack([np.round(ex / NOISE_M), np.round(ey / NOISE_M)]).astype(np.int64)
+    _, kid = np.unique(key, axis=0, return_inverse=True)
+    kid = kid.ravel()
+    tab.drop_crossings(np.isin(kid, np.unique(kid[evi[near]])))
+
+
+def _drop_join_crossings(tab: LineTable, cluster: np.ndarray, snapped: list[tuple[np.ndarray, int]]) -> None:
+    """Step 4: drop crossings between end segments joined at one place, or an end segment and its target.
+
+    ``cluster`` is the cluster of each joined end (-1 elsewhere) and
+    ``snapped`` lists (ends, first row of the target segment) for each
+    anchor moved onto a line.
+    """
+    k = tab.n_crossing_events
+    if k == 0:
+        return
+    own, other = tab.cross_row, tab.cross_partner_row
+    nrows = len(tab.xy)
+    nl = tab.nlines
+    # cluster of the start and finish end whose terminal segment starts at each row (-1: none)
+    by_row = np.full((2, nrows), -1, np.int64)
+    jn = np.nonzero(cluster >= 0)[0]
+    by_row[(jn >= nl).astype(int), tab.terminal_row(jn)] = cluster[jn]
+    drop = np.zeros(k, bool)
+    ok = other >= 0
+    for a in range(2):
+        for b in range(2):
+            ca, cb = by_row[a, own], by_row[b, np.maximum(other, 0)]
+            drop |= ok & (ca >= 0) & (ca == cb)
+    if snapped:
+        ends = np.concatenate([e for e, _ in snapped])
+        target = np.concatenate([np.full(len(e), r, np.int64) for e, r in snapped])
+        keys = np.unique(np.concatenate([tab.terminal_row(ends) * nrows + target,
+                                         target * nrows + tab.terminal_row(ends)]))
+        drop |= ok & np.isin(own * nrows + other, keys)
+    if drop.any():
+        tab.drop_crossings(drop)
 
 
 def _nearest_on_segments(tab: LineTable, snap_m: float, pts: np.ndarray, pmode: np.ndarray,
@@ -146,15 +223,55 @@ def _nearest_on_segments(tab: LineTable, snap_m: float, pts: np.ndarray, pmode: 
     return pi[k], si[k], tt[k], np.column_stack([qx[k], qy[k]]), vertex[k]
 
 
-def _snap_dead_ends(tab: LineTable, snap_m: float, dead: np.ndarray, exy: np.ndarray, end_target: np.ndarray,
-                    issues: IssueLog) -> None:
-    """Step 3: move each dead end in ``dead`` onto the nearest interior point of another line within ``snap_m``."""
+def _anchors(tab: LineTable, dead: np.ndarray, joined: np.ndarray, cluster: np.ndarray,
+             end_target: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """What may snap onto a line interior: each dead end alone, then each cluster of joined ends as one.
+
+    Returns the anchors' points (their ends' targets), the ends of each
+    anchor (``ends[start[a]:start[a + 1]]``), and the sorted keys
+    ``anchor * nlines + line`` of the lines each anchor holds an end of.
+    """
+    nl = tab.nlines
+    anchor = np.full(2 * nl, -1, np.int64)
+    anchor[dead] = np.arange(len(dead))
+    jn = np.nonzero(joined)[0]
+    _, cid = np.unique(cluster[jn], return_inverse=True)
+    anchor[jn] = len(dead) + cid.ravel()
+    n = len(dead) + (int(cid.max()) + 1 if len(jn) else 0)
+    ends = np.nonzero(anchor >= 0)[0]
+    ends = ends[np.argsort(anchor[ends], kind="stable")]
+    start = np.concatenate([[0], np.cumsum(np.bincount(anchor[ends], minlength=n))])
+    members = np.unique(anchor[ends] * nl + tab.end_lines()[ends])
+    return end_target[ends[start[:-1]]].copy(), ends, start, members
+
+
+def _snap_onto_lines(tab: LineTable, snap_m: float, dead: np.ndarray, joined: np.ndarray, cluster: np.ndarray,
+                     end_target: np.ndarray, issues: IssueLog) -> list[tuple[np.ndarray, int]]:
+    """Step 3: move each dead end, and each cluster of joined ends, onto the nearest point of another line.
+
+    The line must be of the same mode, hold none of the anchor's ends and
+    pass within ``snap_m`` (inclusive) of the anchor's point.  A cluster
+    whose point lies just past a through line (each of its lines crossing
+    that line just short of its end) is joined to it this way.  Returns
+    (ends, first row of the target segment) for each anchor moved.
+    """
+    nl = tab.nlines
+    pts, ends, start, members = _anchors(tab, dead, joined, cluster, end_target)
+    if len(pts) == 0:
+        return []
     eline = tab.end_lines()
-    pi, si, tt, q, vertex = _nearest_on_segments(tab, snap_m, exy[dead], tab.mode[eline[dead]],
-                                                 lambda p, lines: eline[dead[p]] != lines)
+    amode = tab.mode[eline[ends[start[:-1]]]]
+
+    def other_line(p: np.ndarray, lines: np.ndarray) -> np.ndarray:
+        key = p * nl + lines
+        at = np.minimum(np.searchsorted(members, key), len(members) - 1)
+        return members[at] != key
+
+    pi, si, tt, q, vertex = _nearest_on_segments(tab, snap_m, pts, amode, other_line)
     seg = tab.seg
+    snapped = []
     for k in range(len(pi)):
-        e, s = dead[pi[k]], si[k]
+        p, s = pi[k], si[k]
         ln = tab.vline[seg[s]]
         if vertex[k] >= 0:
             row = seg[s] + vertex[k]
@@ -163,16 +280,24 @@ def _snap_dead_ends(tab: LineTable, snap_m: float, dead: np.ndarray, exy: np.nda
         else:
             target = q[k]
             tab.new.add([ln], [seg[s] - tab.first[ln] + tt[k]], [q[k, 0]], [q[k, 1]])
-        move = float(np.hypot(*(exy[e] - target)))
-        end_target[e] = target
+        mine = ends[start[p]:start[p + 1]]
+        end_target[mine] = target
+        snapped.append((mine, int(seg[s])))
+        move = float(np.hypot(*(pts[p] - target)))
         if move >= NOISE_M:
+            e = int(mine[0])
+            what = "line end" if len(mine) == 1 else f"junction of {len(mine)} line ends"
             issues.add("gap_joined", target[0], target[1],
-                       f"line end {move:.2f} m from another line joined onto it (T-junction)",
+                       f"{what} {metres(move)} from another line joined onto it (T-junction)",
                        tab.label[eline[e]], tab.fid[eline[e]])
+    return snapped
 
 
-def _apply_end_moves(tab: LineTable, exy: np.ndarray, end_target: np.ndarray, crs: CRS, report: dict) -> None:
-    """Step 4: move the ends, and add the signed geodesic length change to ``joined_gap_length_m``."""
+def _apply_end_moves(tab: LineTable, exy: np.ndarray, end_target: np.ndarray, crs: CRS,
+                     report: dict) -> None:
+    """Step 4: move the ends, and add the signed geodesic length change to ``joined_gap_length_m``.
+
+    """
     nl = tab.nlines
     moved = np.nonzero(np.any(end_target != exy, axis=1))[0]
     if len(moved) == 0:
@@ -205,10 +330,13 @@ def join_ends(tab: LineTable, snap_m: float, crs: CRS, issues: IssueLog, report:
     active = tab.end_free
     idx = np.nonzero(active)[0]
     joined = np.zeros(2 * tab.nlines, bool)
+    cluster = np.full(2 * tab.nlines, -1, np.int64)
     if len(idx) and snap_m > 0:
-        joined = _cluster_ends(tab, snap_m, idx, exy, end_target, issues)
-    drop_overshoot_crossings(tab, np.nonzero(joined)[0], exy, snap_m)
+        joined, cluster = _cluster_ends(tab, snap_m, idx, exy, end_target, issues)
+    _drop_crossings_near_joined_ends(tab, np.nonzero(joined)[0], exy, snap_m)
     dead = np.nonzero(active & ~joined)[0]
-    if len(dead) and snap_m > 0:
-        _snap_dead_ends(tab, snap_m, dead, exy, end_target, issues)
+    snapped = []
+    if (len(dead) or joined.any()) and snap_m > 0:
+        snapped = _snap_onto_lines(tab, snap_m, dead, joined, cluster, end_target, issues)
+    _drop_join_crossings(tab, cluster, snapped)
     _apply_end_moves(tab, exy, end_target, crs, report)

@@ -50,6 +50,8 @@ class NodeEvents:
     new : ndarray of bool
         True where the point is a new vertex (inside the segment), false
         where it is one of the segment's vertices.
+    partner : ndarray of int64
+        The other segment of a crossing; -1 for the nodes of collinear overlaps.
     kept_x, kept_y, kept_a, kept_b : ndarray
         Interior crossings of lines at different levels, left unjoined: the
         point and the two segments.
@@ -60,6 +62,7 @@ class NodeEvents:
     x: np.ndarray
     y: np.ndarray
     new: np.ndarray
+    partner: np.ndarray
     kept_x: np.ndarray
     kept_y: np.ndarray
     kept_a: np.ndarray
@@ -103,10 +106,10 @@ def _crossing_events(a, b, t, u, eta, etb, parallel, seg, level, line_start, lin
     join = ~diff_level | at_end_a | at_end_b
     k = diff_level & ~join & interior_a & interior_b
     kept[0].append(X[k]); kept[1].append(Y[k]); kept[2].append(ia[k]); kept[3].append(ib[k])
-    for s, tt, e0, e1, inter in ((ia, tq, ta0, ta1, interior_a), (ib, uq, ub0, ub1, interior_b)):
+    for s, other, tt, e0, e1, inter in ((ia, ib, tq, ta0, ta1, interior_a), (ib, ia, uq, ub0, ub1, interior_b)):
         out[0].append(s[join]); out[2].append(X[join]); out[3].append(Y[join])
         out[1].append(np.where(e0, 0.0, np.where(e1, 1.0, tt))[join])
-        out[4].append(inter[join])
+        out[4].append(inter[join]); out[5].append(other[join])
 
 
 def _overlap_events(ca, cb, seg, level, out):
@@ -124,10 +127,11 @@ def _overlap_events(ca, cb, seg, level, out):
             inside = (tt > et) & (tt < 1 - et)
             out[0].append(s_on[inside]); out[1].append(tt[inside])
             out[2].append(ex[inside]); out[3].append(ey[inside]); out[4].append(np.ones(inside.sum(), bool))
+            out[5].append(np.full(inside.sum(), -1, np.int64))
         # both ends of the overlapping piece are nodes on the point segment too
         for t_end, ex, ey in ((0.0, x0, y0), (1.0, x1, y1)):
             out[0].append(s_pt); out[1].append(np.full(len(s_pt), t_end)); out[2].append(ex[s_pt])
-            out[3].append(ey[s_pt]); out[4].append(np.zeros(len(s_pt), bool))
+            out[3].append(ey[s_pt]); out[4].append(np.zeros(len(s_pt), bool)); out[5].append(np.full(len(s_pt), -1))
 
 
 def segment_events(x0: np.ndarray, y0: np.ndarray, x1: np.ndarray, y1: np.ndarray, seg_line: np.ndarray,
@@ -162,7 +166,7 @@ def segment_events(x0: np.ndarray, y0: np.ndarray, x1: np.ndarray, y1: np.ndarra
     eta = NOISE_M / np.maximum(la, NOISE_M)
     etb = NOISE_M / np.maximum(lb, NOISE_M)
     parallel = np.abs(den) <= 1e-12 * la * lb
-    out = ([], [], [], [], [])     # seg, t, x, y, new
+    out = ([], [], [], [], [], [])     # seg, t, x, y, new, partner
     kept = ([], [], [], [])        # x, y, seg a, seg b
     seg = (x0, y0, x1, y1)
     _crossing_events(a, b, t, u, eta, etb, parallel, seg, level, line_start, line_end, out, kept)
@@ -170,6 +174,7 @@ def segment_events(x0: np.ndarray, y0: np.ndarray, x1: np.ndarray, y1: np.ndarra
     if c.any():
         _overlap_events(a[c], b[c], seg, level, out)
     return NodeEvents(_cat(out[0], np.int64), _cat(out[1]), _cat(out[2]), _cat(out[3]), _cat(out[4], bool),
+                      _cat(out[5], np.int64),
                       _cat(kept[0]), _cat(kept[1]), _cat(kept[2], np.int64), _cat(kept[3], np.int64))
 
 
@@ -177,7 +182,11 @@ def node_crossings(tab: LineTable, issues: IssueLog) -> None:
     """Find every meeting of segments and record it in ``tab`` as nodes on both lines.
 
     Vertex meetings set ``tab.node_row``; meetings inside a segment become
-    new vertices (``tab.new``, counted in ``tab.n_crossing_events``).
+    new vertices (``tab.new``, counted in ``tab.n_crossing_events``), and
+    the two segments of each are kept (``tab.cross_row``,
+    ``tab.cross_partner_row``) so that crossings made only by misplaced line
+    ends can be dropped once the ends are joined
+    (:mod:`~geo_reach.network.joining`).
     Crossings kept unjoined between levels are reported once per place
     (to 1 cm) as ``crossing_kept``.
     """
@@ -191,6 +200,8 @@ def node_crossings(tab: LineTable, issues: IssueLog) -> None:
     tab.node_row[seg[ev.seg[vert]] + (ev.t[vert] >= 0.5)] = True
     nw = ev.new
     tab.new.add(sl[ev.seg[nw]], (seg[ev.seg[nw]] - tab.first[sl[ev.seg[nw]]]) + ev.t[nw], ev.x[nw], ev.y[nw])
+    tab.cross_row = seg[ev.seg[nw]]
+    tab.cross_partner_row = np.where(ev.partner[nw] >= 0, seg[np.maximum(ev.partner[nw], 0)], -1)
     seen = set()
     for x, y, a, b in zip(ev.kept_x, ev.kept_y, ev.kept_a, ev.kept_b):
         key = (round(x / 0.01), round(y / 0.01))

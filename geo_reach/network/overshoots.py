@@ -2,11 +2,8 @@
 
 * :func:`trim_overshoots` cuts a *free* line end (no other line end within
   the tolerance) back to the nearest node of its own line when that node is
-  less than ``snap_m`` from the end along the line (``gap_joined``, "overshoot
+  at most ``snap_m`` from the end along the line (``gap_joined``, "overshoot
   ... trimmed").  The trimmed length goes to ``trimmed_length_m``.
-* :func:`drop_overshoot_crossings` removes crossing vertices that only an
-  overshoot made: a joined line end that ran past its junction also crossed
-  the line there.
 * :func:`report_dead_ends` reports, on the finished network, dead ends
   within ten times the tolerance of another line (``unjoined_gap``) and
   short dead-end stubs off a junction (``dangle``).
@@ -15,7 +12,6 @@
 from __future__ import annotations
 
 import numpy as np
-import pandas as pd
 import shapely
 from pyproj import CRS
 
@@ -24,7 +20,7 @@ from .issues import IssueLog
 from .model import Network
 from .table import NOISE_M, LineTable
 
-__all__ = ["trim_overshoots", "drop_overshoot_crossings", "report_dead_ends", "UNJOINED_FACTOR"]
+__all__ = ["trim_overshoots", "report_dead_ends", "UNJOINED_FACTOR"]
 
 #: Dead ends closer than this many tolerances to another line are reported as ``unjoined_gap``.
 UNJOINED_FACTOR = 10.0
@@ -106,7 +102,7 @@ def _cut_stubs(tab: LineTable, which: str, posarr: np.ndarray, dist: np.ndarray,
 
 
 def trim_overshoots(tab: LineTable, snap_m: float, crs: CRS, issues: IssueLog, report: dict) -> None:
-    """Cut back free line ends that run less than ``snap_m`` past a node of their own line.
+    """Cut back free line ends that run at most ``snap_m`` past a node of their own line.
 
     An end is free when no other line end lies within ``snap_m`` of it (else
     it is a junction, joined later).  Only the shorter half of a line can be
@@ -128,42 +124,13 @@ def trim_overshoots(tab: LineTable, snap_m: float, crs: CRS, issues: IssueLog, r
     free = ~crowded[pinv]
     ds = np.where(has, along(np.arange(nl), np.where(has, starts, 0.0)), np.inf)
     de = np.where(has, total - along(np.arange(nl), np.where(has, ends, 0.0)), np.inf)
-    tab.trim_start = np.where((ds < snap_m) & (ds > 0) & free[:nl] & (ds < total / 2), starts, np.nan)
-    tab.trim_end = np.where((de < snap_m) & (de > 0) & free[nl:] & (de < total / 2), ends, np.nan)
+    tab.trim_start = np.where((ds <= snap_m) & (ds > 0) & free[:nl] & (ds < total / 2), starts, np.nan)
+    tab.trim_end = np.where((de <= snap_m) & (de > 0) & free[nl:] & (de < total / 2), ends, np.nan)
     delta = np.zeros(len(tab.xy) + 1, np.int64)
     _cut_stubs(tab, "start", tab.trim_start, ds, crs, issues, report, delta)
     _cut_stubs(tab, "end", tab.trim_end, de, crs, issues, report, delta)
     tab.deleted |= np.cumsum(delta)[:-1] > 0
     tab.end_free = np.concatenate([np.isnan(tab.trim_start), np.isnan(tab.trim_end)])
-
-
-def drop_overshoot_crossings(tab: LineTable, ends: np.ndarray, exy: np.ndarray, snap_m: float) -> None:
-    """Drop crossing vertices within ``snap_m`` of a joined line end of their own line, on both lines.
-
-    ``ends`` are joined end indices and ``exy`` the ends' coordinates before
-    they move.  Every crossing vertex at such a place (to 1 mm) is dropped,
-    on whichever line it lies.
-    """
-    k = tab.n_crossing_events
-    if k == 0 or len(ends) == 0:
-        return
-    line, _, ex, ey = tab.new.head(k)
-    eline = tab.end_lines()
-    # pair every event with the joined ends of its own line (at most two per line)
-    m = pd.DataFrame({"line": line, "ev": np.arange(k)}).merge(pd.DataFrame({"line": eline[ends], "end": ends}),
-                                                               on="line")
-    if len(m) == 0:
-        return
-    evi, eni = m["ev"].to_numpy(), m["end"].to_numpy()
-    near = np.hypot(ex[evi] - exy[eni, 0], ey[evi] - exy[eni, 1]) < snap_m
-    if not near.any():
-        return
-    key = np.column_stack([np.round(ex / NOISE_M), np.round(ey / NOISE_M)]).astype(np.int64)
-    _, kid = np.unique(key, axis=0, return_inverse=True)
-    kid = kid.ravel()
-    keep = ~np.isin(kid, np.unique(kid[evi[near]]))
-    tab.new.replace_head(k, keep)
-    tab.n_crossing_events = int(keep.sum())
 
 
 def _report_unjoined_gaps(net: Network, dead: np.ndarray, own_e: np.ndarray, other: np.ndarray, snap_m: float,

@@ -21,10 +21,19 @@ from scipy.sparse import coo_array
 from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
-__all__ = ["NOISE_M", "LineTable", "NewVertices", "union_find_labels"]
+__all__ = ["NOISE_M", "LineTable", "NewVertices", "union_find_labels", "metres"]
 
 #: Offsets below this many metres are numeric noise (reprojection) and are joined silently.
 NOISE_M = 1e-3
+
+
+def metres(d: float) -> str:
+    """A distance for a message: centimetres shown from 1 cm up, millimetres below.
+
+    >>> metres(0.6), metres(0.0015)
+    ('0.60 m', '1.5 mm')
+    """
+    return f"{d:.2f} m" if d >= 0.005 else f"{d * 1000:.1f} mm"
 
 
 def union_find_labels(n: int, i: np.ndarray, j: np.ndarray) -> np.ndarray:
@@ -101,9 +110,9 @@ class NewVertices:
         line, pos, x, y = self.arrays()
         return line[:k], pos[:k], x[:k], y[:k]
 
-    def replace_head(self, k: int, keep: np.ndarray) -> None:
-        """Keep only the first ``k`` vertices where ``keep`` is true (the rest are dropped too)."""
-        line, pos, x, y = self.head(k)
+    def keep(self, keep: np.ndarray) -> None:
+        """Keep only the vertices where ``keep`` holds (a mask over all vertices added so far)."""
+        line, pos, x, y = self.arrays()
         self.line, self.pos, self.x, self.y = [line[keep]], [pos[keep]], [x[keep]], [y[keep]]
 
 
@@ -140,6 +149,9 @@ class LineTable:
         Vertices to insert (crossings, T-junctions, stations).
     n_crossing_events : int
         How many of ``new`` come from crossings (they were added first).
+    cross_row, cross_partner_row : ndarray of int64, shape (n_crossing_events,)
+        For each crossing vertex: the first row of its segment and of the
+        segment it crosses (-1 for the ends of collinear overlaps).
     trimmed_nodes : list of ndarray
         Where overshoots were cut back (already reported there).
     """
@@ -160,6 +172,8 @@ class LineTable:
     end_free: np.ndarray
     new: NewVertices = field(default_factory=NewVertices)
     n_crossing_events: int = 0
+    cross_row: np.ndarray = field(default_factory=lambda: np.zeros(0, np.int64))
+    cross_partner_row: np.ndarray = field(default_factory=lambda: np.zeros(0, np.int64))
     trimmed_nodes: list = field(default_factory=list)
     _places: tuple | None = field(default=None, repr=False)
 
@@ -193,6 +207,20 @@ class LineTable:
     def end_rows(self) -> np.ndarray:
         """Row of every line end: starts, then finishes."""
         return np.concatenate([self.first, self.last])
+
+    def drop_crossings(self, drop: np.ndarray) -> None:
+        """Drop the crossing vertices where ``drop`` (shape (n_crossing_events,)) holds."""
+        keep = np.ones(len(self.new), bool)
+        keep[: self.n_crossing_events] = ~drop
+        self.new.keep(keep)
+        self.cross_row, self.cross_partner_row = self.cross_row[~drop], self.cross_partner_row[~drop]
+        self.n_crossing_events = int((~drop).sum())
+
+    def terminal_row(self, ends: np.ndarray) -> np.ndarray:
+        """First row of the segment at each line end (ends numbered as :meth:`end_rows`)."""
+        nl = self.nlines
+        line = ends % nl
+        return np.where(ends < nl, self.first[line], self.last[line] - 1)
 
     def end_lines(self) -> np.ndarray:
         """Line of every line end (ordered as :meth:`end_rows`)."""
