@@ -1,11 +1,23 @@
 """Reading and cleaning the input layers into one table of lines in the working CRS.
 
-Per layer: check the options, read it, drop what has no usable geometry
-(reported), drop Z/M, explode multi-parts and collections, reproject,
-measure the input length, drop zero-length lines, read the attributes
-(speed, one-way, level, all-season, class) and turn lines that are one-way
-against their digitised direction around.  Then exact duplicate lines are
-removed across all layers.  Every change is reported; nothing is silent.
+Per layer: check the options, read it, refuse coordinates that are no
+place on Earth, drop what has no usable geometry (reported), drop Z/M,
+explode multi-parts and collections, reproject, measure the input length,
+drop zero-length lines, read the attributes (speed, one-way, level,
+all-season, class) and turn lines that are one-way against their digitised
+direction around.  Then exact duplicate lines are removed across all
+layers.  Every change is reported; nothing is silent.
+
+Attribute values the builder cannot read are handled by what a wrong guess
+would cost.  A bad speed is replaced by the next rule's speed (class
+table, layer speed, mode default) and reported per feature
+(``speed_defaulted``): it changes one feature's travel time.  A one-way,
+level or all-season value outside the documented ones is refused with
+the file, layer, feature, field, value and the accepted values: a guessed
+direction or level changes which roads connect and which way they can be
+driven, and a guessed all-season flag changes the access index, so no
+default is safe.  Null and empty values are not errors: both ways, ground
+level (0), all-season unknown.
 """
 
 from __future__ import annotations
@@ -18,13 +30,15 @@ import shapely
 from pyproj import CRS, Transformer
 
 from ..errors import CRSError, InputError, OptionError, where
-from ..ingest.layers import LayerRef, parse_layer_ref, read_layer
-from .costs import DEFAULT_SPEED_KMH, MODES, feature_speeds, parse_oneway
+from ..ingest.layers import LayerRef, check_coordinates, parse_layer_ref, read_layer
+from .costs import (DEFAULT_SPEED_KMH, MODES, ONEWAY_BOTH, ONEWAY_FORWARD, ONEWAY_REVERSE, feature_speeds,
+                    read_oneway)
 from .geodesy import geodesic_lengths
 from .issues import IssueLog
 from .table import NOISE_M
 
-__all__ = ["read_specs", "prepare_lines", "remove_duplicate_features", "FIELD_OPTIONS"]
+__all__ = ["read_specs", "prepare_lines", "remove_duplicate_features", "read_levels", "read_all_season",
+           "FIELD_OPTIONS"]
 
 #: The LayerSpec options that name a field, and what each is in words (for messages).
 FIELD_OPTIONS = {"speed_field": "the speed field", "class_field": "the class field",
@@ -85,6 +99,7 @@ def read_specs(specs: list) -> list[tuple[Any, str, tuple]]:
             if name is not None and name not in gdf.columns:
                 raise InputError(f"{where(*loc)}has no field '{name}' (given as {words}, {fld}); "
                                  f"fields: {', '.join(map(str, gdf.columns.drop(gdf.geometry.name)))}")
+        check_coordinates(gdf, *loc)
         frames.append((gdf, label, loc))
     return frames
 
@@ -92,9 +107,10 @@ def read_specs(specs: list) -> list[tuple[Any, str, tuple]]:
 class _Layer:
     """One layer being cleaned: its features, where repairs are reported, and the working-CRS transform."""
 
-    def __init__(self, gdf: Any, label: str, crs: CRS, issues: IssueLog, report: dict) -> None:
+    def __init__(self, gdf: Any, label: str, loc: tuple, crs: CRS, issues: IssueLog, report: dict) -> None:
         self.gdf = gdf
         self.label = label
+        self.loc = loc
         self.fids = gdf.index.to_numpy()
         self.n = len(gdf)
         src = CRS.from_user_input(gdf.crs)
@@ -138,13 +154,63 @@ def _usable_geometries(lay: _Layer) -> tuple[np.ndarray, np.ndarray]:
     return geoms, keep
 
 
-def _all_season(values: pd.Series) -> np.ndarray:
-    """All-season flag per feature: 1.0, 0.0, or NaN where not given."""
-    aval = pd.to_numeric(values, errors="coerce").to_numpy(float)
+def _refuse(lay: "_Layer", field: str, bad: np.ndarray, what: str, accepted: str) -> None:
+    """Refuse the layer when any value of ``field`` is outside the accepted ones (``bad``), naming the first."""
+    rows = np.nonzero(bad)[0]
+    if len(rows) == 0:
+        return
+    i = rows[0]
+    value = lay.gdf[field].iloc[i]
+    more = f" (and {len(rows) - 1} more feature(s))" if len(rows) > 1 else ""
+    raise InputError(f"{where(lay.loc[0], lay.loc[1], lay.fids[i], field)}{what} {value!r} cannot be read{more}; "
+                     f"accepted: {accepted}; fix the value(s) or leave the field out")
+
+
+def read_levels(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Vertical level per feature, and which values are not whole numbers.
+
+    Whole numbers in any form (``1``, ``"1"``, ``"1.0"``, ``-1``) are used;
+    null and empty values mean ground level (0).  Anything else (``"0x"``,
+    ``"1;2"``, ``0.5``, ``"bridge"``) is flagged; the builder refuses it,
+    because a guessed level decides which crossing roads join.
+
+    >>> lv, bad = read_levels(pd.Series([1, "1.0", " -1 ", None, "", "0x", 0.5, "bridge"], dtype=object))
+    >>> lv.tolist(), bad.tolist()
+    ([1.0, 1.0, -1.0, 0.0, 0.0, 0.0, 0.0, 0.0], [False, False, False, False, False, True, True, True])
+    """
+    is_bool = values.map(lambda v: isinstance(v, (bool, np.bool_))).to_numpy(bool)
+    text = values.astype("string").str.strip()
+    empty = (values.isna() | (text == "")).to_numpy(bool)
+    num = pd.to_numeric(text.where(~pd.Series(empty, index=values.index)), errors="coerce").to_numpy(float)
+    with np.errstate(invalid="ignore"):
+        whole = np.isfinite(num) & (num == np.round(num))
+    bad = ~empty & (~whole | is_bool)
+    return np.where(whole & ~bad, num, 0.0), bad
+
+
+_YES = ("yes", "true", "y", "t")
+_NO = ("no", "false", "n", "f")
+
+
+def read_all_season(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """All-season flag per feature (1.0, 0.0, NaN where not given), and which values cannot be read.
+
+    Numbers (above zero = all-season), yes/true/y/t and no/false/n/f
+    (any case) are read; null and empty values are unknown (NaN); anything
+    else is flagged, and the builder refuses it.
+
+    >>> flag, bad = read_all_season(pd.Series([1, "0", "Yes", "n", None, "", "maybe"], dtype=object))
+    >>> flag.tolist(), bad.tolist()
+    ([1.0, 0.0, 1.0, 0.0, nan, nan, nan], [False, False, False, False, False, False, True])
+    """
     s = values.astype("string").str.strip().str.lower()
-    aval = np.where(s.isin(["yes", "true", "y", "t"]).fillna(False).to_numpy(), 1.0, aval)
-    aval = np.where(s.isin(["no", "false", "n", "f"]).fillna(False).to_numpy(), 0.0, aval)
-    return np.where(np.isnan(aval), np.nan, (aval > 0).astype(float))
+    empty = (values.isna() | (s == "")).to_numpy(bool)
+    aval = pd.to_numeric(s.where(~pd.Series(empty, index=values.index)), errors="coerce").to_numpy(float)
+    yes = s.isin(_YES).fillna(False).to_numpy(bool)
+    no = s.isin(_NO).fillna(False).to_numpy(bool)
+    aval = np.where(yes, 1.0, np.where(no, 0.0, aval))
+    bad = ~empty & ~np.isfinite(aval)
+    return np.where(np.isfinite(aval), (aval > 0).astype(float), np.nan), bad
 
 
 def _attributes(spec: Any, lay: _Layer) -> dict[str, Any]:
@@ -157,12 +223,20 @@ def _attributes(spec: Any, lay: _Layer) -> dict[str, Any]:
         speed, defaulted, why, layer_default = np.full(n, np.nan), np.zeros(n, bool), None, None
     if layer_default:
         lay.report["default_speeds_used"].append(f"{lay.label}: {layer_default}")
-    oneway = parse_oneway(gdf[spec.oneway_field].tolist()) if spec.oneway_field else np.zeros(n, np.int8)
+    oneway, level, aval = np.zeros(n, np.int8), np.zeros(n), np.full(n, np.nan)
+    if spec.oneway_field:
+        oneway, bad = read_oneway(gdf[spec.oneway_field].tolist())
+        _refuse(lay, spec.oneway_field, bad, "one-way value",
+                f"{'/'.join(ONEWAY_FORWARD)} (one-way as digitised), {'/'.join(ONEWAY_REVERSE)} (one-way against "
+                f"it), {'/'.join(ONEWAY_BOTH)} or empty (both ways)")
     if spec.level_field:
-        level = pd.to_numeric(gdf[spec.level_field], errors="coerce").fillna(0).to_numpy(float)
-    else:
-        level = np.zeros(n)
-    aval = _all_season(gdf[spec.all_season_field]) if spec.all_season_field else np.full(n, np.nan)
+        level, bad = read_levels(gdf[spec.level_field])
+        _refuse(lay, spec.level_field, bad, "level",
+                "whole numbers such as -1, 0, 1 (empty = ground level 0)")
+    if spec.all_season_field:
+        aval, bad = read_all_season(gdf[spec.all_season_field])
+        _refuse(lay, spec.all_season_field, bad, "all-season value",
+                f"numbers (above 0 = all-season), {'/'.join(_YES)}, {'/'.join(_NO)} or empty (unknown)")
     klass = gdf[spec.class_field].astype(object).to_numpy() if spec.class_field else np.full(n, None, object)
     return {"speed": speed, "defaulted": defaulted, "why": why, "oneway": oneway, "level": level,
             "all_season": aval, "klass": klass}
@@ -199,18 +273,16 @@ def _line_parts(lay: _Layer, geoms: np.ndarray, keep: np.ndarray) -> tuple[np.nd
     return part[~notline], owner[~notline]
 
 
-def _drop_nonfinite(lay: _Layer, part: np.ndarray, owner: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Drop parts with non-finite coordinates (reported)."""
+def _check_projected(lay: "_Layer", part: np.ndarray, owner: np.ndarray) -> None:
+    """Refuse lines that reprojection could not place in the working CRS (non-finite coordinates there)."""
     coords, cidx = shapely.get_coordinates(part, return_index=True)
-    finite = np.isfinite(coords).all(axis=1)
-    if finite.all():
-        return part, owner
-    badpart = np.unique(cidx[~finite])
-    for p in badpart:
-        lay.drop(owner[p], "non-finite coordinates")
-    good = np.ones(len(part), bool)
-    good[badpart] = False
-    return part[good], owner[good]
+    bad = ~np.isfinite(coords).all(axis=1)
+    if bad.any():
+        rows = np.unique(owner[cidx[bad]])
+        more = f" (and {len(rows) - 1} more feature(s))" if len(rows) > 1 else ""
+        raise InputError(f"{where(lay.loc[0], lay.loc[1], lay.fids[rows[0]])}cannot be placed in the working CRS "
+                         f"(its coordinates have no finite position there){more}; give a working CRS (crs) that "
+                         "covers the data, or check the layer's CRS")
 
 
 def _drop_zero_length(lay: _Layer, part, owner, plen):
@@ -233,10 +305,10 @@ def _layer_lines(li: int, spec: Any, lay: _Layer, crs: CRS) -> pd.DataFrame:
     geoms, keep = _usable_geometries(lay)
     att = _attributes(spec, lay)
     part, owner = _line_parts(lay, geoms, keep)
-    part, owner = _drop_nonfinite(lay, part, owner)
     if lay.tr is not None:
         tr = lay.tr
         part = shapely.transform(part, lambda xy: np.column_stack(tr.transform(xy[:, 0], xy[:, 1])))
+        _check_projected(lay, part, owner)
     # input length (geodesic) of every part that has geometry, before any repair
     coords, cidx = shapely.get_coordinates(part, return_index=True)
     plen = geodesic_lengths(coords, cidx, len(part), crs)
@@ -281,8 +353,8 @@ def prepare_lines(specs: list, frames: list, crs: CRS, issues: IssueLog, report:
         ``speed`` (km/h, NaN for cable), ``all_season`` (1/0/NaN), ``klass``
         and ``len`` (geodesic input length, m).
     """
-    parts = [_layer_lines(li, spec, _Layer(gdf, label, crs, issues, report), crs)
-             for li, (spec, (gdf, label, _loc)) in enumerate(zip(specs, frames))]
+    parts = [_layer_lines(li, spec, _Layer(gdf, label, loc, crs, issues, report), crs)
+             for li, (spec, (gdf, label, loc)) in enumerate(zip(specs, frames))]
     return pd.concat(parts, ignore_index=True) if parts else pd.DataFrame()
 
 

@@ -21,7 +21,7 @@ from pyproj import CRS
 from scipy.spatial import cKDTree
 
 from ..errors import OptionError
-from ..ingest.layers import LayerRef, parse_layer_ref, read_layer
+from ..ingest.layers import LayerRef, check_coordinates, parse_layer_ref, read_layer
 from .costs import MODES, minutes_from_length
 from .geodesy import geodesic_lengths
 from .issues import IssueLog
@@ -76,9 +76,11 @@ def _read_points(spec: Any, label: str, crs: CRS):
         ref = parse_layer_ref(src)
         pts = read_layer(ref, "points", assume_crs=spec.assume_crs)
         plabel = ref.label
+        check_coordinates(pts, ref.path, ref.layer)
     else:
         pts = src
         plabel = f"{label}_access"
+        check_coordinates(pts, plabel)
     pts = pts[~(pts.geometry.isna() | pts.geometry.is_empty)].to_crs(crs)
     return pts.explode(index_parts=False), plabel
 
