@@ -113,25 +113,32 @@ def _crossing_events(a, b, t, u, eta, etb, parallel, seg, level, line_start, lin
 
 
 def _overlap_events(ca, cb, seg, level, out):
-    """Events of collinear overlapping pairs: each end of one segment inside the other is a node on it."""
+    """Events of collinear pairs that overlap or touch end to end.
+
+    Each end of one segment lying inside the other is a new vertex on the
+    other; each end lying within the other's extent (inside it or at one of
+    its ends) is a node on its own segment.  An end beyond the other
+    segment is nothing (two collinear lines meeting end to end are not
+    split at their far vertices).
+    """
     x0, y0, x1, y1 = seg
     same_lvl = level[ca] == level[cb]
     ca, cb = ca[same_lvl], cb[same_lvl]
     for s_on, s_pt in ((ca, cb), (cb, ca)):
-        for ex, ey in ((x0[s_pt], y0[s_pt]), (x1[s_pt], y1[s_pt])):
-            ox, oy = x0[s_on], y0[s_on]
-            dx, dy = x1[s_on] - ox, y1[s_on] - oy
-            L2 = dx * dx + dy * dy
+        ox, oy = x0[s_on], y0[s_on]
+        dx, dy = x1[s_on] - ox, y1[s_on] - oy
+        L2 = dx * dx + dy * dy
+        et = NOISE_M / np.maximum(np.sqrt(L2), NOISE_M)
+        for t_end, ex, ey in ((0.0, x0[s_pt], y0[s_pt]), (1.0, x1[s_pt], y1[s_pt])):
             tt = ((ex - ox) * dx + (ey - oy) * dy) / np.maximum(L2, 1e-18)
-            et = NOISE_M / np.maximum(np.sqrt(L2), NOISE_M)
             inside = (tt > et) & (tt < 1 - et)
             out[0].append(s_on[inside]); out[1].append(tt[inside])
             out[2].append(ex[inside]); out[3].append(ey[inside]); out[4].append(np.ones(inside.sum(), bool))
             out[5].append(np.full(inside.sum(), -1, np.int64))
-        # both ends of the overlapping piece are nodes on the point segment too
-        for t_end, ex, ey in ((0.0, x0, y0), (1.0, x1, y1)):
-            out[0].append(s_pt); out[1].append(np.full(len(s_pt), t_end)); out[2].append(ex[s_pt])
-            out[3].append(ey[s_pt]); out[4].append(np.zeros(len(s_pt), bool)); out[5].append(np.full(len(s_pt), -1))
+            within = (tt >= -et) & (tt <= 1 + et)
+            out[0].append(s_pt[within]); out[1].append(np.full(within.sum(), t_end)); out[2].append(ex[within])
+            out[3].append(ey[within]); out[4].append(np.zeros(within.sum(), bool))
+            out[5].append(np.full(within.sum(), -1, np.int64))
 
 
 def segment_events(x0: np.ndarray, y0: np.ndarray, x1: np.ndarray, y1: np.ndarray, seg_line: np.ndarray,
