@@ -12,7 +12,7 @@ import pytest
 import shapely
 from hypothesis import assume, given, settings, strategies as st
 
-from geo_reach.network.build import LayerSpec, build_network
+from geo_reach.network.build import BuildOptions, LayerSpec, build_network
 from geo_reach.network.noding import segment_events
 
 UTM = "EPSG:32727"
@@ -30,7 +30,7 @@ def test_segment_meetings_match_geos(raw):
     """Every pair of segments that GEOS says meets at one point gives an event there on both segments,
     at that point; pairs GEOS says do not meet give none.  Coordinates on a 0.25 m lattice, so ends
     touching interiors and shared end points occur; pairs within 2 mm of touching are left out (below
-    1 mm the builder joins on purpose), and so are collinear overlaps (tested below)."""
+    1 mm the builder joins on purpose), and so are parallel pairs (collinear ones are tested below)."""
     seg = np.array([r for r in raw if (r[0], r[1]) != (r[2], r[3])], float) / 4
     assume(len(seg) >= 2)
     geoms = shapely.linestrings(seg.reshape(-1, 2, 2))
@@ -46,7 +46,9 @@ def test_segment_meetings_match_geos(raw):
         for j in range(n):
             inter = shapely.intersection(geoms[i], geoms[j])
             d = float(shapely.distance(geoms[i], geoms[j]))
-            if i == j or 0 < d < 2e-3 or shapely.get_type_id(inter) not in (0, 7):
+            ri, rj = seg[i, 2:] - seg[i, :2], seg[j, 2:] - seg[j, :2]
+            parallel = ri[0] * rj[1] - ri[1] * rj[0] == 0
+            if i == j or 0 < d < 2e-3 or parallel:
                 continue
             checked += 1
             if inter.is_empty:
@@ -68,6 +70,11 @@ def test_level_rule():
     r = build_network([LayerSpec(lines_layer([[(0, 0), (100, 0)], [(50, 0), (50, 50)]], level=[0, 1]),
                                  level_field="level")])
     assert r.report["components"] == 1 and r.report["crossing_kept"] == 0
+    # with no snapping at all (so only noding can join them), whichever of the two is drawn first
+    for order in (1, -1):
+        g = lines_layer([[(0, 0), (100, 0)], [(50, 0), (50, 50)]][::order], level=[0, 1][::order])
+        r = build_network([LayerSpec(g, level_field="level")], BuildOptions(snap_m=0))
+        assert r.report["components"] == 1 and r.network.n_nodes == 4
     # the same levels cross: split
     r = build_network([LayerSpec(lines_layer([[(0, 0), (100, 0)], [(50, -50), (50, 50)]], level=[1, 1]),
                                  level_field="level")])
@@ -109,3 +116,23 @@ def test_collinear_lines_meeting_end_to_end_are_not_split_further():
     r = build_network([LayerSpec(lines_layer(lines))])
     ref = shapely.get_parts(shapely.node(shapely.MultiLineString([shapely.LineString(c) for c in lines])))
     assert len(ref) == r.network.n_edges == 2 and r.network.n_nodes == 3
+
+
+@pytest.mark.parametrize("order", [1, -1])
+@pytest.mark.parametrize("short, meets", [(0.0005, True), (0.0015, False)])
+def test_line_end_within_a_millimetre_of_a_line_meets_it(short, meets, order):
+    """With no snapping, an end stopping ``short`` of a (diagonal) line meets it within 1 mm of numeric
+    noise, and not beyond (whichever line is drawn first)."""
+    g = lines_layer([[(0, -10), (100, 10)], [(50, 50), (50, short)]][::order])
+    r = build_network([LayerSpec(g)], BuildOptions(snap_m=0))
+    assert (r.report["components"] == 1) == meets
+
+
+def test_lines_crossing_at_a_shallow_angle_are_split():
+    """Two lines crossing at 1/2000 rad: split where GEOS says they cross."""
+    a, b = [(0, 0), (1000, 0)], [(0, -0.25), (1000, 0.25)]
+    r = build_network([LayerSpec(lines_layer([a, b]))], BuildOptions(snap_m=0))
+    x = shapely.intersection(shapely.LineString(a), shapely.LineString(b))
+    assert r.report["crossing_split"] == 1 and r.report["components"] == 1
+    pt = r.issues[r.issues.kind == "crossing_split"].geometry.iloc[0]
+    assert pt.distance(shapely.Point(x.x + X0, x.y + Y0)) < 1e-6

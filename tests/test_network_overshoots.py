@@ -28,11 +28,14 @@ def kinds(r):
     return r.issues["kind"].value_counts().to_dict()
 
 
+@pytest.mark.parametrize("at_start", [False, True])
 @pytest.mark.parametrize("past, trimmed", [(1.0, True), (0.5, True), (1.0 + 2 ** -20, False)])
-def test_overshoot_trimmed_up_to_the_tolerance(past, trimmed):
-    """A line crossing another at a vertex of its own and running ``past`` metres beyond it: cut back
-    to the crossing at up to 1 m (inclusive), reported as a trimmed overshoot with its length."""
-    r = build([[(0, 0), (100, 0)], [(50, -40), (50, 0), (50, past)]])
+def test_overshoot_trimmed_up_to_the_tolerance(past, trimmed, at_start):
+    """A line crossing another at a vertex of its own and running ``past`` metres beyond it (at its end,
+    or drawn the other way, at its start): cut back to the crossing at up to 1 m (inclusive), reported
+    as a trimmed overshoot with its length."""
+    line = [(50, -40), (50, 0), (50, past)]
+    r = build([[(0, 0), (100, 0)], line[::-1] if at_start else line])
     det = r.issues[r.issues.kind.isin(["gap_joined", "dangle"])].detail.tolist()
     if trimmed:
         assert det == [f"overshoot of {past:.2f} m past a junction trimmed"]
@@ -49,7 +52,22 @@ def test_oblique_overshoot_is_cut_back_along_its_own_line():
     a = 2 ** -0.5 * 0.5
     r = build([[(0, 0), (100, 0)], [(10, -40), (50 + a, a)]])
     assert r.issues[r.issues.kind == "gap_joined"].detail.tolist() == ["overshoot of 0.50 m past a junction trimmed"]
-    assert np.any(np.isclose(r.network.node_x, X0 + 50) & np.isclose(r.network.node_y, Y0))
+    assert np.any((np.abs(r.network.node_x - X0 - 50) < 1e-6) & (np.abs(r.network.node_y - Y0) < 1e-6))
+
+
+def test_the_nearest_node_to_each_end_is_the_one_trimmed_to():
+    """Lines crossed several times, overshooting at both ends: each end is cut back to the node nearest
+    it, and only the overshoots go (trimmed length = their sum)."""
+    lines = [[(0, 0), (300, 0)], [(0, 100), (300, 100)], [(0, 50), (300, 50)]]
+    over = []
+    for k, x in enumerate((40, 120, 200, 260)):
+        a, b = 0.25 + 0.125 * k, 0.5 + 0.125 * k
+        lines.append([(x, -a), (x, 100 + b)])
+        over += [a, b]
+    r = build(lines)
+    assert r.report["trimmed_length_m"] == pytest.approx(sum(over) / K0, abs=1e-3)
+    assert r.report["gap_joined"] == 8 and r.network.n_nodes == 6 + 12
+    assert "dangle" not in kinds(r)
 
 
 def test_only_free_ends_are_trimmed():

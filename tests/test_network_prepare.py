@@ -205,3 +205,44 @@ def test_build_defaults_are_exported():
     assert BUILD_DEFAULTS == {"crs": None, "snap_m": 1.0, "dangle_m": None, "access_snap_m": 100.0,
                               "transfer_max_m": 1000.0, "transfer_walk_kmh": 5.0}
     assert BuildOptions().dangle_m == DANGLE_FACTOR * BUILD_DEFAULTS["snap_m"]
+
+
+def test_exact_copies_one_way_in_opposite_directions_are_both_kept():
+    """Exact copies of one line, one-way each way (a dual carriageway drawn on one course): both kept;
+    the same line one-way twice in the same direction is a duplicate feature."""
+    line = [(0, 0), (100, 0)]
+    r = build_network([LayerSpec(lines_layer([line, line[::-1]], ow=["yes", "yes"]), oneway_field="ow")])
+    assert r.network.n_edges == 2 and r.report["duplicate_removed"] == 0
+    r = build_network([LayerSpec(lines_layer([line, line], ow=["yes", "yes"]), oneway_field="ow")])
+    assert r.network.n_edges == 1 and r.report["duplicate_removed"] == 1
+
+
+def test_short_lines_are_kept_only_zero_length_dropped():
+    """A 0.5 m line is a line; one whose vertices lie within 1 mm of each other is dropped and reported."""
+    r = build_network([LayerSpec(lines_layer([[(0, 0), (0.5, 0)], [(10, 0), (10.0005, 0)]]))])
+    assert r.network.n_edges == 1 and r.report["zero_length"] == 1
+    assert r.report["dropped_features"] == [{"src_layer": "layer1", "src_fid": 1, "reason": "zero length"}]
+
+
+def test_projected_limit_is_in_metres_whatever_the_unit():
+    """2e8 US survey feet is 6.1e7 m: within the limit in metres, so accepted; 1e8 m in a metre CRS is too."""
+    ft = gpd.GeoDataFrame(geometry=[shapely.LineString([(2e8, 0.0), (2e8 + 10, 0.0)])], crs="EPSG:2223")
+    check_coordinates(ft, "ft.gpkg")
+    m = gpd.GeoDataFrame(geometry=[shapely.LineString([(1.01e8, 0.0), (1.01e8 + 10, 0.0)])], crs=UTM)
+    with pytest.raises(InputError):
+        check_coordinates(m, "m.gpkg")
+
+
+def test_dangle_length_defaults_to_ten_tolerances():
+    assert BuildOptions(snap_m=2.0).dangle_m == 20.0
+    assert BuildOptions(snap_m=0.5, dangle_m=3.0).dangle_m == 3.0
+
+
+def test_multi_part_lines_are_split_and_reported():
+    g = gpd.GeoDataFrame({"n": [0, 1]}, geometry=[
+        shapely.MultiLineString([[(X0, Y0), (X0 + 100, Y0)], [(X0, Y0 + 50), (X0 + 100, Y0 + 50)]]),
+        shapely.LineString([(X0, Y0 + 100), (X0 + 100, Y0 + 100)])], crs=UTM)
+    r = build_network([LayerSpec(g)])
+    assert r.report["multipart_features"] == 1 and r.network.n_edges == 3
+    rep = r.issues[r.issues.kind == "geometry_repaired"]
+    assert rep.src_fid.tolist() == [0] and "split into 2 lines" in rep.detail.iloc[0]

@@ -104,3 +104,22 @@ def test_no_road_to_link_to_is_reported():
 def test_stations_on_a_road_layer_are_refused():
     with pytest.raises(InputError, match="rail or cable layers only"):
         build_network([LayerSpec(layer(ROAD), access_points=points([(10, 0)]))])
+
+
+def test_station_at_a_level_crossing_enters_the_rail_line():
+    """A station exactly where the rail line crosses the road: the rail node there is the entry (the
+    road node at the same place is another mode), and the transfer link between them has no length."""
+    road = [[(0, 300), (400, 300)]]
+    r = build_network([LayerSpec(layer(road)), LayerSpec(layer(RAIL), mode="rail", access_points=points([(200, 300)]),
+                                                         boarding_minutes=2.0)])
+    net = r.network
+    rail = np.unique(np.concatenate([net.edge_from[net.edge_mode == "rail"], net.edge_to[net.edge_mode == "rail"]]))
+    st = rail[net.node_entry[rail]]
+    assert len(st) == 1 and (net.node_x[st[0]] - X0, net.node_y[st[0]] - Y0) == pytest.approx((200, 300))
+    tf = net.edge_mode == "transfer"
+    assert tf.sum() == 2 and np.all(net.edge_length_m[tf] == 0)
+    road_nodes = set(np.concatenate([net.edge_from[net.edge_mode == "road"], net.edge_to[net.edge_mode == "road"]]))
+    ends = {(int(a) in road_nodes, int(b) in road_nodes) for a, b in zip(net.edge_from[tf], net.edge_to[tf])}
+    assert ends == {(True, False), (False, True)}          # road -> rail and rail -> road
+    assert r.report["components"] == 1
+    assert sorted(net.edge_minutes[tf]) == [0.0, 2.0]
