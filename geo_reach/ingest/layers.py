@@ -10,6 +10,7 @@ from __future__ import annotations
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from ..errors import CRSError, InputError, LayerError, MissingInputError, where
 
@@ -165,7 +166,7 @@ def read_layer(ref, expect: str = "lines", assume_crs=None, allow_empty: bool = 
     return gdf
 
 
-def check_coordinates(gdf, path=None, layer=None) -> None:
+def check_coordinates(gdf: Any, path: Any = None, layer: str | None = None) -> None:
     """Refuse coordinates that cannot be a place on Earth in the layer's CRS.
 
     Every x and y must be finite; in a geographic CRS longitude must lie

@@ -91,7 +91,8 @@ def line_rows(tab: LineTable) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.nd
     return line, X, Y, isnode
 
 
-def cluster_nodes(X: np.ndarray, Y: np.ndarray, nrow: np.ndarray, nmode: np.ndarray):
+def cluster_nodes(X: np.ndarray, Y: np.ndarray, nrow: np.ndarray,
+                  nmode: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Node id of each node row: rows within 1 mm of each other (single linkage), per mode, are one node.
 
     The rows' coordinates are moved to their node's (its first member's).
@@ -121,7 +122,8 @@ def cluster_nodes(X: np.ndarray, Y: np.ndarray, nrow: np.ndarray, nmode: np.ndar
     return lab, node_x, node_y, nmode[first_member]
 
 
-def _cut_edges(line: np.ndarray, X: np.ndarray, Y: np.ndarray, nrow: np.ndarray, row_node: np.ndarray):
+def _cut_edges(line: np.ndarray, X: np.ndarray, Y: np.ndarray, nrow: np.ndarray,
+               row_node: np.ndarray) -> tuple[np.ndarray, ...]:
     """Edges between consecutive node rows of one line: (from, to, line, vertex xy, vertex owner)."""
     a, b = nrow[:-1], nrow[1:]
     ok = line[a] == line[b]

@@ -6,8 +6,11 @@ default that was used, so an analyst can see where the numbers came from.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import pandas as pd
+from numpy.typing import ArrayLike
 
 __all__ = [
     "MODES", "DEFAULT_SPEED_KMH", "DEFAULT_CLASS_SPEEDS_KMH", "FIBRE_SIGNAL_SPEED_M_PER_MS",
@@ -41,7 +44,7 @@ DEFAULT_CLASS_SPEEDS_KMH = {
 FIBRE_SIGNAL_SPEED_M_PER_MS = 299_792.458 / 1.468
 
 
-def minutes_from_length(length_m, speed_kmh):
+def minutes_from_length(length_m: ArrayLike, speed_kmh: ArrayLike) -> np.ndarray:
     """Travel time in minutes for ``length_m`` metres at ``speed_kmh``.
 
     >>> float(minutes_from_length(1000.0, 60.0))
@@ -50,7 +53,7 @@ def minutes_from_length(length_m, speed_kmh):
     return np.asarray(length_m, dtype=float) / 1000.0 / np.asarray(speed_kmh, dtype=float) * 60.0
 
 
-def latency_from_length(length_m):
+def latency_from_length(length_m: ArrayLike) -> np.ndarray:
     """One-way signal latency in ms over ``length_m`` metres of fibre.
 
     >>> round(float(latency_from_length(1_000_000.0)), 2)   # 1000 km
@@ -68,7 +71,7 @@ ONEWAY_REVERSE = ("-1", "reverse", "rev", "backward", "r")
 ONEWAY_BOTH = ("no", "false", "0", "n", "f", "both", "none", "two-way", "twoway", "b")
 
 
-def read_oneway(values) -> tuple[np.ndarray, np.ndarray]:
+def read_oneway(values: Sequence) -> tuple[np.ndarray, np.ndarray]:
     """Direction code per feature, and which values are not in the documented sets.
 
     Parameters
@@ -112,7 +115,7 @@ def read_oneway(values) -> tuple[np.ndarray, np.ndarray]:
     return out, unknown
 
 
-def parse_oneway(values) -> np.ndarray:
+def parse_oneway(values: Sequence) -> np.ndarray:
     """Direction code per feature, reading any value outside the documented sets as both ways.
 
     The lenient reading (for guessing whether a field is a one-way flag);
@@ -124,8 +127,9 @@ def parse_oneway(values) -> np.ndarray:
     return read_oneway(values)[0]
 
 
-def feature_speeds(frame: pd.DataFrame, mode: str, speed_field=None, class_field=None,
-                   class_speeds=None, speed_kmh=None):
+def feature_speeds(frame: pd.DataFrame, mode: str, speed_field: str | None = None, class_field: str | None = None,
+                   class_speeds: dict | None = None, speed_kmh: float | None = None
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray, str | None]:
     """Speed per feature (km/h) and what was defaulted.
 
     Precedence per feature: a valid value of ``speed_field``; else the

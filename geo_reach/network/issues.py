@@ -40,7 +40,7 @@ class IssueLog:
         """How many spots of ``kind`` were recorded (with or without a place)."""
         return sum(1 for r in self.rows if r[0] == kind)
 
-    def frame(self, crs: Any):
+    def frame(self, crs: Any) -> Any:
         """The ``network_issues`` layer: a GeoDataFrame of points, sorted by kind, x, y.
 
         Rows with no place are left out of the layer (the report counts and lists them).

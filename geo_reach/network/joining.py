@@ -42,6 +42,8 @@ References
 
 from __future__ import annotations
 
+from typing import Callable
+
 import numpy as np
 import pandas as pd
 from pyproj import CRS
@@ -184,7 +186,7 @@ def _drop_join_crossings(tab: LineTable, cluster: np.ndarray, snapped: list[tupl
 
 
 def _nearest_on_segments(tab: LineTable, snap_m: float, pts: np.ndarray, pmode: np.ndarray,
-                         pline_ok) -> tuple[np.ndarray, ...]:
+                         pline_ok: Callable[[np.ndarray, np.ndarray], np.ndarray]) -> tuple[np.ndarray, ...]:
     """For each point, the nearest live segment of its mode within ``snap_m`` (distance <= ``snap_m``).
 
     ``pline_ok(pi, lines)`` says which (point, segment line) candidates are

@@ -69,11 +69,12 @@ class NodeEvents:
     kept_b: np.ndarray
 
 
-def _cat(parts: list, dtype=float) -> np.ndarray:
+def _cat(parts: list, dtype: type = float) -> np.ndarray:
     return np.concatenate(parts) if parts else np.zeros(0, dtype)
 
 
-def _candidate_pairs(x0, y0, x1, y1, seg_line, group) -> tuple[np.ndarray, np.ndarray]:
+def _candidate_pairs(x0: np.ndarray, y0: np.ndarray, x1: np.ndarray, y1: np.ndarray, seg_line: np.ndarray,
+                     group: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Segment pairs whose boxes overlap, same mode, not two neighbours of one line."""
     boxes = np.column_stack([np.minimum(x0, x1), np.minimum(y0, y1), np.maximum(x0, x1), np.maximum(y0, y1)])
     a, b = box_pairs(boxes)
@@ -83,7 +84,9 @@ def _candidate_pairs(x0, y0, x1, y1, seg_line, group) -> tuple[np.ndarray, np.nd
     return a[m], b[m]
 
 
-def _crossing_events(a, b, t, u, eta, etb, parallel, seg, level, line_start, line_end, out, kept):
+def _crossing_events(a: np.ndarray, b: np.ndarray, t: np.ndarray, u: np.ndarray, eta: np.ndarray, etb: np.ndarray,
+                     parallel: np.ndarray, seg: tuple, level: np.ndarray, line_start: np.ndarray,
+                     line_end: np.ndarray, out: tuple, kept: tuple) -> None:
     """Events of the non-parallel pairs that touch or cross (appended to ``out`` and ``kept``)."""
     x0, y0, x1, y1 = seg
     q = ~parallel & (t >= -eta) & (t <= 1 + eta) & (u >= -etb) & (u <= 1 + etb)
@@ -112,7 +115,7 @@ def _crossing_events(a, b, t, u, eta, etb, parallel, seg, level, line_start, lin
         out[4].append(inter[join]); out[5].append(other[join])
 
 
-def _overlap_events(ca, cb, seg, level, out):
+def _overlap_events(ca: np.ndarray, cb: np.ndarray, seg: tuple, level: np.ndarray, out: tuple) -> None:
     """Events of collinear pairs that overlap or touch end to end.
 
     Each end of one segment lying inside the other is a new vertex on the

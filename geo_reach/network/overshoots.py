@@ -11,6 +11,8 @@
 
 from __future__ import annotations
 
+from typing import Callable
+
 import numpy as np
 import shapely
 from pyproj import CRS
@@ -46,7 +48,7 @@ def _outermost_interior_nodes(tab: LineTable) -> tuple[np.ndarray, np.ndarray]:
     return starts, ends
 
 
-def _distance_along(tab: LineTable):
+def _distance_along(tab: LineTable) -> tuple[Callable[[np.ndarray, np.ndarray], np.ndarray], np.ndarray]:
     """Planar distance along each line: ``along(lines, pos)`` and the total length per line."""
     xy = tab.xy
     seglen = np.zeros(len(xy))

@@ -118,7 +118,7 @@ class _Layer:
         self.issues = issues
         self.report = report
 
-    def work_xy(self, geom) -> tuple[float, float]:
+    def work_xy(self, geom: Any) -> tuple[float, float]:
         """A point on a source-CRS geometry, in the working CRS (issue points are placed there)."""
         c = shapely.get_coordinates(shapely.point_on_surface(geom))[0]
         return (float(c[0]), float(c[1])) if self.tr is None else self.tr.transform(float(c[0]), float(c[1]))
@@ -285,7 +285,8 @@ def _check_projected(lay: "_Layer", part: np.ndarray, owner: np.ndarray) -> None
                          "covers the data, or check the layer's CRS")
 
 
-def _drop_zero_length(lay: _Layer, part, owner, plen):
+def _drop_zero_length(lay: _Layer, part: np.ndarray, owner: np.ndarray,
+                      plen: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Drop lines whose vertices all lie within 1 mm (``zero_length``); repeated vertices are removed."""
     part = shapely.remove_repeated_points(part, NOISE_M)
     zero = shapely.get_num_coordinates(part) < 2

@@ -17,6 +17,7 @@ from typing import Any
 
 import numpy as np
 import shapely
+from numpy.typing import ArrayLike
 from pyproj import CRS
 from scipy.spatial import cKDTree
 
@@ -69,7 +70,7 @@ def node_on_segment(tab: LineTable, r: int, ln: int, P: np.ndarray) -> np.ndarra
     return Q
 
 
-def _read_points(spec: Any, label: str, crs: CRS):
+def _read_points(spec: Any, label: str, crs: CRS) -> tuple[Any, str]:
     """The access points of ``spec`` in the working CRS (exploded, empty ones left out), and their label."""
     src = spec.access_points
     if isinstance(src, (str, LayerRef)) or hasattr(src, "__fspath__"):
@@ -85,7 +86,7 @@ def _read_points(spec: Any, label: str, crs: CRS):
     return pts.explode(index_parts=False), plabel
 
 
-def _segments_tree(tab: LineTable, mask: np.ndarray):
+def _segments_tree(tab: LineTable, mask: np.ndarray) -> tuple[np.ndarray, Any]:
     """Indices into ``tab.seg`` of the live segments where ``mask`` (per segment) holds, and their STR-tree."""
     seg = tab.seg
     sidx = np.nonzero(mask & ~tab.deleted[seg] & ~tab.deleted[seg + 1])[0]
@@ -171,7 +172,7 @@ def attach_access(tab: LineTable, lines_layer: np.ndarray, specs: list, labels: 
     return plan
 
 
-def _node_near(tree: cKDTree, node_mode: np.ndarray, P, mode: int) -> int | None:
+def _node_near(tree: cKDTree, node_mode: np.ndarray, P: ArrayLike, mode: int) -> int | None:
     """The node of ``mode`` at ``P`` (within 1 cm), or None."""
     n = tree.n
     d, k = tree.query(P, k=min(_NEAR_NODES, n))

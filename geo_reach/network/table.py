@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
+from numpy.typing import ArrayLike
 import shapely
 from scipy.sparse import coo_array
 from scipy.sparse.csgraph import connected_components
@@ -87,7 +88,7 @@ class NewVertices:
     x: list[np.ndarray] = field(default_factory=list)
     y: list[np.ndarray] = field(default_factory=list)
 
-    def add(self, line, pos, x, y) -> None:
+    def add(self, line: ArrayLike, pos: ArrayLike, x: ArrayLike, y: ArrayLike) -> None:
         """Append vertices (array-likes of equal length)."""
         self.line.append(np.asarray(line, np.int64))
         self.pos.append(np.asarray(pos, float))
