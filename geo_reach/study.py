@@ -313,8 +313,8 @@ def _check(node, schema, dotted, errors, base, loc):
 
 
 #: Keys whose numbers must be positive (> 0) or not negative (>= 0), wherever they appear.
-_POSITIVE = {"speed_kmh", "speed_factor", "transfer_walk_kmh"}
-_NOT_NEGATIVE = {"snap_m", "dangle_m", "access_snap_m", "boarding_minutes", "transfer_max_m"}
+_POSITIVE = {"speed_kmh", "speed_factor"}
+_NOT_NEGATIVE = {"boarding_minutes"}
 
 
 def _check_ranges(node, dotted, errors, loc):

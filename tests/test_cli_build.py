@@ -138,3 +138,25 @@ def test_check_writes_issues_only(tmp_path, roads):
     assert code == 0, err
     assert list(pyogrio.list_layers(out)[:, 0]) == ["network_issues"]
     assert json.loads(stdout)["issues"]["crossing_split"] == 1
+
+
+def test_absurd_coordinates_refused_in_one_line(tmp_path):
+    """Issue 9, point 3: coordinates of 1e15 once ended in a ValueError traceback (exit 1)."""
+    p = tmp_path / "far.gpkg"
+    gpd.GeoDataFrame(geometry=[shapely.LineString([(X0, Y0), (X0 + 100, Y0)]),
+                               shapely.LineString([(X0, Y0), (1e15, 1e15)])], crs=UTM).to_file(p, layer="roads")
+    refused(["build", f"{p}:roads", "-o", tmp_path / "o.gpkg"], "far.gpkg", "layer 'roads'", "feature 2",
+            "not a place on Earth")
+    assert sorted(x.name for x in tmp_path.iterdir()) == ["far.gpkg"]
+
+
+def test_uninterpretable_level_refused_in_one_line(tmp_path):
+    """Issue 9, point 5: a level field holding "0x"/"1x" once made every level 0, silently."""
+    p = tmp_path / "lv.gpkg"
+    gpd.GeoDataFrame({"lvl": ["0x", "1x"]},
+                     geometry=[shapely.LineString([(X0, Y0), (X0 + 100, Y0)]),
+                               shapely.LineString([(X0 + 50, Y0 - 50), (X0 + 50, Y0 + 50)])], crs=UTM
+                     ).to_file(p, layer="roads")
+    refused(["build", f"{p}:roads", "-o", tmp_path / "o.gpkg", "--level-field", "lvl"], "lv.gpkg", "feature 1",
+            "field 'lvl'", "'0x'", "1 more feature", "whole numbers")
+    assert sorted(x.name for x in tmp_path.iterdir()) == ["lv.gpkg"]

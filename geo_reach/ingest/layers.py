@@ -10,17 +10,25 @@ from __future__ import annotations
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from ..errors import CRSError, InputError, LayerError, MissingInputError, where
 
 __all__ = ["LayerRef", "parse_layer_ref", "list_layers", "read_frame", "read_layer", "parse_crs", "GEOM_FAMILIES",
-           "layer_set", "exists", "FORMATS", "PARQUET_SUFFIXES", "LAYER_SET_SUFFIXES"]
+           "layer_set", "exists", "FORMATS", "PARQUET_SUFFIXES", "LAYER_SET_SUFFIXES", "check_coordinates",
+           "MAX_PROJECTED_M"]
 
 GEOM_FAMILIES = {
     "lines": {"LineString", "MultiLineString", "LinearRing"},
     "points": {"Point", "MultiPoint"},
     "polygons": {"Polygon", "MultiPolygon"},
 }
+
+
+#: Largest absolute projected coordinate taken as a place on Earth, in metres.  The equator is about
+#: 4.0e7 m long and zone-prefixed eastings (Gauss-Krueger zones numbered into the easting) reach about
+#: 4e7 m, so anything beyond 1e8 m is a fault in the data (or its CRS), not a place.
+MAX_PROJECTED_M = 1e8
 
 
 @dataclass(frozen=True)
@@ -243,3 +251,56 @@ def parse_crs(value, key: str = "crs"):
     except (ProjCRSError, TypeError, ValueError) as err:
         raise CRSError(f"{key} {str(value)[:80]!r}: not a coordinate reference system pyproj knows; give one "
                        "such as EPSG:32633", key=key) from err
+
+
+def check_coordinates(gdf: Any, path: Any = None, layer: str | None = None) -> None:
+    """Refuse coordinates that cannot be a place on Earth in the layer's CRS.
+
+    Every x and y must be finite; in a geographic CRS longitude must lie
+    within -360..360 and latitude within -90..90 degrees; in a projected CRS
+    each coordinate, in metres, within :data:`MAX_PROJECTED_M`.  (Such values
+    would otherwise break the spatial indexing and reprojection with an
+    error naming no feature.)
+
+    Parameters
+    ----------
+    gdf : GeoDataFrame
+        Index = source feature ids; CRS set (without one only finiteness is checked).
+    path, layer : optional
+        Where the layer came from, for the message.
+
+    Raises
+    ------
+    InputError
+        One line naming the file, layer and first such feature, the
+        coordinate, how many features have one, and what to do.
+    """
+    import numpy as np
+    import shapely
+    from pyproj import CRS
+
+    geoms = np.asarray(gdf.geometry.values, dtype=object)
+    xy, owner = shapely.get_coordinates(geoms, return_index=True)
+    if len(xy) == 0:
+        return
+    bad = ~np.isfinite(xy).all(axis=1)
+    crs = CRS.from_user_input(gdf.crs) if gdf.crs is not None else None
+    rule = "coordinates must be finite numbers"
+    with np.errstate(invalid="ignore"):
+        if crs is not None and crs.is_geographic:
+            bad |= (np.abs(xy[:, 0]) > 360) | (np.abs(xy[:, 1]) > 90)
+            rule = "longitude must lie within -360..360 and latitude within -90..90 degrees"
+        elif crs is not None and crs.is_projected:
+            factor = crs.axis_info[0].unit_conversion_factor if crs.axis_info else 1.0
+            bad |= (np.abs(xy) * factor > MAX_PROJECTED_M).any(axis=1)
+            rule = f"projected coordinates must lie within {MAX_PROJECTED_M / 1000:,.0f} km of the origin"
+    if not bad.any():
+        return
+    rows = np.unique(owner[bad])
+    x, y = xy[np.nonzero(bad)[0][0]]
+    if not (np.isfinite(x) and np.isfinite(y)):
+        rule = "coordinates must be finite numbers"
+    more = f" (and {len(rows) - 1} more feature(s))" if len(rows) > 1 else ""
+    crs_name = f" in {crs.name}" if crs is not None else ""
+    raise InputError(f"{where(path, layer, gdf.index[rows[0]])}coordinate ({x:.6g}, {y:.6g}) is not a place on "
+                     f"Earth{crs_name}{more}: {rule}; fix the feature, or check the layer's CRS")

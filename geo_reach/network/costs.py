@@ -6,12 +6,16 @@ default that was used, so an analyst can see where the numbers came from.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import pandas as pd
+from numpy.typing import ArrayLike
 
 __all__ = [
     "MODES", "DEFAULT_SPEED_KMH", "DEFAULT_CLASS_SPEEDS_KMH", "FIBRE_SIGNAL_SPEED_M_PER_MS",
-    "feature_speeds", "minutes_from_length", "latency_from_length", "parse_oneway",
+    "feature_speeds", "minutes_from_length", "latency_from_length", "parse_oneway", "read_oneway",
+    "ONEWAY_FORWARD", "ONEWAY_REVERSE", "ONEWAY_BOTH",
 ]
 
 #: Modes a line layer can have; ``transfer`` links are made by the builder.
@@ -40,7 +44,7 @@ DEFAULT_CLASS_SPEEDS_KMH = {
 FIBRE_SIGNAL_SPEED_M_PER_MS = 299_792.458 / 1.468
 
 
-def minutes_from_length(length_m, speed_kmh):
+def minutes_from_length(length_m: ArrayLike, speed_kmh: ArrayLike) -> np.ndarray:
     """Travel time in minutes for ``length_m`` metres at ``speed_kmh``.
 
     >>> float(minutes_from_length(1000.0, 60.0))
@@ -49,7 +53,7 @@ def minutes_from_length(length_m, speed_kmh):
     return np.asarray(length_m, dtype=float) / 1000.0 / np.asarray(speed_kmh, dtype=float) * 60.0
 
 
-def latency_from_length(length_m):
+def latency_from_length(length_m: ArrayLike) -> np.ndarray:
     """One-way signal latency in ms over ``length_m`` metres of fibre.
 
     >>> round(float(latency_from_length(1_000_000.0)), 2)   # 1000 km
@@ -58,39 +62,74 @@ def latency_from_length(length_m):
     return np.asarray(length_m, dtype=float) / FIBRE_SIGNAL_SPEED_M_PER_MS
 
 
-_FORWARD = {"yes", "true", "1", "y", "t", "forward", "fwd"}
-_REVERSE = {"-1", "reverse", "rev", "backward", "r"}
+#: One-way values (matched case-insensitively, spaces trimmed; numbers by value): one-way in the
+#: digitised direction ...
+ONEWAY_FORWARD = ("yes", "true", "1", "y", "t", "forward", "fwd")
+#: ... one-way against it ...
+ONEWAY_REVERSE = ("-1", "reverse", "rev", "backward", "r")
+#: ... and both ways (as are null and empty values).
+ONEWAY_BOTH = ("no", "false", "0", "n", "f", "both", "none", "two-way", "twoway", "b")
 
 
-def parse_oneway(values) -> np.ndarray:
-    """Direction code per feature: 1 one-way forward, -1 one-way reverse, 0 both ways.
+def read_oneway(values: Sequence) -> tuple[np.ndarray, np.ndarray]:
+    """Direction code per feature, and which values are not in the documented sets.
 
-    ``yes``/``true``/``1`` mean forward, ``-1``/``reverse`` mean against the
-    digitised direction; anything else (``no``, empty, null) means both ways.
+    Parameters
+    ----------
+    values : sequence
+        The one-way field's values.
 
-    >>> parse_oneway(["yes", "no", None, -1, 1.0, "TRUE", "f", "t"]).tolist()
-    [1, 0, 0, -1, 1, 1, 0, 1]
+    Returns
+    -------
+    code : ndarray of int8
+        1 one-way in the digitised direction (:data:`ONEWAY_FORWARD`), -1
+        against it (:data:`ONEWAY_REVERSE`), 0 both ways (:data:`ONEWAY_BOTH`,
+        null or empty).
+    unknown : ndarray of bool
+        Values in none of the sets (their code is 0); the builder refuses them.
+
+    >>> code, unknown = read_oneway(["yes", "no", None, -1, 1.0, "TRUE", "f", " T ", "", "reversible", 2])
+    >>> code.tolist(), unknown.tolist()
+    ([1, 0, 0, -1, 1, 1, 0, 1, 0, 0, 0], [False, False, False, False, False, False, False, False, False, True, True])
     """
     out = np.zeros(len(values), dtype=np.int8)
+    unknown = np.zeros(len(values), dtype=bool)
     for i, v in enumerate(values):
-        if v is None or (isinstance(v, float) and np.isnan(v)):
+        if v is None or v is pd.NA or (isinstance(v, float) and np.isnan(v)):
             continue
         if isinstance(v, (bool, np.bool_)):
             out[i] = 1 if v else 0
             continue
         if isinstance(v, (int, float, np.integer, np.floating)):
+            if not np.isfinite(v):
+                continue
             s = str(int(v)) if float(v).is_integer() else str(v)
         else:
             s = str(v).strip().lower()
-        if s in _FORWARD:
+        if s in ONEWAY_FORWARD:
             out[i] = 1
-        elif s in _REVERSE:
+        elif s in ONEWAY_REVERSE:
             out[i] = -1
-    return out
+        elif s and s not in ONEWAY_BOTH:
+            unknown[i] = True
+    return out, unknown
 
 
-def feature_speeds(frame: pd.DataFrame, mode: str, speed_field=None, class_field=None,
-                   class_speeds=None, speed_kmh=None):
+def parse_oneway(values: Sequence) -> np.ndarray:
+    """Direction code per feature, reading any value outside the documented sets as both ways.
+
+    The lenient reading (for guessing whether a field is a one-way flag);
+    the builder uses :func:`read_oneway` and refuses unknown values.
+
+    >>> parse_oneway(["yes", "no", None, -1, 1.0, "TRUE", "f", "t"]).tolist()
+    [1, 0, 0, -1, 1, 1, 0, 1]
+    """
+    return read_oneway(values)[0]
+
+
+def feature_speeds(frame: pd.DataFrame, mode: str, speed_field: str | None = None, class_field: str | None = None,
+                   class_speeds: dict | None = None, speed_kmh: float | None = None
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray, str | None]:
     """Speed per feature (km/h) and what was defaulted.
 
     Precedence per feature: a valid value of ``speed_field``; else the
@@ -103,9 +142,11 @@ def feature_speeds(frame: pd.DataFrame, mode: str, speed_field=None, class_field
     -------
     speed : ndarray of float64, shape (len(frame),)
     defaulted : ndarray of bool
-        Features whose preferred rule gave no valid speed (reported per feature).
+        Features whose preferred rule gave no valid speed, so a later rule
+        gave it (the class table, ``speed_kmh`` or the mode default): each
+        is reported per feature.
     reason : ndarray of object
-        Why each defaulted feature was defaulted (``None`` elsewhere).
+        Why each defaulted feature was defaulted and what was used (``None`` elsewhere).
     layer_default : str or None
         Set when the layer had no rule at all and the mode default was used.
     """
@@ -135,6 +176,8 @@ def feature_speeds(frame: pd.DataFrame, mode: str, speed_field=None, class_field
             c = cls[i]
             if c is not None and c in table:
                 speed[i] = table[c]
+                if preferred_missing[i]:      # the speed field failed: say the class gave the speed
+                    reason[i] = f"{reason[i]}; class {c!r} speed {table[c]:g} km/h used"
             else:
                 preferred_missing[i] = True
                 if reason[i] is None:
@@ -144,7 +187,7 @@ def feature_speeds(frame: pd.DataFrame, mode: str, speed_field=None, class_field
     if speed_field is None and class_field is None and speed_kmh is None:
         layer_default = f"{mode}: no speed rule given; {fallback:g} km/h used for every feature"
     speed[todo] = fallback
-    defaulted = preferred_missing & todo if (speed_field or class_field) else np.zeros(n, bool)
-    for i in np.nonzero(defaulted)[0]:
+    for i in np.nonzero(preferred_missing & todo)[0]:
         reason[i] = f"{reason[i]}; {fallback:g} km/h used"
+    defaulted = preferred_missing if (speed_field or class_field) else np.zeros(n, bool)
     return speed, defaulted, reason, layer_default
