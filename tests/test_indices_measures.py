@@ -249,3 +249,11 @@ def test_refusals():
         catchment_bound("2sfca", None)
     assert catchment_bound("gravity", None) == np.inf
     assert catchment_bound("e2sfca", None, zones=[5, 15, 45]) == 45.0
+
+
+def test_no_pairs_gives_float_zeros():
+    z = np.zeros(0, np.int64)
+    for index in (M.cumulative(z, z, S, 3), M.gravity(z, z, np.zeros(0), S, 3, "power", 1.0),
+                  M.two_step(z, z, S, D, 3)[0], M.enhanced_two_step(z, z, np.zeros(0), S, D, 3, [10.0], [1.0])[0],
+                  M.balanced(z, z, S, D, 3)[0]):
+        assert index.dtype == np.float64 and index.tolist() == [0.0, 0.0, 0.0]

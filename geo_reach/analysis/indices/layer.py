@@ -57,16 +57,20 @@ def catchment_bound(measure: str, within, weight: str = "minutes", zones=None) -
     """The search bound T a measure needs: checked, with E2SFCA's default from its zones.
 
     Every measure but gravity is defined by its catchment and needs T; gravity
-    runs unbounded unless T is given.  For E2SFCA without T, T is the last
-    zone limit; with neither, the command refuses.
+    runs unbounded unless T is given (``inf`` also means no bound).  For
+    E2SFCA without T, T is the last zone limit; with neither, the command
+    refuses.
     """
     if measure not in M.MEASURES:
         raise OptionError(f"--measure '{measure}' is not a measure; choose one of {', '.join(M.MEASURES)}")
     unit = UNIT.get(weight, weight)
     if within is not None:
         t = float(within)
-        if not np.isfinite(t) or t <= 0:
+        if np.isnan(t) or t <= 0:
             raise OptionError(f"--within-minutes {within}: give a positive bound ({unit})")
+        if np.isinf(t) and measure == "e2sfca" and zones is None:
+            raise OptionError("--measure e2sfca needs a finite --within-minutes (its zones are thirds of it) "
+                              "or --zone-minutes")
         return t
     if measure == "gravity":
         return np.inf

@@ -60,6 +60,11 @@ E2SFCA_ZONE_FRACTIONS = (1.0 / 3.0, 2.0 / 3.0, 1.0)
 E2SFCA_WEIGHTS = (1.0, 0.68, 0.22)
 
 
+def _sum_by(idx, weights=None, minlength=0):
+    """``numpy.bincount`` that stays float when there is nothing to sum (bincount gives int then)."""
+    return np.bincount(idx, weights=weights, minlength=minlength).astype(np.float64)
+
+
 def check_decay(decay: str, param) -> tuple[str, float]:
     """Validate a decay form and its parameter B (positive, finite)."""
     if decay not in DECAYS:
@@ -124,7 +129,7 @@ def cumulative(i, j, supply, n_settlements: int) -> np.ndarray:
        social indicator. Socio-Economic Planning Sciences 7(5), 437-456.
     """
     supply = np.asarray(supply, dtype=np.float64)
-    return np.bincount(np.asarray(i, np.int64), weights=supply[np.asarray(j, np.int64)], minlength=n_settlements)
+    return _sum_by(np.asarray(i, np.int64), weights=supply[np.asarray(j, np.int64)], minlength=n_settlements)
 
 
 def gravity(i, j, c, supply, n_settlements: int, decay: str, param: float) -> np.ndarray:
@@ -141,7 +146,7 @@ def gravity(i, j, c, supply, n_settlements: int, decay: str, param: float) -> np
     """
     supply = np.asarray(supply, dtype=np.float64)
     j = np.asarray(j, np.int64)
-    return np.bincount(np.asarray(i, np.int64), weights=supply[j] * decay_weight(c, decay, param),
+    return _sum_by(np.asarray(i, np.int64), weights=supply[j] * decay_weight(c, decay, param),
                        minlength=n_settlements)
 
 
@@ -188,8 +193,8 @@ def two_step(i, j, supply, demand, n_settlements: int):
     j = np.asarray(j, np.int64)
     demand = np.asarray(demand, dtype=np.float64)
     supply = np.asarray(supply, dtype=np.float64)
-    ratio = _ratio(supply, np.bincount(j, weights=demand[i], minlength=len(supply)))
-    return np.bincount(i, weights=ratio[j], minlength=n_settlements), ratio
+    ratio = _ratio(supply, _sum_by(j, weights=demand[i], minlength=len(supply)))
+    return _sum_by(i, weights=ratio[j], minlength=n_settlements), ratio
 
 
 def check_zones(zones, weights, within: float):
@@ -239,8 +244,8 @@ def enhanced_two_step(i, j, c, supply, demand, n_settlements: int, zones, weight
     demand = np.asarray(demand, dtype=np.float64)
     supply = np.asarray(supply, dtype=np.float64)
     w = zone_weight(c, zones, weights)
-    ratio = _ratio(supply, np.bincount(j, weights=demand[i] * w, minlength=len(supply)))
-    return np.bincount(i, weights=ratio[j] * w, minlength=n_settlements), ratio
+    ratio = _ratio(supply, _sum_by(j, weights=demand[i] * w, minlength=len(supply)))
+    return _sum_by(i, weights=ratio[j] * w, minlength=n_settlements), ratio
 
 
 def balanced(i, j, supply, demand, n_settlements: int):
@@ -283,7 +288,7 @@ def balanced(i, j, supply, demand, n_settlements: int):
     j = np.asarray(j, np.int64)
     demand = np.asarray(demand, dtype=np.float64)
     supply = np.asarray(supply, dtype=np.float64)
-    reach = np.bincount(i, minlength=n_settlements)
+    reach = _sum_by(i, minlength=n_settlements)
     g = 1.0 / reach[i] if len(i) else np.zeros(0)
-    ratio = _ratio(supply, np.bincount(j, weights=demand[i] * g, minlength=len(supply)))
-    return np.bincount(i, weights=g * ratio[j], minlength=n_settlements), ratio
+    ratio = _ratio(supply, _sum_by(j, weights=demand[i] * g, minlength=len(supply)))
+    return _sum_by(i, weights=g * ratio[j], minlength=n_settlements), ratio
