@@ -30,7 +30,7 @@ from helpers.routing_nets import make_network, random_network  # noqa: E402
 
 from geo_reach.analysis.attach import attach_points  # noqa: E402
 from geo_reach.analysis.routing import od_matrix  # noqa: E402
-from geo_reach.analysis.siting import build_problem, choose_sites, solve  # noqa: E402
+from geo_reach.analysis.siting import build_problem, choose_sites, solve, solve_milp  # noqa: E402
 from geo_reach.errors import OptionError  # noqa: E402
 
 SETTINGS = settings(max_examples=40, deadline=None)
@@ -105,6 +105,9 @@ def test_exact_equals_brute_force_and_heuristic_respects_the_bound(seed, objecti
     # the chosen set scores its objective in the brute-force evaluation too
     score = (coverage_people if objective == "coverage" else median_minutes)(D, e, C, ex.sites, T)
     assert score == pytest.approx(best, rel=TOL, abs=TOL)
+    # the integer programme itself (solve may stop at an integral LP solution without running it)
+    mi = solve_milp(pr, p)
+    assert mi.proven and pr.reported(pr.value(mi.sites)) == pytest.approx(best, rel=TOL, abs=TOL)
     he = solve(pr, p, method="heuristic")
     assert he.method == "heuristic" and he.bound is not None
     if objective == "coverage":      # maximise: the LP bound is an upper bound
@@ -132,6 +135,8 @@ def test_exact_and_heuristic_on_random_cost_tables(seed):
     pr, _ = problem_of(objective, D, e, C, T)
     best = brute_force(objective, D, e, C, T, p)
     assert solve(pr, p, method="exact").objective == pytest.approx(best, rel=TOL, abs=TOL)
+    mi = solve_milp(pr, p)
+    assert mi.proven and pr.reported(pr.value(mi.sites)) == pytest.approx(best, rel=TOL, abs=TOL)
     assert solve(pr, p, method="heuristic").objective == pytest.approx(best, rel=TOL, abs=TOL)
 
 

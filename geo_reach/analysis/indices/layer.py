@@ -114,7 +114,16 @@ def access_index(trips: TripCosts, measure: str, supply=None, demand=None, *, de
 
     References
     ----------
-    See :mod:`geo_reach.analysis.indices.measures`.
+    .. [1] Wachs, M. and Kumagai, T. G. (1973). Physical accessibility as a
+       social indicator. Socio-Economic Planning Sciences 7(5), 437-456.
+    .. [2] Hansen, W. G. (1959). How accessibility shapes land use. Journal
+       of the American Institute of Planners 25(2), 73-76.
+    .. [3] Kwan, M.-P. (1998). Geographical Analysis 30(3), 191-216.
+    .. [4] Luo, W. and Wang, F. (2003). Environment and Planning B 30(6),
+       865-884.
+    .. [5] Luo, W. and Qi, Y. (2009). Health & Place 15(4), 1100-1107.
+    .. [6] Paez, A., Higgins, C. D. and Vivona, S. F. (2019). PLOS ONE 14(6),
+       e0218773.
     """
     if measure not in M.MEASURES:
         raise OptionError(f"--measure '{measure}' is not a measure; choose one of {', '.join(M.MEASURES)}")
@@ -206,6 +215,19 @@ def index_layer(network, settlements, hubs, measure: str, *, within=None, weight
     -----
     The costs are :func:`~geo_reach.analysis.indices.trips.trip_costs`
     (settlement to hub, bounded by T), run once per hub kind.
+
+    References
+    ----------
+    .. [1] Wachs, M. and Kumagai, T. G. (1973). Physical accessibility as a
+       social indicator. Socio-Economic Planning Sciences 7(5), 437-456.
+    .. [2] Hansen, W. G. (1959). How accessibility shapes land use. Journal
+       of the American Institute of Planners 25(2), 73-76.
+    .. [3] Kwan, M.-P. (1998). Geographical Analysis 30(3), 191-216.
+    .. [4] Luo, W. and Wang, F. (2003). Environment and Planning B 30(6),
+       865-884.
+    .. [5] Luo, W. and Qi, Y. (2009). Health & Place 15(4), 1100-1107.
+    .. [6] Paez, A., Higgins, C. D. and Vivona, S. F. (2019). PLOS ONE 14(6),
+       e0218773.
     """
     import geopandas as gpd
     import pandas as pd

@@ -44,6 +44,8 @@ class MilpOutcome:
     ----------
     sites : ndarray of int64 or None
         The open candidates of the best solution found (None: none found).
+        For a relaxation, the open candidates when its x is integral (then
+        they are an optimal integer solution), else None.
     proven : bool
         Proven optimal (relative gap 0).
     f : float
@@ -116,7 +118,8 @@ def solve_milp(problem: SitingProblem, p: int, *, time_limit: float = 300.0, rel
     time_limit : float, default 300
         Seconds; past it HiGHS returns its best solution and bound so far.
     relax : bool, default False
-        Solve the LP relaxation (x in [0, 1]): its optimum is a lower bound on F.
+        Solve the LP relaxation (x in [0, 1]): its optimum is a lower bound on F,
+        and when its x is integral it is an optimal solution (``sites``).
 
     Returns
     -------
@@ -145,8 +148,10 @@ def solve_milp(problem: SitingProblem, p: int, *, time_limit: float = 300.0, rel
     f = np.nan
     if res.x is not None:
         f = float(res.fun) + const
-        if not relax:
-            sites = np.sort(np.nonzero(res.x[:K] > 0.5)[0]).astype(np.int64)
+        x = res.x[:K]
+        integral = bool(np.all(np.minimum(np.abs(x), np.abs(1.0 - x)) <= 1e-9))
+        if not relax or integral:
+            sites = np.sort(np.nonzero(x > 0.5)[0]).astype(np.int64)
     if relax:
         bound = f if res.status == 0 else -np.inf
     else:

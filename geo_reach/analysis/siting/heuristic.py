@@ -49,6 +49,13 @@ def greedy(problem: SitingProblem, p: int, start=()) -> np.ndarray:
     """Open ``p`` candidates one at a time, each the one that lowers F most (ties: the lowest index).
 
     Returns the candidates in pick order (after ``start``, which are kept open).
+    O(P x pairs).
+
+    References
+    ----------
+    .. [1] Church, R. and ReVelle, C. (1974). The maximal covering location
+       problem. Papers of the Regional Science Association 32, 101-118
+       (greedy adding, as a starting solution).
     """
     pr = problem
     chosen = [int(s) for s in start]
@@ -96,7 +103,13 @@ def _best_two(pr: SitingProblem, sites: np.ndarray):
 def swap_deltas(problem: SitingProblem, sites) -> np.ndarray:
     """Change of F for every swap (open site j out, candidate k in): an array of shape (P, n_candidates).
 
-    Columns of open sites are ``inf`` (not a swap).
+    Columns of open sites are ``inf`` (not a swap).  O(pairs + P x candidates).
+
+    References
+    ----------
+    .. [1] Whitaker, R. A. (1983). A fast algorithm for the greedy
+       interchange for large-scale clustering and median location problems.
+       INFOR 21(2), 95-108.
     """
     pr = problem
     sites = np.asarray(sites, dtype=np.int64)
@@ -122,6 +135,11 @@ def vertex_substitution(problem: SitingProblem, sites, *, max_rounds: int = 10_0
 
     Returns the improved sites (same count, order of opening kept: a swapped-in
     candidate takes the place of the one it replaces).
+    References
+    ----------
+    .. [1] Teitz, M. B. and Bart, P. (1968). Heuristic methods for estimating
+       the generalized vertex median of a weighted graph. Operations Research
+       16(5), 955-961.
     """
     pr = problem
     sites = np.array(sites, dtype=np.int64)
@@ -164,6 +182,11 @@ def multi_start(problem: SitingProblem, p: int, *, restarts: int = 8, seed: int 
         In greedy pick order for the greedy start; as drawn for a random one.
     starts : int
         Starts run (1 + random starts completed).
+    References
+    ----------
+    .. [1] Teitz, M. B. and Bart, P. (1968). Heuristic methods for estimating
+       the generalized vertex median of a weighted graph. Operations Research
+       16(5), 955-961.
     """
     import time
 

@@ -168,15 +168,24 @@ def solve(problem: SitingProblem, p: int, *, method: str = "auto", time_limit: f
     exact = method == "exact" or (method == "auto" and size <= exact_max_size)
     sites, f, f_bound, optimal, used, starts = None, np.inf, -np.inf, False, [], 0
     if exact:
-        out = solve_milp(problem, p, time_limit=time_limit)
         used.append("exact")
-        if out.sites is not None and len(out.sites) == p:
-            sites, f = out.sites, problem.value(out.sites)
-        f_bound = out.f_bound
-        optimal = out.proven
+        # the LP relaxation first: it is the bound, and when its solution is integral it is optimal
+        lp = solve_milp(problem, p, time_limit=time_limit, relax=True)
+        f_bound = lp.f_bound
+        if lp.sites is not None and len(lp.sites) == p and np.isfinite(lp.f_bound):
+            fl = problem.value(lp.sites)
+            if fl <= lp.f_bound + 1e-7 * max(1.0, abs(fl)):
+                sites, f, optimal = lp.sites, fl, True
+                notes.append("the LP relaxation's solution is integral, hence optimal")
         if not optimal:
-            notes.append(f"the integer programme stopped before proving optimality ({out.message.strip()}); "
-                         "greedy plus vertex substitution ran too")
+            out = solve_milp(problem, p, time_limit=max(time_limit - (time.perf_counter() - t0), 0.0))
+            if out.sites is not None and len(out.sites) == p:
+                sites, f = out.sites, problem.value(out.sites)
+            f_bound = max(f_bound, out.f_bound)
+            optimal = out.proven
+            if not optimal:
+                notes.append(f"the integer programme stopped before proving optimality ({out.message.strip()}); "
+                             "greedy plus vertex substitution ran too")
     else:
         notes.append(f"the integer programme ({size:,} nonzeros) is past the exact limit ({exact_max_size:,}): "
                      "greedy plus vertex substitution, with the LP-relaxation bound")
@@ -230,6 +239,12 @@ def site_gains(problem: SitingProblem, sites, demand, existing_cost, i, k, c, wi
         The sites in pick order.
     people_newly_within, person_minutes_saved : ndarray of float64
         Per site in that order (see :class:`SitingResult`).
+
+    References
+    ----------
+    .. [1] Church, R. and ReVelle, C. (1974). The maximal covering location
+       problem. Papers of the Regional Science Association 32, 101-118.
+    .. [2] Hakimi, S. L. (1964). Operations Research 12(3), 450-459.
     """
     sites = [int(s) for s in sites]
     d = np.asarray(demand, dtype=np.float64)
@@ -304,6 +319,18 @@ def choose_sites(network, settlement_xy, demand, hub_xy, candidate_xy, p: int, o
     Costs: :func:`~geo_reach.analysis.indices.trips.trip_costs` twice, once
     to the existing hubs (nearest only, unbounded) and once to the candidates
     (every pair within T).
+
+    References
+    ----------
+    .. [1] Church, R. and ReVelle, C. (1974). The maximal covering location
+       problem. Papers of the Regional Science Association 32, 101-118.
+    .. [2] Hakimi, S. L. (1964). Optimum locations of switching centers and
+       the absolute centers and medians of a graph. Operations Research
+       12(3), 450-459.
+    .. [3] ReVelle, C. S. and Swain, R. W. (1970). Central facilities
+       location. Geographical Analysis 2(1), 30-42.
+    .. [4] Teitz, M. B. and Bart, P. (1968). Operations Research 16(5),
+       955-961.
     """
     from ..indices.trips import trip_costs
 
