@@ -223,23 +223,3 @@ def test_chunked_attachment_equals_od_matrix(seed, direction, monkeypatch):
         within = between_costs(ref, 0.7)
         check_against(ref, trip_costs(net, s_xy, h_xy, within=within, direction=direction), within)
 
-
-@SETTINGS
-@given(seed=st.integers(0, 2**32 - 1), n=st.integers(1, 60), limit=st.sampled_from([0.0, 3.0, 10.0, np.inf]))
-def test_bounded_search_equals_scipy(seed, n, limit):
-    """The numba search against scipy's Dijkstra on random graphs with zero costs, parallel arcs and
-    self-loops: the same pairs and the same floats."""
-    rng = np.random.default_rng(seed)
-    m = int(rng.integers(0, 5 * n))
-    tail, head = rng.integers(0, n, m), rng.integers(0, n, m)
-    cost = np.round(rng.uniform(0, 5, m), int(rng.integers(0, 4)))
-    cost[rng.random(m) < 0.1] = 0.0
-    empty = sp.csr_array((n, n))
-    g = trips._csr(n, empty, tail, head, cost)
-    sources = rng.choice(n, int(rng.integers(1, n + 1)), replace=False)
-    targets = rng.choice(n, int(rng.integers(1, n + 1)), replace=False)
-    got = trips._bounded(g, sources, targets, limit)
-    want = trips._bounded_scipy(g, sources, targets, limit)
-    key = lambda r: np.lexsort((r[1], r[0]))  # noqa: E731
-    for a, b in zip((x[key(got)] for x in got), (x[key(want)] for x in want)):
-        np.testing.assert_array_equal(a, b)

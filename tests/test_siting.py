@@ -239,3 +239,14 @@ def test_refusals():
     net = make_network([(0, 1)], np.array([[0.0, 0.0], [1000.0, 0.0]]))
     with pytest.raises(OptionError, match="positive bound"):
         choose_sites(net, [[0, 0]], [1], np.zeros((0, 2)), [[10, 0]], 1, "coverage", within=0.0)
+    import geo_reach.analysis.siting.solver as S
+
+    keep = S.MAX_UNBOUNDED_PAIRS
+    try:
+        S.MAX_UNBOUNDED_PAIRS = 3
+        with pytest.raises(OptionError, match="give --within-minutes"):
+            choose_sites(net, [[0, 0], [5, 0]], [1, 1], np.zeros((0, 2)), [[10, 0], [20, 0]], 1, "total-minutes")
+        assert choose_sites(net, [[0, 0], [5, 0]], [1, 1], np.zeros((0, 2)), [[10, 0], [20, 0]], 1, "total-minutes",
+                            within=5.0).optimal
+    finally:
+        S.MAX_UNBOUNDED_PAIRS = keep

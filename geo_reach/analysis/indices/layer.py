@@ -266,9 +266,17 @@ def index_layer(network, settlements, hubs, measure: str, *, within=None, weight
         if len(left):
             notes.append(f"{len(left)} {word} hubs farther than {max_access_m:g} m from the network are left out "
                          f"(first: id {hubs.ids[members][left[0]]})")
-        for why in pd.unique(res.reason[res.reason != None]):  # noqa: E711  (object array)
-            k = int(np.sum(res.reason == why))
-            notes.append(f"{k} settlements: {why} (index 0)")
+        far = ~tc.settlement_attached
+        if far.any():
+            notes.append(f"{int(far.sum())} settlements farther than {max_access_m:g} m from the network reach no "
+                         f"{word} (index 0; first: id {settlements.ids[far][0]})")
+        nopath = tc.settlement_attached & ~np.isfinite(tc.nearest_cost)
+        if nopath.any():
+            notes.append(f"{int(nopath.sum())} settlements have no path to any {word} (index 0; first: id "
+                         f"{settlements.ids[nopath][0]})")
+        beyond = tc.settlement_attached & np.isfinite(tc.nearest_cost) & (res.hubs_within == 0)
+        if beyond.any() and np.isfinite(t):
+            notes.append(f"{int(beyond.sum())} settlements have no {word} within {t:g} {UNIT[weight]} (index 0)")
     frame = pd.concat(frames, ignore_index=True)
     if all(isinstance(v, (int, np.integer)) for v in settlements.ids):
         frame["settlement_id"] = frame["settlement_id"].astype(np.int64)

@@ -13,11 +13,10 @@ exactly as ``geo-reach od`` and ``geo-reach route`` do (one trip, one number):
 * the network part is a least-cost path on :meth:`Network.csr`.
 
 Only pairs whose cost is at most ``within`` are kept (sparse), found by one
-Dijkstra search per point of the smaller side, cut off at ``within`` (a numba
-binary-heap search that touches only what it reaches, tested against
-:func:`scipy.sparse.csgraph.dijkstra` with ``limit``): never a full matrix.
+Dijkstra search per point of the smaller side, cut off at ``within``
+(``limit`` in :func:`scipy.sparse.csgraph.dijkstra`): never a full matrix.
 The least cost to the nearest hub, unbounded, comes from one more
-multi-source search (scipy).
+multi-source search.
 
 How it works: the network's arcs plus one virtual node per point.  A trip's
 start point has arcs *out* onto the network (its "leave" arcs), its end point
@@ -54,7 +53,7 @@ __all__ = ["TripCosts", "trip_costs", "DIRECTIONS"]
 #: Trip directions: ``to-hub`` (settlement to hub, the default) or ``from-hub``.
 DIRECTIONS = ("to-hub", "from-hub")
 
-#: Distances held at once by one batch of the reference searches (floats); 8 million = 64 MB.
+#: Distances held at once by one batch of searches (floats); 8 million = 64 MB.
 _BATCH_FLOATS = 8_000_000
 
 
@@ -350,11 +349,8 @@ def _graph(network, weight, start: _Side, end: _Side, direct, reverse: bool) -> 
     return _csr(n + start.n + end.n, network.csr(weight, reverse=reverse).matrix, tail, head, cost)
 
 
-def _bounded_scipy(g: sp.csr_array, sources: np.ndarray, targets: np.ndarray, within: float):
-    """Pairs (source k, target t, cost) with cost <= within, by batches of scipy's bounded Dijkstra.
-
-    The slow, obvious reference for :func:`_bounded` (dense rows of distances, then the target columns).
-    """
+def _bounded(g: sp.csr_array, sources: np.ndarray, targets: np.ndarray, within: float):
+    """Pairs (source k, target t, cost) with cost <= within, by batches of scipy's bounded Dijkstra."""
     nt = g.shape[0]
     batch = int(max(1, min(len(sources), _BATCH_FLOATS // max(nt, 1))))
     out_s, out_t, out_c = [], [], []
@@ -371,122 +367,6 @@ def _bounded_scipy(g: sp.csr_array, sources: np.ndarray, targets: np.ndarray, wi
         return z, z, np.zeros(0)
     return (np.concatenate(out_s).astype(np.int64), np.concatenate(out_t).astype(np.int64),
             np.concatenate(out_c).astype(np.float64))
-
-
-@numba.njit(cache=True, nogil=True)
-def _search_pairs(indptr, indices, data, sources, target_of, limit):
-    """One Dijkstra per source, stopped at ``limit``; yields (source k, target, cost) for settled targets.
-
-    A binary heap with lazy deletion; the distance array is reset only where
-    touched, so a search costs what it reaches, not the whole graph.  Costs are
-    the same floats as scipy's: each node's distance is the least
-    ``dist[u] + w`` over its settled predecessors, whatever the order.
-    """
-    n = len(indptr) - 1
-    dist = np.full(n, np.inf)
-    done = np.zeros(n, np.bool_)
-    touched = np.empty(n, np.int64)
-    cap = 1024
-    hk = np.empty(cap)
-    hv = np.empty(cap, np.int64)
-    ocap = 1024
-    o_s = np.empty(ocap, np.int64)
-    o_t = np.empty(ocap, np.int64)
-    o_c = np.empty(ocap)
-    m = 0
-    for si in range(len(sources)):
-        src = sources[si]
-        nt = 0
-        size = 0
-        dist[src] = 0.0
-        touched[nt] = src
-        nt += 1
-        hk[0] = 0.0
-        hv[0] = src
-        size = 1
-        while size > 0:
-            d = hk[0]
-            u = hv[0]
-            size -= 1
-            if size > 0:            # move the last item to the root and sift it down
-                kk = hk[size]
-                vv = hv[size]
-                i = 0
-                while True:
-                    c = 2 * i + 1
-                    if c >= size:
-                        break
-                    if c + 1 < size and hk[c + 1] < hk[c]:
-                        c += 1
-                    if hk[c] < kk:
-                        hk[i] = hk[c]
-                        hv[i] = hv[c]
-                        i = c
-                    else:
-                        break
-                hk[i] = kk
-                hv[i] = vv
-            if done[u] or d > dist[u]:
-                continue
-            done[u] = True
-            t = target_of[u]
-            if t >= 0:
-                if m == ocap:
-                    ocap *= 2
-                    o_s2 = np.empty(ocap, np.int64)
-                    o_t2 = np.empty(ocap, np.int64)
-                    o_c2 = np.empty(ocap)
-                    o_s2[:m] = o_s[:m]
-                    o_t2[:m] = o_t[:m]
-                    o_c2[:m] = o_c[:m]
-                    o_s, o_t, o_c = o_s2, o_t2, o_c2
-                o_s[m] = si
-                o_t[m] = t
-                o_c[m] = d
-                m += 1
-            for e in range(indptr[u], indptr[u + 1]):
-                v = indices[e]
-                nd = d + data[e]
-                if nd <= limit and nd < dist[v]:
-                    if dist[v] == np.inf:
-                        touched[nt] = v
-                        nt += 1
-                    dist[v] = nd
-                    if size == cap:
-                        cap *= 2
-                        hk2 = np.empty(cap)
-                        hv2 = np.empty(cap, np.int64)
-                        hk2[:size] = hk[:size]
-                        hv2[:size] = hv[:size]
-                        hk, hv = hk2, hv2
-                    i = size           # sift up
-                    size += 1
-                    while i > 0:
-                        p = (i - 1) // 2
-                        if hk[p] > nd:
-                            hk[i] = hk[p]
-                            hv[i] = hv[p]
-                            i = p
-                        else:
-                            break
-                    hk[i] = nd
-                    hv[i] = v
-        for k in range(nt):
-            dist[touched[k]] = np.inf
-            done[touched[k]] = False
-    return o_s[:m].copy(), o_t[:m].copy(), o_c[:m].copy()
-
-
-def _bounded(g: sp.csr_array, sources: np.ndarray, targets: np.ndarray, within: float):
-    """Pairs (source k, target t, cost) with cost <= within: one bounded search per source (numba).
-
-    Tested against :func:`_bounded_scipy` (scipy's Dijkstra) in ``tests/test_indices_trips.py``.
-    """
-    n = g.shape[0]
-    target_of = np.full(n, -1, np.int64)
-    target_of[np.asarray(targets, np.int64)] = np.arange(len(targets), dtype=np.int64)
-    return _search_pairs(g.indptr.astype(np.int64), g.indices.astype(np.int64), g.data.astype(np.float64),
-                         np.asarray(sources, np.int64), target_of, float(within))
 
 
 def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: float = np.inf,
@@ -533,8 +413,9 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
     Cost: one search per point of the smaller side, each stopped at
     ``within`` (O(m' + n' log n') for the n' nodes and m' arcs within reach),
     plus one full multi-source search for the nearest hub.  Memory: the
-    pairs, the graph with the pruned access arcs, a few arrays of its size,
-    and the access legs of at most ``_CHUNK`` points at a time.  Costs equal
+    pairs, the graph with the pruned access arcs, one batch of distance rows
+    (at most 64 MB) and the access legs of at most ``_CHUNK`` points at a
+    time.  Costs equal
     :func:`~geo_reach.analysis.routing.od_matrix` on the same attachments.
 
     References

@@ -12,7 +12,7 @@ exact
 heuristic
     Greedy addition and vertex substitution (Teitz and Bart 1968), from
     several starts.
-solve
+solver
     :func:`solve` (method choice, bound, gap), :func:`site_gains` (pick order,
     what each site adds) and :func:`choose_sites` (from points, costs by
     :func:`geo_reach.analysis.indices.trips.trip_costs`).
@@ -24,7 +24,7 @@ practice decide.
 from .exact import MilpOutcome, model_size, solve_milp
 from .heuristic import greedy, multi_start, vertex_substitution
 from .problem import OBJECTIVES, SitingProblem, build_problem
-from .solve import METHODS, SitingResult, choose_sites, site_gains, solve
+from .solver import METHODS, SitingResult, choose_sites, site_gains, solve
 
 __all__ = ["OBJECTIVES", "METHODS", "SitingProblem", "build_problem", "SitingResult", "solve", "site_gains",
            "choose_sites", "solve_milp", "MilpOutcome", "model_size", "greedy", "vertex_substitution",

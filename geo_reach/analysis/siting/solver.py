@@ -34,7 +34,8 @@ from .exact import model_size, solve_milp
 from .heuristic import multi_start
 from .problem import OBJECTIVES, SitingProblem, build_problem
 
-__all__ = ["SitingResult", "solve", "site_gains", "choose_sites", "METHODS", "EXACT_MAX_SIZE", "LP_MAX_SIZE"]
+__all__ = ["SitingResult", "solve", "site_gains", "choose_sites", "METHODS", "EXACT_MAX_SIZE", "LP_MAX_SIZE",
+           "MAX_UNBOUNDED_PAIRS"]
 
 #: Ways to solve: ``auto`` (exact up to :data:`EXACT_MAX_SIZE`, else heuristic), ``exact``, ``heuristic``.
 METHODS = ("auto", "exact", "heuristic")
@@ -43,6 +44,8 @@ METHODS = ("auto", "exact", "heuristic")
 EXACT_MAX_SIZE = 3_000_000
 #: Largest LP relaxation attempted for the bound of a heuristic solution (constraint nonzeros).
 LP_MAX_SIZE = 30_000_000
+#: Largest candidates x settlements table kept without a bound T (total-minutes); past it T is required.
+MAX_UNBOUNDED_PAIRS = 20_000_000
 
 
 @dataclass
@@ -346,6 +349,10 @@ def choose_sites(network, settlement_xy, demand, hub_xy, candidate_xy, p: int, o
     h_xy = np.asarray(hub_xy, dtype=np.float64).reshape(-1, 2)
     if not 1 <= p <= len(c_xy):
         raise OptionError(f"--count {p}: give 1 to {len(c_xy)} (the number of candidates)")
+    if not np.isfinite(t) and len(c_xy) * len(s_xy) > MAX_UNBOUNDED_PAIRS:
+        raise OptionError(f"{len(c_xy):,} candidates x {len(s_xy):,} settlements without a bound would keep up to "
+                          f"{len(c_xy) * len(s_xy):,} trip costs; give --within-minutes T (a site then counts for "
+                          "a settlement only within T)")
     kw = dict(weight=weight, max_access_m=max_access_m, walk_kmh=walk_kmh)
     notes = []
     if len(h_xy):
