@@ -65,13 +65,14 @@ def main():
     load0 = os.getloadavg()[0]
     lines = []
     for t in a.within:
-        times = {"index": [], "attach": [], "bare": []}
+        times = {"index": [], "cpu": [], "attach": [], "bare": []}
         out = None
         for _ in range(a.runs):
-            t0 = time.perf_counter()
+            t0, c0 = time.perf_counter(), time.process_time()
             tc = trip_costs(net, s_xy, h_xy, within=t)
             index, ratio = two_step(tc.settlement, tc.hub, cap, pop, tc.n_settlements)
             times["index"].append(time.perf_counter() - t0)
+            times["cpu"].append(time.process_time() - c0)
             out = (tc, index)
             t0 = time.perf_counter()
             attach_points(net, s_xy, "minutes")
@@ -86,13 +87,14 @@ def main():
         has = np.bincount(tc.hub, weights=pop[tc.settlement], minlength=a.hubs) > 0
         cons = abs(float(pop @ index) - float(cap[has].sum())) / float(cap[has].sum())
         lines.append(
-            f"| T = {t:g} min | **{med['index']:.1f} s** | {med['attach']:.1f} s | {med['bare']:.1f} s | "
+            f"| T = {t:g} min | **{med['index']:.1f} s** (CPU {med['cpu']:.1f} s) | {med['attach']:.1f} s | {med['bare']:.1f} s | "
             f"{med['index'] / med['bare']:.1f}x | {tc.n_pairs:,} | "
             f"{', '.join(f'{x:.1f}' for x in times['index'])} s |")
         lines.append(f"|  | (2SFCA conservation check: relative error {cons:.1e}; "
                      f"{int((index > 0).sum()):,} settlements with a hub within T) | | | | | |")
     print(f"## Accessibility indices\n\n{time.strftime('%Y-%m-%d')}, {platform.machine()}, {os.cpu_count()} cores, "
-          f"Python {platform.python_version()}, load average at start {load0:.1f}; {a.runs} runs each, medians.\n"
+          f"Python {platform.python_version()}, load average at start {load0:.1f}, at end {os.getloadavg()[0]:.1f}; "
+          f"{a.runs} runs each, medians (wall clock; CPU time of the process beside it).\n"
           f"Network: `road_like({a.side})`, {net.n_nodes:,} nodes, {net.n_edges:,} edges; {a.settlements:,} settlements "
           f"and {a.hubs:,} hubs, random points off the network.\n")
     print("| case | 2SFCA from points (`trip_costs` + `two_step`) | of which `attach_points` (same points, timed "

@@ -223,3 +223,23 @@ def test_chunked_attachment_equals_od_matrix(seed, direction, monkeypatch):
         within = between_costs(ref, 0.7)
         check_against(ref, trip_costs(net, s_xy, h_xy, within=within, direction=direction), within)
 
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_nearest_among_a_subset_of_hubs(seed):
+    """The nearest hub sought among some hubs only (the siting model's existing hubs): the row minimum of
+    od_matrix over those columns, whatever the pairs to the other hubs."""
+    rng = np.random.default_rng(seed)
+    net = random_network(rng, 25, 70, nan_prob=0.05)
+    s_xy = rng.uniform(0, 5000, (9, 2))
+    h_xy = rng.uniform(0, 5000, (7, 2))
+    among = rng.choice(7, int(rng.integers(0, 4)), replace=False)
+    ref = od_reference(net, s_xy, h_xy, "minutes")
+    within = between_costs(ref, 0.5)
+    got = trip_costs(net, s_xy, h_xy, within=within, nearest_among=among)
+    want = ref[:, among].min(axis=1) if len(among) else np.full(9, np.inf)
+    np.testing.assert_allclose(got.nearest_cost, want, rtol=1e-9)
+    has = np.isfinite(want)
+    assert np.isin(got.nearest_hub[has], among).all() and (got.nearest_hub[~has] == -1).all()
+    np.testing.assert_allclose(ref[np.nonzero(has)[0], got.nearest_hub[has]], want[has], rtol=1e-9)
+    np.testing.assert_allclose(got.dense(), np.where(ref <= within, ref, np.inf), rtol=1e-9)

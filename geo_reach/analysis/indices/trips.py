@@ -371,7 +371,8 @@ def _bounded(g: sp.csr_array, sources: np.ndarray, targets: np.ndarray, within: 
 
 def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: float = np.inf,
                weight: str = "minutes", direction: str = "to-hub", max_access_m: float = 5000.0,
-               walk_kmh: float = 5.0, pairs: bool = True, nearest: bool = True) -> TripCosts:
+               walk_kmh: float = 5.0, pairs: bool = True, nearest: bool = True,
+               nearest_among=None) -> TripCosts:
     """Least trip costs between settlements and hubs, every pair within ``within``, plus the nearest hub.
 
     Parameters
@@ -397,6 +398,10 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
         Compute the pairs (False: only the nearest hub).
     nearest : bool, default True
         Compute each settlement's nearest hub, unbounded (False: NaN).
+    nearest_among : array_like of int, optional
+        The nearest hub is sought among these hubs only (indices; default
+        all).  Lets one call serve existing hubs (nearest) and candidate
+        sites (pairs) while the settlements are attached once.
 
     Returns
     -------
@@ -480,24 +485,28 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
     near_h = np.full(ns, -1, np.int64)
     if nearest:
         near_c[:] = np.inf
-        if hubs.n and ns:
-            # all hubs at once: backward from the ends (to-hub) or forward from the starts (from-hub)
-            h_rows, s_cols = (e_rows, s_rows) if to_hub else (s_rows, e_rows)
-            dist, _, src = dijkstra(graph(to_hub), directed=True, indices=h_rows, min_only=True,
+        among = (np.arange(hubs.n, dtype=np.int64) if nearest_among is None
+                 else np.unique(np.asarray(nearest_among, dtype=np.int64)))
+        if len(among) and ns:
+            # those hubs at once: backward from the ends (to-hub) or forward from the starts (from-hub)
+            h_base, s_cols = (n + start.n, s_rows) if to_hub else (n, e_rows)
+            dist, _, src = dijkstra(graph(to_hub), directed=True, indices=h_base + among, min_only=True,
                                     return_predecessors=True)
             near_c = dist[s_cols].astype(np.float64)
             src = src[s_cols]
-            near_h = np.where((src >= 0) & np.isfinite(near_c), src - h_rows[0], -1).astype(np.int64)
-        if len(cost):
+            near_h = np.where((src >= 0) & np.isfinite(near_c), src - h_base, -1).astype(np.int64)
+        use = np.isin(hi, among) if nearest_among is not None else np.ones(len(cost), bool)
+        if use.any():
             # the pairs' own least cost wins, so the nearest hub and the pairs agree to the last bit
-            first = np.nonzero(np.r_[True, si[1:] != si[:-1]])[0]
-            best = np.minimum.reduceat(cost, first)
-            seg = np.repeat(np.arange(len(first)), np.diff(np.r_[first, len(cost)]))
-            is_best = cost == best[seg]
+            ui, uh, uc = si[use], hi[use], cost[use]
+            first = np.nonzero(np.r_[True, ui[1:] != ui[:-1]])[0]
+            best = np.minimum.reduceat(uc, first)
+            seg = np.repeat(np.arange(len(first)), np.diff(np.r_[first, len(uc)]))
+            is_best = uc == best[seg]
             pick = np.full(len(first), -1, np.int64)
-            pick[seg[is_best][::-1]] = hi[is_best][::-1]   # ties: the lowest hub index
-            near_c[si[first]] = best
-            near_h[si[first]] = pick
+            pick[seg[is_best][::-1]] = uh[is_best][::-1]   # ties: the lowest hub index
+            near_c[ui[first]] = best
+            near_h[ui[first]] = pick
     return TripCosts(si, hi, cost, ns, hubs.n, within, weight, direction, near_c, near_h,
                      settle.attached, hubs.attached, settle.access_m, hubs.access_m)
 

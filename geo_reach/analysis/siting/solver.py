@@ -319,9 +319,9 @@ def choose_sites(network, settlement_xy, demand, hub_xy, candidate_xy, p: int, o
 
     Notes
     -----
-    Costs: :func:`~geo_reach.analysis.indices.trips.trip_costs` twice, once
-    to the existing hubs (nearest only, unbounded) and once to the candidates
-    (every pair within T).
+    Costs: one call of :func:`~geo_reach.analysis.indices.trips.trip_costs`
+    with the existing hubs and the candidates: the nearest existing hub
+    (unbounded) and every settlement-candidate pair within T.
 
     References
     ----------
@@ -349,24 +349,20 @@ def choose_sites(network, settlement_xy, demand, hub_xy, candidate_xy, p: int, o
     h_xy = np.asarray(hub_xy, dtype=np.float64).reshape(-1, 2)
     if not 1 <= p <= len(c_xy):
         raise OptionError(f"--count {p}: give 1 to {len(c_xy)} (the number of candidates)")
-    if not np.isfinite(t) and len(c_xy) * len(s_xy) > MAX_UNBOUNDED_PAIRS:
-        raise OptionError(f"{len(c_xy):,} candidates x {len(s_xy):,} settlements without a bound would keep up to "
-                          f"{len(c_xy) * len(s_xy):,} trip costs; give --within-minutes T (a site then counts for "
-                          "a settlement only within T)")
+    if not np.isfinite(t) and (len(c_xy) + len(h_xy)) * len(s_xy) > MAX_UNBOUNDED_PAIRS:
+        raise OptionError(f"{len(c_xy):,} candidates (and {len(h_xy):,} hubs) x {len(s_xy):,} settlements without a "
+                          f"bound would keep up to {(len(c_xy) + len(h_xy)) * len(s_xy):,} trip costs; give "
+                          "--within-minutes T (a site then counts for a settlement only within T)")
     kw = dict(weight=weight, max_access_m=max_access_m, walk_kmh=walk_kmh)
     notes = []
-    if len(h_xy):
-        ex = trip_costs(network, s_xy, h_xy, pairs=False, **kw)
-        existing = ex.nearest_cost
-        if (~ex.hub_attached).any():
-            notes.append(f"{int((~ex.hub_attached).sum())} existing hubs farther than {max_access_m:g} m from the "
-                         "network are left out")
-    else:
-        existing = np.full(len(s_xy), np.inf)
-    cand = trip_costs(network, s_xy, c_xy, within=t, nearest=False, **kw)
-    if (~cand.hub_attached).any():
-        notes.append(f"{int((~cand.hub_attached).sum())} candidates farther than {max_access_m:g} m from the network "
-                     "reach no settlement")
+    # one call: the existing hubs first (nearest among them, unbounded), then the candidates (pairs within T)
+    h = len(h_xy)
+    both = trip_costs(network, s_xy, np.vstack([h_xy, c_xy]), within=t, nearest_among=np.arange(h), **kw)
+    existing = both.nearest_cost if h else np.full(len(s_xy), np.inf)
+    if (~both.hub_attached[:h]).any():
+        notes.append(f"{int((~both.hub_attached[:h]).sum())} existing hubs farther than {max_access_m:g} m from the "
+                     "network are left out")
+    cand = both.subset_hubs(np.arange(h, h + len(c_xy)))
     problem = build_problem(objective, demand, existing, cand.settlement, cand.hub, cand.cost, len(c_xy), t)
     res = solve(problem, p, method=method, time_limit=time_limit, restarts=restarts)
     order, newly, saved = site_gains(problem, res.sites, demand, existing, cand.settlement, cand.hub, cand.cost, t)
