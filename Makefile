@@ -25,7 +25,7 @@ install-test: $(TSTAMP)
 
 ## make demo: create .venv, install, run the whole analysis on the invented region
 demo: $(STAMP)
-	$(VENV)/bin/geo-reach demo
+	$(VENV)/bin/geo-reach demo --overwrite
 
 ## system-deps: the Debian packages the browser test needs (headless Chromium)
 system-deps:
@@ -42,6 +42,7 @@ system-deps:
 test: $(TSTAMP) system-deps
 	$(VENV)/bin/pytest -q
 
+## make bench: every benchmark script at full size (not CI; see benchmarks/RESULTS.md)
 bench: $(TSTAMP)
 	$(VPY) benchmarks/run_all.py
 

@@ -26,7 +26,32 @@ __all__ = [
 
 
 class GeoReachError(Exception):
-    """Base class of every error geo-reach raises on purpose."""
+    """Base class of every error geo-reach raises on purpose.
+
+    Parameters
+    ----------
+    message : str
+        One line: where, what is wrong, what to do.
+    key : str, optional
+        The option the message is about, in neutral words as the library
+        names it (``max_access_m``, ``snap_m`` ...).  The message then starts
+        with that name; the command line rewrites it to the flag the user
+        typed (``--max-access-m``) and the study loader to the dotted key
+        (``routing.max_access_m``), so a value is blamed where it was given.
+    """
+
+    def __init__(self, *args, key: str | None = None):
+        super().__init__(*args)
+        self.key = key
+
+    def with_message(self, message: str) -> "GeoReachError":
+        """A copy of this error (same class and key) with another message."""
+        import copy
+
+        err = copy.copy(self)
+        err.args = (message,)
+        err.key = self.key
+        return err
 
 
 class InputError(GeoReachError, ValueError):

@@ -37,9 +37,12 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .errors import InputError, MissingInputError
+from .analysis.options import DIRECTIONS, MetricsOptions, RoutingOptions, SurfaceOptions
+from .errors import GeoReachError, InputError, MissingInputError
+from .network.build import BuildOptions
+from .network.weights import WEIGHT_NAMES
 
-__all__ = ["Study", "load_study", "study_from_dict", "SCHEMA"]
+__all__ = ["Study", "OutputOptions", "load_study", "study_from_dict", "SCHEMA", "DOTTED_KEYS"]
 
 # --------------------------------------------------------------------------- schema
 # A schema entry is a type (str, float, int, bool), a ("file", family) pair for
@@ -61,8 +64,8 @@ SCHEMA: dict = {
                 "transfer_max_m": float, "transfer_walk_kmh": float},
     "lines": [_LINE_TABLE],
     "hubs": _POINTS_TABLE,
-    "routing": {"weight": ("choice", ("minutes", "length_m", "latency_ms", "hops")),
-                "direction": ("choice", ("to-hub", "from-hub")),
+    "routing": {"weight": ("choice", WEIGHT_NAMES),
+                "direction": ("choice", DIRECTIONS),
                 "max_access_m": float, "walk_kmh": float},
     "metrics": {"samples": int, "seed": int, "exact": bool, "profile_sources": int, "node_figures": bool},
     "surface": {"cell_m": float, "margin_m": float, "extent": ("list", float), "terrain": _FILE,
@@ -130,28 +133,92 @@ class _Locator:
         return candidates[0] if candidates else None
 
 
+#: Where each option of the typed option classes sits in a study file (for messages).
+DOTTED_KEYS = {
+    **{k: f"network.{k}" for k in ("crs", "snap_m", "dangle_m", "access_snap_m", "transfer_max_m",
+                                   "transfer_walk_kmh", "prebuilt")},
+    **{k: f"routing.{k}" for k in ("weight", "direction", "max_access_m", "walk_kmh")},
+    **{k: f"metrics.{k}" for k in ("samples", "seed", "exact", "profile_sources", "node_figures")},
+    **{k: f"surface.{k}" for k in ("cell_m", "margin_m", "bands", "weak_minutes", "extent", "terrain",
+                                   "landcover", "landcover_speeds", "barriers", "population")},
+    "hub_id_field": "hubs.id_field", "hub_kind_field": "hubs.kind_field", "hub_name_field": "hubs.name_field",
+    "population_field": "settlements.population_field", "zone_id_field": "zones.id_field",
+}
+
+#: Keys of the ``[surface]`` table that name input files rather than options.
+SURFACE_FILES = ("terrain", "landcover", "landcover_speeds", "barriers", "barriers_layer", "population")
+
+
+@dataclass(frozen=True)
+class OutputOptions:
+    """Which optional outputs a run writes.
+
+    Attributes
+    ----------
+    map : bool
+        The self-contained HTML map.
+    basemap : bool
+        A web basemap under the map (needs the internet to show).
+    profile_png : bool
+        The reach profile chart.
+    """
+
+    map: bool = True
+    basemap: bool = False
+    profile_png: bool = True
+
+
 @dataclass
 class Study:
-    """A validated study: the TOML as read (``raw``), resolved paths, and defaults applied."""
+    """A validated study: the TOML as read (``raw``), typed options with defaults applied, and paths.
+
+    Options are the typed classes that hold the one set of defaults
+    (:class:`~geo_reach.network.build.BuildOptions`,
+    :class:`~geo_reach.analysis.options.RoutingOptions` ...); input tables
+    (``lines``, ``hubs``, ``settlements``, ``zones``, ``scenarios``) stay as
+    read, with paths relative to ``base``.
+    """
 
     path: Path | None
     raw: dict
     base: Path
     title: str = "geo-reach study"
-    network: dict = field(default_factory=dict)
+    build: BuildOptions = field(default_factory=BuildOptions)
+    prebuilt: str | None = None
     lines: list = field(default_factory=list)
     hubs: dict | None = None
-    routing: dict = field(default_factory=dict)
-    metrics: dict = field(default_factory=dict)
-    surface: dict | None = None
+    routing: RoutingOptions = field(default_factory=RoutingOptions)
+    metrics: MetricsOptions = field(default_factory=MetricsOptions)
+    surface: SurfaceOptions | None = None
+    surface_files: dict = field(default_factory=dict)
     settlements: dict | None = None
     zones: dict | None = None
-    outputs: dict = field(default_factory=dict)
+    outputs: OutputOptions = field(default_factory=OutputOptions)
     scenarios: dict = field(default_factory=dict)
 
     @property
     def name(self) -> str:
         return self.path.stem if self.path else "study"
+
+    def blame(self, err: GeoReachError) -> GeoReachError:
+        """``err`` with its option named as the study file's dotted key (and line), for a file study.
+
+        An error about an option (its ``key`` set) raised anywhere while this
+        study runs is shown where the user wrote the value: ``file 's.toml':
+        routing.walk_kmh (line 12): ...``.  Errors without a key, and studies
+        made in memory by a command (the command line names its flags),
+        are returned unchanged.
+        """
+        if self.path is None or getattr(err, "key", None) not in DOTTED_KEYS:
+            return err
+        dotted = DOTTED_KEYS.get(err.key, err.key)
+        line = _Locator(self._text).line_of(dotted) if getattr(self, "_text", None) else None
+        msg = str(err)
+        name = f"{dotted}{f' (line {line})' if line else ''}"
+        msg = msg[len(err.key):].lstrip(" :") if msg.startswith(err.key) else msg
+        out = err.with_message(f"file '{self.path}': {name}: {msg}")
+        out.key = None
+        return out
 
     def input_files(self) -> list[Path]:
         """Every file the study reads (for checksums in the summary)."""
@@ -246,9 +313,8 @@ def _check(node, schema, dotted, errors, base, loc):
 
 
 #: Keys whose numbers must be positive (> 0) or not negative (>= 0), wherever they appear.
-_POSITIVE = {"speed_kmh", "cell_m", "walk_kmh", "weak_minutes", "speed_factor", "transfer_walk_kmh"}
-_NOT_NEGATIVE = {"snap_m", "dangle_m", "access_snap_m", "boarding_minutes", "margin_m", "max_access_m",
-                 "transfer_max_m"}
+_POSITIVE = {"speed_kmh", "speed_factor", "transfer_walk_kmh"}
+_NOT_NEGATIVE = {"snap_m", "dangle_m", "access_snap_m", "boarding_minutes", "transfer_max_m"}
 
 
 def _check_ranges(node, dotted, errors, loc):
@@ -258,11 +324,10 @@ def _check_ranges(node, dotted, errors, loc):
             sub = f"{dotted}.{k}" if dotted else k
             if isinstance(v, (int, float)) and not isinstance(v, bool):
                 bad = (k in _POSITIVE and not v > 0) or (k in _NOT_NEGATIVE and not v >= 0) or \
-                      (dotted.endswith("class_speeds") and not v > 0) or (k == "samples" and v < 2)
+                      (dotted.endswith("class_speeds") and not v > 0)
                 if bad:
                     line = loc.line_of(sub) if loc else None
-                    need = "at least 2" if k == "samples" else \
-                        ("zero or more" if k in _NOT_NEGATIVE else "a positive number")
+                    need = "zero or more" if k in _NOT_NEGATIVE else "a positive number"
                     errors.append(f"{sub}{f' (line {line})' if line else ''}: {v} must be {need}")
                     return
             _check_ranges(v, sub, errors, loc)
@@ -320,25 +385,65 @@ def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str |
                 for k in ("speed_kmh", "speed_factor"):
                     if k in item and item[k] <= 0:
                         raise InputError(f"{at}.{k}: must be positive; close the features instead")
+    _check_names_and_crs(raw, where_, loc)
+    study = Study(path=path, raw=raw, base=base, title=raw.get("title", path.stem if path else "geo-reach study"),
+                  lines=list(raw.get("lines", [])), hubs=raw.get("hubs"), settlements=raw.get("settlements"),
+                  zones=raw.get("zones"), scenarios=dict(raw.get("scenarios", {})))
+    study._text = text
     surface = raw.get("surface")
-    if surface is not None:
-        bands = surface.get("bands", [30, 60, 120])
-        if not bands or any(b <= 0 for b in bands):
-            raise InputError(f"{where_}surface.bands: give positive minutes, e.g. [30, 60, 120]")
-        if "extent" in surface and len(surface["extent"]) != 4:
-            raise InputError(f"{where_}surface.extent: give [xmin, ymin, xmax, ymax] in the working CRS")
-    return Study(
-        path=path, raw=raw, base=base, title=raw.get("title", path.stem if path else "geo-reach study"),
-        network=dict(raw.get("network", {})), lines=list(raw.get("lines", [])), hubs=raw.get("hubs"),
-        routing={"weight": "minutes", "direction": "to-hub", "max_access_m": 5000.0, "walk_kmh": 5.0,
-                 **raw.get("routing", {})},
-        metrics={"samples": 200, "seed": 0, "exact": False, "profile_sources": 20, **raw.get("metrics", {})},
-        surface=({"cell_m": 100.0, "margin_m": 2000.0, "bands": [30.0, 60.0, 120.0], **surface}
-                 if surface is not None else None),
-        settlements=raw.get("settlements"), zones=raw.get("zones"),
-        outputs={"map": True, "basemap": False, "profile_png": True, **raw.get("outputs", {})},
-        scenarios=dict(raw.get("scenarios", {})),
-    )
+    network = dict(raw.get("network", {}))
+    try:
+        study.prebuilt = network.pop("prebuilt", None)
+        study.build = BuildOptions(**network)
+        study.routing = RoutingOptions(**raw.get("routing", {}))
+        study.metrics = MetricsOptions(**raw.get("metrics", {}))
+        if surface is not None:
+            study.surface = SurfaceOptions(**{k: v for k, v in surface.items() if k not in SURFACE_FILES})
+            study.surface_files = {k: v for k, v in surface.items() if k in SURFACE_FILES}
+        study.outputs = OutputOptions(**raw.get("outputs", {}))
+    except GeoReachError as err:
+        blamed = study.blame(err)
+        if blamed is err and path is not None:
+            raise err.with_message(f"{where_}{err}") from err
+        raise blamed from err
+    return study
+
+
+#: Scenario names: they become layer, raster and sheet names, so letters, digits, '_' and '-' only.
+SCENARIO_NAME = re.compile(r"^[A-Za-z][A-Za-z0-9_-]{0,39}$")
+
+
+def _check_names_and_crs(raw: dict, where_: str, loc) -> None:
+    """Scenario names usable as layer names, and every CRS string one pyproj knows (before any work)."""
+    from .ingest.layers import parse_crs
+
+    def line(dotted):
+        n = loc.line_of(dotted) if loc else None
+        return f" (line {n})" if n else ""
+
+    for name in raw.get("scenarios", {}):
+        if not SCENARIO_NAME.match(name):
+            shown = name if len(name) <= 40 else name[:40] + "..."
+            raise InputError(f"{where_}scenarios.{shown!r}{line('scenarios.' + name)}: a scenario name must start "
+                             "with a letter and hold only letters, digits, '_' and '-' (at most 40); it names "
+                             "layers and files. Put a longer text in its description")
+    checks = [("network.crs", raw.get("network", {}).get("crs"))]
+    for i, t in enumerate(raw.get("lines", [])):
+        checks.append((f"lines[{i}].assume_crs", t.get("assume_crs")))
+    for key in ("hubs", "settlements", "zones"):
+        if isinstance(raw.get(key), dict):
+            checks.append((f"{key}.assume_crs", raw[key].get("assume_crs")))
+    for name, sc in raw.get("scenarios", {}).items():
+        for i, t in enumerate(sc.get("add_lines", [])):
+            checks.append((f"scenarios.{name}.add_lines[{i}].assume_crs", t.get("assume_crs")))
+        if isinstance(sc.get("add_hubs"), dict):
+            checks.append((f"scenarios.{name}.add_hubs.assume_crs", sc["add_hubs"].get("assume_crs")))
+    for dotted, value in checks:
+        if value is not None:
+            try:
+                parse_crs(value, dotted)
+            except InputError as err:
+                raise InputError(f"{where_}{dotted}{line(dotted)}: {str(err)[len(dotted) + 1:]}") from err
 
 
 def load_study(path) -> Study:
@@ -354,7 +459,16 @@ def load_study(path) -> Study:
     path = Path(path)
     if not path.exists():
         raise MissingInputError(f"file '{path}': study file not found; check the path or run geo-reach init")
-    text = path.read_text(encoding="utf-8")
+    if path.is_dir():
+        raise InputError(f"file '{path}': is a folder, not a study file; give the study's .toml file")
+    try:
+        text = path.read_bytes().decode("utf-8")
+    except UnicodeDecodeError as err:
+        line = path.read_bytes()[: err.start].count(b"\n") + 1
+        raise InputError(f"file '{path}': line {line}: not UTF-8 text (byte 0x{err.object[err.start]:02x}); "
+                         "save the study file as UTF-8") from None
+    except OSError as err:
+        raise InputError(f"file '{path}': cannot be read ({err.strerror}); check its permissions") from None
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:

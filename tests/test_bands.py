@@ -7,8 +7,8 @@ import shapely
 from hypothesis import given, settings, strategies as st
 from hypothesis.extra import numpy as hnp
 
-from geo_reach.analysis.bands import (band_polygons, parse_thresholds, population_stats, rural_access_index,
-                                      sample_points, zone_table)
+from geo_reach.analysis.bands import (band_polygons, parse_thresholds, population_stats, ring_polygons,
+                                      rural_access_index, sample_points, zone_table)
 from geo_reach.errors import CRSError, InputError, OptionError
 from tests.helpers.surface_nets import CRS_UTM, grid
 
@@ -37,7 +37,7 @@ def test_parse_thresholds():
 def test_band_polygons_nested_per_hub_and_combined():
     g, minutes, hub, pop = _surface()
     b = band_polygons(minutes, hub, g, ["30", "60"], population=pop, hub_ids=[101, 202])
-    comb = b[b.hub_id.isna()].set_index("band_minutes")
+    comb = b[b.hub_id.isna()].set_index("within_minutes")
     # 30-minute band: the 10 cells <= 30 (cols 0-1 all, col 2 rows 0-2); 60 adds col 2 row 3 and col 3.
     assert comb.loc[30.0, "area_km2"] == pytest.approx(11.0)
     assert comb.loc[60.0, "area_km2"] == pytest.approx(16.0)
@@ -49,11 +49,54 @@ def test_band_polygons_nested_per_hub_and_combined():
     per = b[b.hub_id.notna()]
     assert set(per.hub_id) == {101, 202}
     for t in (30.0, 60.0):
-        rows = per[per.band_minutes == t]
+        rows = per[per.within_minutes == t]
         assert rows.area_km2.sum() == pytest.approx(comb.loc[t, "area_km2"])
         assert rows.population.sum() == pytest.approx(comb.loc[t, "population"])
         assert shapely.union_all(rows.geometry.values).equals(comb.loc[t].geometry)
     assert b.crs == CRS_UTM
+
+
+def test_ring_polygons_are_disjoint_and_are_the_band_differences():
+    g, minutes, hub, pop = _surface()
+    r = ring_polygons(minutes, g, ["60", "30"], population=pop)
+    assert r[["from_minutes", "to_minutes"]].to_numpy().tolist()[:2] == [[0.0, 30.0], [30.0, 60.0]]
+    assert r["from_minutes"].iloc[2] == 60.0 and np.isnan(r["to_minutes"].iloc[2])
+    # hand counts: 11 cells <= 30, 5 more <= 60, the other 8 (two of them unreachable) beyond
+    assert r["area_km2"].tolist() == pytest.approx([11.0, 5.0, 8.0])
+    assert r["population"].tolist() == pytest.approx([pop[minutes <= 30].sum(),
+                                                      pop[(minutes > 30) & (minutes <= 60)].sum(),
+                                                      pop[~(minutes <= 60)].sum()])
+    # the rings are the differences of the nested bands, and tile the grid without overlap
+    b = band_polygons(minutes, hub, g, ["30", "60"], population=pop)
+    comb = b[b.hub_id.isna()].set_index("within_minutes")
+    assert r.geometry.iloc[0].equals(comb.loc[30.0].geometry)
+    assert r.geometry.iloc[1].symmetric_difference(comb.loc[60.0].geometry.difference(comb.loc[30.0].geometry)).area < 1e-6
+    assert shapely.union_all(r.geometry.values).area == pytest.approx(r.geometry.area.sum()) == pytest.approx(24e6)
+    for geom, area in zip(r.geometry, r.area_km2):
+        assert geom.area / 1e6 == pytest.approx(area)
+    # impassable cells (water) belong to no ring
+    passable = np.ones(g.shape, bool)
+    passable[:, 5] = False
+    r2 = ring_polygons(minutes, g, ["30", "60"], population=pop, passable=passable)
+    assert r2["area_km2"].tolist() == pytest.approx([11.0, 5.0, 4.0])
+    assert r2.crs == CRS_UTM
+
+
+@settings(max_examples=40, deadline=None)
+@given(hnp.arrays(np.float64, (5, 7), elements=st.one_of(st.floats(0, 200), st.just(np.nan))),
+       hnp.arrays(np.float64, (5, 7), elements=st.floats(0, 1e4)),
+       st.lists(st.integers(1, 180), min_size=1, max_size=4, unique=True))
+def test_ring_people_add_up_to_the_band_counts(minutes, pop, thresholds):
+    g = grid(7, 5, cell_m=1000.0)
+    r = ring_polygons(minutes, g, thresholds, population=pop)
+    s = population_stats(minutes, pop, thresholds)
+    assert r["population"].sum() == pytest.approx(s.population_total, rel=1e-9, abs=1e-6)
+    assert r["area_km2"].sum() == pytest.approx(35.0)
+    within = dict(zip(r["to_minutes"], r["population"]))
+    prev = 0.0
+    for t in sorted(thresholds):
+        assert within.get(float(t), 0.0) == pytest.approx(s.population_by_band[str(t)] - prev, rel=1e-9, abs=1e-6)
+        prev = s.population_by_band[str(t)]
 
 
 def test_population_stats_hand_counts():

@@ -124,7 +124,7 @@ def test_kit_study_runs(kit, kit_study):
         total = float(ds.read(1, masked=True).sum())
     # the grid covers the whole population raster, so the run counts every person in it
     assert s["baseline"]["population_total"] == pytest.approx(total)
-    assert s["baseline"]["hubs"]["count"] == 2 and s["baseline"]["hubs"]["attached"] == 2
+    assert s["baseline"]["hubs"]["count"] == 2 and s["baseline"]["hubs"]["joined"] == 2
     assert "proposed" in s["scenarios"]
 
 
@@ -167,7 +167,7 @@ def test_demo_region(tmp_path, capsys):
     assert f"field 'class' looks like a road class: {len(classes)} values found" in text
     assert st.settlements["population_field"] == "population"
     assert st.hubs["kind_field"] == "kind" and st.hubs["id_field"] == "hub_id"
-    assert st.resolve(st.surface["population"]).resolve() == (SAMPLES / "population.tif").resolve()
+    assert st.resolve(st.surface_files["population"]).resolve() == (SAMPLES / "population.tif").resolve()
     assert "wrote" in stdout
 
 
@@ -182,8 +182,8 @@ def test_demo_gpkg_without_layer_name_gives_every_layer(tmp_path, capsys):
     rail = next(t for t in st.lines if t["layer"] == "rail")
     cable = next(t for t in st.lines if t["layer"] == "cable")
     assert rail["stations_layer"] == "stations" and cable["stations_layer"] == "cable_nodes"
-    assert st.surface["barriers_layer"] == "water" and st.zones["layer"] == "districts"
-    assert st.surface["terrain"].endswith("terrain.tif")
+    assert st.surface_files["barriers_layer"] == "water" and st.zones["layer"] == "districts"
+    assert st.surface_files["terrain"].endswith("terrain.tif")
     assert st.scenarios["proposed_road"]["add_lines"][0]["layer"] == "proposed_road"
 
 
@@ -289,7 +289,7 @@ def test_points_and_polygons_are_sorted(tmp_path, capsys):
     assert st.hubs["path"] == "clinics.gpkg" and st.hubs["id_field"] == "code"
     # a population-like field wins over a kind-like one when the name says neither
     assert st.settlements["path"] == "pts.gpkg" and st.settlements["population_field"] == "pop"
-    assert st.surface["barriers"] == "lakes.gpkg"
+    assert st.surface_files["barriers"] == "lakes.gpkg"
     assert st.zones["path"] == "wards.gpkg" and st.zones["id_field"] == "ward_id"
 
 
@@ -309,7 +309,7 @@ def test_unknown_points_raster_and_missing_crs_are_reported_not_guessed(tmp_path
     st = load_study(out)
     assert "assume_crs" not in st.lines[0] and re.search(r'^# assume_crs = "EPSG:NNNN"', text, re.M)
     assert st.hubs is None and "No hub layer found" in text
-    assert "population" not in st.surface and "landuse.tif" in text
+    assert "population" not in st.surface_files and "landuse.tif" in text
     for word in ("no CRS", "misc", "landuse.tif", "no hub layer"):
         assert word in stdout, word
 
@@ -343,3 +343,97 @@ def test_refuses_when_no_layer_holds_lines(kit, tmp_path):
     refused(["init", f"{kit}/net.gpkg:settlements", kit / "hubs.geojson", kit / "pop.tif", "-o", out],
             "no line layer", "settlements")
     assert list(tmp_path.iterdir()) == []
+
+
+# ----------------------------------------------------------------------------- fields by content (issue: a class field
+# named differently was missed, and no id or name fields were proposed for districts and villages)
+def _block(text, label):
+    """The comment lines listing a layer's fields."""
+    lines = text.splitlines()
+    i = next(k for k, ln in enumerate(lines) if ln.startswith(f"# Layer '{label}':"))
+    out = []
+    for ln in lines[i + 1:]:
+        if not ln.startswith("#   "):
+            break
+        out.append(ln[4:])
+    return lines[i], out
+
+
+def test_every_layer_lists_its_fields_with_type_and_samples(tmp_path, capsys):
+    roads = lines_layer(tmp_path / "r.gpkg", "roads", {"rdtype": ["primary", "primary", "track", "secondary"],
+                                                       "width_m": [7.5, 7.5, 3.0, 6.0], "odd": [None] * 4})
+    out = tmp_path / "s.toml"
+    assert init(capsys, roads, "-o", out)[0] == 0
+    text = out.read_text()
+    head, rows = _block(text, "roads")
+    assert head == "# Layer 'roads': 4 features, 3 fields:"
+    assert [r.split()[0] for r in rows] == ["rdtype", "width_m", "odd"]
+    assert rows[0].split()[1] == "text" and "4/4 filled, 3 distinct: 'primary', 'track', 'secondary'" in rows[0]
+    assert rows[1].split()[1] == "decimal" and "7.5, 3, 6" in rows[1]
+    assert "(all empty)" in rows[2]
+    load_study(out)
+
+
+def test_a_class_field_named_otherwise_is_found_by_its_values(tmp_path, capsys):
+    ref = lines_layer(tmp_path / "r.gpkg", "roads", {"rdtype": ["primary"] * 3 + ["residential"] * 2 + ["track"],
+                                                     "label": [f"Street {i}" for i in range(6)]})
+    out = tmp_path / "s.toml"
+    assert init(capsys, ref, "-o", out)[0] == 0
+    t = load_study(out).lines[0]
+    assert t["class_field"] == "rdtype"
+    assert t["class_speeds"] == {c: DEFAULT_CLASS_SPEEDS_KMH[c] for c in ("primary", "residential", "track")}
+    assert "'rdtype' is not named like a class but its values are road classes: 100% of features" in \
+        comment_of(out.read_text(), "class_field")
+
+
+def test_class_values_unknown_to_the_table_one_candidate_or_undecided(tmp_path, capsys):
+    one = lines_layer(tmp_path / "a.gpkg", "roads", {"cat": ["A", "A", "B", "C", "C", "C"]})
+    out = tmp_path / "a.toml"
+    assert init(capsys, one, "-o", out)[0] == 0
+    text = out.read_text()
+    assert load_study(out).lines[0]["class_field"] == "cat"
+    assert re.search(r"^# c = 40 .*3 features; guess: the road default", text, re.M)   # speeds left to set
+    two = lines_layer(tmp_path / "b.gpkg", "roads", {"cat": ["A", "A", "B", "C", "C", "C"],
+                                                     "material": ["tar", "tar", "dirt", "dirt", "dirt", "tar"]})
+    out = tmp_path / "b.toml"
+    assert init(capsys, two, "-o", out)[0] == 0
+    text = out.read_text()
+    assert "class_field" not in load_study(out).lines[0]
+    assert "# could not tell which field holds the road class; fields that repeat a few values: cat, material " \
+           "(all fields are listed above)" in text
+    assert [r.split()[0] for r in _block(text, "roads")[1]] == ["cat", "material"]
+
+
+def test_ids_names_and_population_of_districts_and_villages_by_content(tmp_path, capsys):
+    roads = lines_layer(tmp_path / "roads.gpkg", "roads", {"speed": [40, 40]})
+    villages = points_layer(tmp_path / "villages.gpkg", "villages",
+                            {"vcode": [101, 102, 103, 104], "vill": ["Oak Ford", "Brennis", "Holm", "Leda"],
+                             "inhab": [120, 85, 1400, 33], "ward": ["W1", "W1", "W2", "W2"]})
+    districts = tmp_path / "districts.gpkg"
+    gpd.GeoDataFrame({"dcode": ["D01", "D02"], "dname": ["North Vale", "South Vale"], "area": [12.5, 9.0]},
+                     geometry=[shapely.box(X0, Y0, X0 + 50, Y0 + 50), shapely.box(X0 + 50, Y0, X0 + 100, Y0 + 50)],
+                     crs=CRS).to_file(districts)
+    out = tmp_path / "s.toml"
+    code, _, err = init(capsys, roads, villages, districts, "-o", out)
+    assert code == 0, err
+    st = load_study(out)
+    text = out.read_text()
+    assert (st.settlements["id_field"], st.settlements["name_field"], st.settlements["population_field"]) == \
+        ("vcode", "vill", "inhab")
+    assert (st.zones["id_field"], st.zones["name_field"]) == ("dcode", "dname")
+    assert "field 'inhab' holds non-negative numbers (median 102.5), maybe people: check" in text
+    assert re.search(r"^name_field = \"dname\" +# field 'dname' reads as names: 100% distinct", text, re.M)
+    assert [r.split()[0] for r in _block(text, "districts")[1]] == ["dcode", "dname", "area"]
+
+
+def test_when_no_field_fits_it_says_so_and_lists_the_fields(tmp_path, capsys):
+    roads = lines_layer(tmp_path / "roads.gpkg", "roads", {"speed": [40, 40]})
+    places = points_layer(tmp_path / "villages.gpkg", "villages", {"grp": ["a", "a", "b"], "v": [1.5, 1.5, -2.0]})
+    out = tmp_path / "s.toml"
+    assert init(capsys, roads, places, "-o", out)[0] == 0
+    text = out.read_text()
+    assert "# no field is unique and filled for every feature, so features are numbered from 1; fields found: " \
+           "grp (text), v (decimal)" in text
+    assert "no population-like field found: name the field holding each settlement's population (fields found: " \
+           "grp (text), v (decimal))" in text
+    assert "# no field reads as names" in text

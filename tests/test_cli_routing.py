@@ -23,6 +23,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 from helpers.routing_nets import make_network  # noqa: E402
 
 from geo_reach import cli  # noqa: E402
+from geo_reach.network.weights import as_weight  # noqa: E402
 
 X0, Y0 = 500000.0, 6000000.0
 UTM = CRS.from_epsg(32633)
@@ -88,13 +89,13 @@ def test_access_nearest_hub_fields_and_values(tmp_path, net_path, capsys, monkey
     code, _, err = run(["access", net_path, "--hubs", hubs, "-o", out], capsys, monkeypatch)
     assert code == 0, err
     nodes = pyogrio.read_dataframe(out, layer="nodes")
-    assert {"node_id", "nearest_hub", "hub_minutes"} <= set(nodes.columns)
-    assert nodes.loc[0, "nearest_hub"] == 1 and nodes.loc[0, "hub_minutes"] == pytest.approx(0.7)
-    assert nodes.loc[19, "nearest_hub"] == 2 and nodes.loc[19, "hub_minutes"] == pytest.approx(0.7)
+    assert {"node_id", "nearest_hub", "hub_cost"} <= set(nodes.columns)
+    assert nodes.loc[0, "nearest_hub"] == 1 and nodes.loc[0, "hub_cost"] == pytest.approx(0.7)
+    assert nodes.loc[19, "nearest_hub"] == 2 and nodes.loc[19, "hub_cost"] == pytest.approx(0.7)
     # node 2 (2 km east of node 0): 0.6 + 0.9 + 1 = 2.5 min to hub 1
-    assert nodes.loc[2, "hub_minutes"] == pytest.approx(2.5)
+    assert nodes.loc[2, "hub_cost"] == pytest.approx(2.5)
     # the island reaches no hub: null, not 0 and not a sentinel
-    assert nodes.loc[20:, "nearest_hub"].isna().all() and nodes.loc[20:, "hub_minutes"].isna().all()
+    assert nodes.loc[20:, "nearest_hub"].isna().all() and nodes.loc[20:, "hub_cost"].isna().all()
     hub_layer = pyogrio.read_dataframe(out, layer="hubs")
     assert hub_layer["hub_id"].tolist() == [1, 2]  # row numbers from 1
     assert hub_layer["served_nodes"].sum() == 20
@@ -102,15 +103,21 @@ def test_access_nearest_hub_fields_and_values(tmp_path, net_path, capsys, monkey
     assert "2 of 22 nodes reach no hub" in err
 
 
-@pytest.mark.parametrize("weight,field", [("length_m", "hub_length_m"), ("hops", "hub_hops"),
-                                          ("latency_ms", "hub_latency_ms")])
+@pytest.mark.parametrize("weight,field", [("length_m", "hub_cost"), ("hops", "hub_cost"),
+                                          ("latency_ms", "hub_cost")])
 def test_access_cost_field_follows_weight(tmp_path, net_path, capsys, monkeypatch, weight, field):
     hubs = write_points(tmp_path / "hubs.gpkg", [(X0 + 100, Y0 + 50)])
     out = tmp_path / "acc.gpkg"
     code, _, err = run(["access", net_path, "--hubs", hubs, "--weight", weight, "-o", out], capsys, monkeypatch)
     assert code == 0, err
     nodes = pyogrio.read_dataframe(out, layer="nodes")
-    assert field in nodes.columns and "hub_minutes" not in nodes.columns
+    assert field in nodes.columns
+    # one fixed field whatever the weight: the weight and its unit are in the layer's description
+    import sqlite3
+
+    with sqlite3.connect(out) as db:
+        desc = db.execute("select description from gpkg_contents where table_name='nodes'").fetchone()[0]
+    assert as_weight(weight).unit in desc and as_weight(weight).describes in desc
     if weight == "length_m":
         assert nodes.loc[0, field] == pytest.approx(150.0)  # 50 m walk + 100 m along the link
     if weight == "hops":
@@ -127,10 +134,10 @@ def test_access_per_kind_with_ids(tmp_path, net_path, capsys, monkeypatch):
                         "-o", out], capsys, monkeypatch)
     assert code == 0, err
     nodes = pyogrio.read_dataframe(out, layer="nodes")
-    assert {"nearest_clinic", "clinic_minutes", "nearest_port", "port_minutes"} <= set(nodes.columns)
-    assert nodes.loc[0, "nearest_clinic"] == "north" and nodes.loc[0, "nearest_port"] == "quay"
+    assert {"nearest_hub_clinic", "hub_cost_clinic", "nearest_hub_port", "hub_cost_port"} <= set(nodes.columns)
+    assert nodes.loc[0, "nearest_hub_clinic"] == "north" and nodes.loc[0, "nearest_hub_port"] == "quay"
     # node 0 to the port 10 m south of node 2 (nearest entry: node 2 itself): 2 min + 0.12 min walk
-    assert nodes.loc[0, "port_minutes"] == pytest.approx(2.0 + 10 / (5000 / 60))
+    assert nodes.loc[0, "hub_cost_port"] == pytest.approx(2.0 + 10 / (5000 / 60))
     hubs_out = pyogrio.read_dataframe(out, layer="hubs")
     assert hubs_out["hub_id"].tolist() == ["north", "south", "quay"]
     assert hubs_out["kind"].tolist() == ["clinic", "clinic", "port"]
@@ -150,7 +157,7 @@ def test_access_direction_on_one_way_network(tmp_path, capsys, monkeypatch):
         code, _, err = run(["access", path, "--hubs", hubs, "--direction", direction, "--max-access-m", "100",
                             "-o", out], capsys, monkeypatch)
         assert code == 0, err
-        got = pyogrio.read_dataframe(out, layer="nodes")["hub_minutes"].tolist()
+        got = pyogrio.read_dataframe(out, layer="nodes")["hub_cost"].tolist()
         assert [None if np.isnan(v) else v for v in got] == expect
 
 
@@ -161,10 +168,10 @@ def test_access_reports_far_and_lone_hubs(tmp_path, net_path, capsys, monkeypatc
     code, _, err = run(["access", net_path, "--hubs", hubs, "-o", out], capsys, monkeypatch)
     assert code == 0, err
     # hub 3 is reported with its real distance to the grid corner (4 km, 3 km): hypot(16, 27) km
-    assert "1 hubs farther than --max-access-m 5000 m" in err and f"id 3 ({np.hypot(16000, 27000):,.0f} m)" in err
+    assert "1 hubs farther than the largest access distance (5000 m)" in err and f"id 3 ({np.hypot(16000, 27000):,.0f} m)" in err
     assert "alone in a component of their own" in err and "id 2" in err
     h = pyogrio.read_dataframe(out, layer="hubs")
-    assert h["attached"].tolist() == [1, 1, 0] and h["alone"].tolist() == [0, 1, 0]
+    assert h["joined"].tolist() == [1, 1, 0] and h["isolated"].tolist() == [0, 1, 0]
 
 
 # ---------------------------------------------------------------- access: bad input
@@ -275,23 +282,35 @@ def test_od_pairs_layer_and_csv(tmp_path, net_path, capsys, monkeypatch):
     assert code == 0, err
     assert "1 destinations farther than --max-access-m" in err
     pairs = pyogrio.read_dataframe(out, layer="od_pairs")
-    assert {"origin_id", "destination_id", "cost", "length_m"} <= set(pairs.columns)
-    assert len(pairs) == 4  # 2 origins x 2 attached destinations
+    assert {"origin_id", "destination_id", "trip_cost", "length_m", "reason"} <= set(pairs.columns)
+    assert len(pairs) == 6  # 2 origins x 3 destinations: none is dropped, each empty cost has a reason
     row = pairs[(pairs.origin_id == 10) & (pairs.destination_id == 1)].iloc[0]
-    assert row.cost == pytest.approx(8.0) and row.length_m == pytest.approx(6900.0)  # as in the route test
+    assert row.trip_cost == pytest.approx(8.0) and row.length_m == pytest.approx(6900.0)  # as in the route test
     assert row.geometry.length == pytest.approx(np.hypot(3800, 2900))  # straight connecting line
+    assert row.reason in ("", None)
     island = pairs[pairs.destination_id == 2]
-    assert island.cost.isna().all()
+    assert island.trip_cost.isna().all() and island.reason.str.startswith("no path").all()
+    far = pairs[pairs.destination_id == 3]
+    assert far.trip_cost.isna().all() and far.reason.str.startswith("destination farther").all()
     import pandas as pd
 
-    table = pd.read_csv(csv)
-    assert list(table.columns[:4]) == ["origin_id", "destination_id", "cost", "length_m"] and len(table) == 4
+    table = pd.read_csv(csv, skiprows=1, encoding="utf-8-sig")   # line 1 is the caution
+    assert open(csv, encoding="utf-8-sig").readline().strip().strip('"').startswith("Model estimates")
+    assert list(table.columns[:4]) == ["origin_id", "destination_id", "trip_cost", "length_m"] and len(table) == 6
     code, _, err = run(["od", net_path, "--origins", o, "--destinations", d, "--nearest", "1", "-o", out,
                         "--overwrite"], capsys, monkeypatch)
     assert code == 0, err
     near = pyogrio.read_dataframe(out, layer="od_pairs")
     assert len(near) == 2 and near["rank"].tolist() == [1, 1]
     assert near.set_index("origin_id").loc[2, "destination_id"] == 1  # origin 2 stands on destination 1
+    # an origin that reaches no destination is kept, with a null cost and the reason
+    code, _, err = run(["od", net_path, "--origins", o, "--destinations", write_points(tmp_path / "d2.gpkg",
+                        [(X0 + 50500, Y0 + 20)]), "--nearest", "1", "-o", out, "--overwrite"], capsys, monkeypatch)
+    assert code == 0, err
+    near = pyogrio.read_dataframe(out, layer="od_pairs")
+    assert len(near) == 2 and near["trip_cost"].isna().all() and near["destination_id"].isna().all()
+    assert near["reason"].str.startswith("no destination reachable").all()
+    assert "2 without a path" in err
 
 
 # ====================================================================== metrics

@@ -338,7 +338,7 @@ def test_mixed_single_and_multi_polygons_promoted(tmp_path):
 # ---------------------------------------------------------------- bad input, nothing lost
 def test_refuses_existing_file_without_overwrite(gpkg, layers):
     before = gpkg.read_bytes()
-    with pytest.raises(OutputExistsError, match="already exists; pass --overwrite"):
+    with pytest.raises(OutputExistsError, match="already exists; replace it with overwrite"):
         write_layers(gpkg, {"hubs": layers["hubs"]})
     assert gpkg.read_bytes() == before
 
@@ -409,3 +409,26 @@ def test_no_layers_refused(tmp_path):
     with pytest.raises(OptionError, match="no layers"):
         write_layers(tmp_path / "c.gpkg", {})
 
+
+
+def test_field_descriptions_in_gpkg_data_columns(tmp_path):
+    """OGC 12-128r18 (2021), Annex F.9 (schema extension): column titles and descriptions from the glossary."""
+    import sqlite3
+
+    import geopandas as gpd
+    import shapely
+
+    from geo_reach import glossary
+    from geo_reach.export.gpkg import write_layers
+
+    frame = gpd.GeoDataFrame({"hub_minutes": [1.5], "population": [10.0], "my_own_field": ["x"]},
+                             geometry=[shapely.Point(500000, 6500000)], crs=32727)
+    out = write_layers(tmp_path / "d.gpkg", {"settlements": frame})
+    with sqlite3.connect(out) as db:
+        rows = dict(db.execute("select column_name, description from gpkg_data_columns "
+                               "where table_name = 'settlements'").fetchall())
+        ext = db.execute("select extension_name, scope from gpkg_extensions "
+                         "where table_name = 'gpkg_data_columns'").fetchall()
+    assert rows == {"hub_minutes": glossary.describe("hub_minutes"), "population": glossary.describe("population")}
+    assert "minutes" in rows["hub_minutes"] and ext == [("gpkg_schema", "read-write")]
+    assert pyogrio.read_dataframe(out, layer="settlements")["hub_minutes"].tolist() == [1.5]

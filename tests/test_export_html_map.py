@@ -1,15 +1,16 @@
-"""The HTML map page, checked as text: offline, escaped, deterministic, coloured by the shared palette.
+"""The HTML map page, checked as text: data only as JSON, no template engine, offline, deterministic, drawn right.
 
 The real-browser checks are in ``test_browser_map.py``.  Sources: the HTML
-Living Standard (WHATWG) for what a script/link/img reference loads, and
-common practice for HTML escaping (``html.escape`` turns ``<``, ``>``, ``&``
-and quotes into character references).
+Living Standard (WHATWG) for what ends a ``<script>`` element (``</script``,
+and ``<!--`` opening an escaped section) and what a script/link/img
+reference loads; ECMA-404 / RFC 8259 for JSON escapes (``\\u003c`` reads back
+as ``<``); Douglas and Peucker (1973) for the simplification bound (every
+dropped vertex lies within the tolerance of the simplified line).
 """
 
 from __future__ import annotations
 
 import hashlib
-import html
 import json
 import re
 import sys
@@ -17,47 +18,82 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import shapely
+from hypothesis import given, settings, strategies as st
+from pyproj import Transformer
 
 sys.path.insert(0, str(Path(__file__).parent))
-from helpers.export_layers import EVIL, LONG, sample_comparison, sample_layers  # noqa: E402
+from helpers import map_input as MI  # noqa: E402
 
 from geo_reach import CAUTION  # noqa: E402
 from geo_reach.errors import CRSError, LayerError, OptionError, OutputExistsError, OutputError  # noqa: E402
 from geo_reach.export import palette as P  # noqa: E402
-from geo_reach.export.html_map import (TOOLTIP_CHARS, Comparison, external_references, render_map,  # noqa: E402
-                                       write_map)
+from geo_reach.export.webmap import (MAP_PIXELS, MapInput, NetworkLayer, external_references,  # noqa: E402
+                                     json_for_script, render_map, write_map)
 
 ASSETS = Path(__file__).parents[1] / "geo_reach" / "export" / "assets"
+DATA_RE = re.compile(r'<script type="application/json" id="gr-data">(.*?)</script>', re.S)
 
 
 @pytest.fixture(scope="module")
-def layers():
-    return sample_layers()
+def page():
+    return render_map(MI.full())
 
 
-def _all(layers):
-    return dict(edges=layers["edges"], hubs=layers["hubs"], bands=layers["reach_bands"], weak=layers["weak_regions"],
-                diameter=layers["diameter"], issues=layers["issues"])
+def data_of(page: str) -> dict:
+    blocks = DATA_RE.findall(page)
+    assert len(blocks) == 1
+    return json.loads(blocks[0])
 
 
-@pytest.fixture(scope="module")
-def page(layers):
-    return render_map(**_all(layers))
+def layers_of(data, group, view="any"):
+    return [lay for lay in data["layers"] if lay["group"] == group and (view == "any" or lay["view"] == view)]
 
 
-def _geojson_blocks(page: str) -> list[dict]:
-    """The GeoJSON each folium layer adds (``geo_json_NNNN_add({...});``)."""
-    return [json.loads(m.group(1)) for m in re.finditer(r"geo_json_\d+_add\((\{.*?\})\);\n", page)]
+def col(lay, key):
+    """A column of a layer as a list (the page packs repeated and missing values; see build._pack)."""
+    n = len(lay["geom"]["f"]) if "f" in lay["geom"] else (len(lay["geom"]["n"]) if "n" in lay["geom"]
+                                                          else len(lay["geom"]["xy"]) // 2)
+    c = lay["cols"].get(key)
+    if c is None:
+        return [None] * n
+    if isinstance(c, list):
+        return c
+    if "k" in c:
+        return [None if i < 0 else c["k"][i] for i in c["i"]]
+    return [c["v"]] * n
+
+
+def decode_points(geom, frame):
+    """Reference decoding of the delta-encoded integer vertices (independent of the page script)."""
+    q = np.cumsum(np.asarray(geom["xy"], dtype=np.int64).reshape(-1, 2), axis=0)
+    return np.column_stack([frame["lon0"] + q[:, 0] * frame["step"], frame["lat0"] + q[:, 1] * frame["step"]])
+
+
+def decode_lines(geom, frame):
+    pts = decode_points(geom, frame)
+    parts, k = [], 0
+    for n in geom["n"]:
+        parts.append(pts[k:k + n])
+        k += n
+    if "f" not in geom:
+        return [[p] for p in parts]
+    feats, k = [], 0
+    for f in geom["f"]:
+        feats.append(parts[k:k + f])
+        k += f
+    return feats
 
 
 # ---------------------------------------------------------------- offline
 def test_no_network_references(page):
     # own patterns, independent of external_references()
     assert not re.search(r"<script[^>]*\bsrc\s*=", page, re.I)
-    assert not re.search(r"<link[^>]*\bhref\s*=\s*[\"']?(https?:)?//", page, re.I)
-    assert not re.search(r"<(img|iframe)[^>]*\bsrc\s*=\s*[\"']?(https?:)?//", page, re.I)
+    assert not re.search(r"<link[^>]*\bhref\s*=", page, re.I)
+    assert not re.search(r"<(img|iframe)[^>]*\bsrc\s*=", page, re.I)
     assert not re.search(r"url\(\s*[\"']?(https?:)?//", page, re.I)
-    for host in ("cdn.jsdelivr", "cdnjs", "code.jquery", "bootstrapcdn", "fontawesome", "unpkg", "d3js"):
+    for host in ("cdn.jsdelivr", "cdnjs", "code.jquery", "bootstrapcdn", "fontawesome", "unpkg", "d3js",
+                 "openstreetmap"):
         assert host not in page
     assert external_references(page) == []
 
@@ -70,11 +106,10 @@ def test_external_references_detects_what_it_should():
     assert external_references('<a href="https://leafletjs.com">Leaflet</a>') == []  # a link loads nothing
 
 
-def test_leaflet_is_inlined_from_the_vendored_files(page):
-    js = (ASSETS / "leaflet.js").read_text("utf-8")
-    assert js in page
-    assert "L.map(" in page and "Leaflet 1.9.4" in page
-    # the CSS images became data URIs
+def test_leaflet_and_our_assets_are_inlined(page):
+    for name in ("leaflet.js", "georeach-map.js", "georeach-map.css"):
+        assert (ASSETS / name).read_text("utf-8") in page, name
+    assert "Leaflet 1.9.4" in page
     assert "url(images/" not in page and "url(data:image/png;base64," in page
 
 
@@ -87,169 +122,423 @@ def test_vendored_files_match_the_hashes_in_their_readme():
     assert "BSD 2-Clause" in (ASSETS / "LICENSE.leaflet").read_text("utf-8")
 
 
-def test_no_jquery_or_bootstrap_needed(page):
-    script = page.split("Leaflet 1.9.4", 1)[1]
-    assert "$(" not in script.split("</script>", 1)[1]  # folium's own code after the inlined Leaflet
-    assert "jquery" not in page.lower() and "bootstrap" not in page.lower()
-
-
-def test_basemap_is_optional(layers):
-    off = render_map(edges=layers["edges"])
-    on = render_map(edges=layers["edges"], basemap=True)
+def test_basemap_is_optional():
+    off = render_map(MI.full(scenarios=()))
+    on = render_map(MI.full(scenarios=(), basemap=True))
     assert "tile.openstreetmap.org" not in off
-    assert "tile.openstreetmap.org" in on and "OpenStreetMap" in on
-    assert "background:#f3f2ee" in off.replace(" ", "")  # a plain background when there is no basemap
+    assert data_of(on)["basemap"]["url"].startswith("https://tile.openstreetmap.org/")
+    css = (ASSETS / "georeach-map.css").read_text("utf-8")
+    assert f"background: {P.BACKGROUND}" in css  # the plain background is the palette's
 
 
-# ---------------------------------------------------------------- escaping
-def test_user_text_is_escaped_everywhere(page):
-    assert EVIL not in page
-    assert "<script>alert" not in page
-    for block in _geojson_blocks(page):
-        for feat in block["features"]:
-            for k, v in feat["properties"].items():
-                if k == "style":
-                    continue
-                assert "<" not in v and ">" not in v, v
-    names = [f["properties"]["t0"] for b in _geojson_blocks(page) for f in b["features"]
-             if "t0" in f["properties"] and "script" in f["properties"]["t0"]]
-    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in names
+# ---------------------------------------------------------------- data is never code
+def _outside_data(page: str) -> str:
+    return DATA_RE.sub("DATA", page)
 
 
-def test_long_text_is_shortened_in_tooltips_not_in_popups(page):
-    tips = [v for b in _geojson_blocks(page) for f in b["features"] for k, v in f["properties"].items()
-            if k.startswith("t") and "very long remark" in v]
-    pops = [v for b in _geojson_blocks(page) for f in b["features"] for k, v in f["properties"].items()
-            if k.startswith("p") and "very long remark" in v]
-    assert tips and pops
-    for t in tips:
-        assert t.endswith("\u2026") and len(t) <= TOOLTIP_CHARS
-    assert any(len(p) > TOOLTIP_CHARS and "wet season" in p for p in pops)
-    assert len(LONG) > 300
+def test_data_travels_only_in_the_json_block():
+    plain = render_map(MI.full())
+    m, places = MI.hostile()
+    evil = render_map(m)
+    # everything but the data block is the same page, whatever the data: no user text reaches the markup
+    assert _outside_data(plain) == _outside_data(evil)
+    outside = _outside_data(evil)
+    for texts in places.values():
+        for t in texts:
+            assert t not in outside, t
+    # the block holds no character that could end or open an element, and reads back exactly
+    block = DATA_RE.findall(evil)[0]
+    for ch in "<>&\u2028\u2029":
+        assert ch not in block
+    data = json.loads(block)
+    assert data["title"] == " ".join(places["title"][0].split())
+    assert [v["name"] for v in data["views"]] == ["Today", "With " + places["scenario"][0]]
+    hub = layers_of(data, "hubs")[0]
+    assert col(hub, "name") == places["hubs"]
+    sett = layers_of(data, "settlements", "today")[0]
+    assert col(sett, "name") == [" ".join(t.split()) for t in places["settlements"]]
+    dist = layers_of(data, "districts")[0]
+    assert col(dist, "name") == places["districts"]
+    kinds = {e["t"] for g in data["groups"] if g["id"] == "hubs" for e in g["legend"]}
+    assert set(places["hub kinds"]) <= kinds
+    # four script elements: the data, Leaflet, ours; none with a source
+    assert len(re.findall(r"<script\b", evil)) == 3
 
 
-def test_template_syntax_in_data_is_not_evaluated(layers):
-    hubs = layers["hubs"].copy()
-    hubs["kind"] = ["{{ 7*7 }}", "{% if true %}yes{% endif %}", "depot"]
-    page = render_map(hubs=hubs, title="{{ 6*6 }} <b>title</b>")
-    assert "{{ 7*7 }}" in page and "{% if true %}yes{% endif %}" in page  # shown literally in the legend
-    assert "{{ 6*6 }} &lt;b&gt;title&lt;/b&gt;" in page
-    assert "<title>{{ 6*6 }} &lt;b&gt;title&lt;/b&gt;</title>" in page
-    assert "<b>title</b>" not in page
+def test_no_template_engine_sees_user_text(monkeypatch):
+    """Record every template source handed to jinja2 or branca during a full render with hostile names."""
+    import importlib.util
+
+    seen = []
+    if importlib.util.find_spec("jinja2") is not None:
+        import jinja2
+
+        class Recording(jinja2.Template):
+            def __new__(cls, source, *a, **k):
+                seen.append(str(source))
+                return super().__new__(cls, source, *a, **k)
+
+        real_from_string = jinja2.Environment.from_string
+        monkeypatch.setattr(jinja2, "Template", Recording)
+        monkeypatch.setattr(jinja2.Environment, "from_string",
+                            lambda self, source, *a, **k: seen.append(str(source)) or real_from_string(self, source, *a, **k))
+    if importlib.util.find_spec("branca") is not None:
+        import branca.element
+
+        real_init = branca.element.Element.__init__
+
+        def init(self, template=None, *a, **k):
+            seen.append(str(template))
+            real_init(self, template, *a, **k)
+
+        monkeypatch.setattr(branca.element.Element, "__init__", init)
+    m, places = MI.hostile()
+    page = render_map(m)
+    users = [t for texts in places.values() for t in texts]
+    for src in seen:
+        for t in users:
+            assert t not in src, (t, src[:200])
+    # and the page really carries the texts (so the check above could have failed)
+    data = json.dumps(data_of(page), ensure_ascii=False)
+    assert all(json.dumps(t, ensure_ascii=False)[1:-1] in data for t in places["hubs"] + places["districts"])
 
 
-# ---------------------------------------------------------------- content
-def test_layers_legend_and_caution_present(page):
-    for name in ("Reach bands", "Weak regions (ranked)", "Network: minutes to nearest hub",
-                 "Diameter path (longest shortest trip)", "Network issues", "Hubs"):
-        assert json.dumps(name) in page, name  # a layer control entry
-    assert 'class="gr-legend"' in page and "Network: minutes to nearest hub" in page
-    assert "Weak regions by reason" in page and "Hubs by kind" in page
-    assert "min</span>" in page  # units in the legend
-    assert CAUTION in page and 'class="gr-caution"' in page
-    assert "L.control.layers(" in page
+def test_page_code_uses_no_template_engine_nor_markup_from_strings():
+    src = "\n".join(p.read_text("utf-8") for p in (ASSETS.parent / "webmap").glob("*.py"))
+    for word in ("jinja", "branca", "folium", "string.Template", "format_map", "eval(", "exec("):
+        assert word not in src, word
+    js = (ASSETS / "georeach-map.js").read_text("utf-8")
+    for word in ("innerHTML", "outerHTML", "insertAdjacentHTML", "document.write", "eval(", "new Function",
+                 "setTimeout('", "setInterval('"):
+        assert word not in js, word
+    # Leaflet turns a *string* popup, tooltip or icon into markup: ours hand it elements or functions making them
+    assert "bindPopup(function" in js and "bindTooltip(function" in js
+    assert not re.search(r"bind(Popup|Tooltip)\(\s*['\"]", js)
+    for m in re.finditer(r"html:\s*([A-Za-z_]+)", js):
+        assert m.group(1) in ("box", "b", "span", "el"), m.group(0)
 
 
-def test_network_colours_follow_the_palette(page, layers):
-    hub_minutes = layers["edges"]["hub_minutes"].to_numpy(float)
-    want = P.colour_of(hub_minutes, P.cost_classes(hub_minutes))
-    blocks = [b for b in _geojson_blocks(page) if len(b["features"]) == len(hub_minutes)
-              and b["features"][0]["geometry"]["type"] == "LineString"]
-    assert len(blocks) == 1
-    got = [f["properties"]["style"]["color"] for f in blocks[0]["features"]]
-    assert got == want
-    for c in P.cost_classes(hub_minutes):
-        assert html.escape(f"{c.label} min") in page
+@settings(max_examples=200, deadline=None)
+@given(st.text())
+def test_json_for_script_reads_back_and_cannot_close_a_tag(text):
+    out = json_for_script({"t": text, "k": [text]})
+    assert json.loads(out) == {"t": text, "k": [text]}
+    for ch in "<>&\u2028\u2029":
+        assert ch not in out
 
 
-def test_geometry_is_in_wgs84_near_the_invented_region(page):
-    coords = []
-    for b in _geojson_blocks(page):
-        for f in b["features"]:
-            coords.extend(np.array(f["geometry"]["coordinates"], dtype=object).ravel().tolist())
-    xy = np.array([c for c in coords if isinstance(c, float)], dtype=float)
-    assert xy.size
-    lon, lat = xy[0::2], xy[1::2]  # first pair is lon, lat
-    assert np.all((lon > -21.2) & (lon < -20.8)) or np.all((lat > -31.2) & (lat < -30.8))
+# ---------------------------------------------------------------- views, groups and what is on at first
+def test_views_today_first_and_scenario_layers_only_in_their_view(page):
+    d = data_of(page)
+    assert [v["id"] for v in d["views"]] == ["today", "v1"]
+    assert d["views"][1]["name"] == "With new bridge" and d["views"][1]["text"] == "A bridge over the Mere"
+    for g in ("change", "proposed"):
+        assert {lay["view"] for lay in layers_of(d, g)} == {"v1"}
+    for g in ("network", "rings", "settlements"):
+        assert {lay["view"] for lay in layers_of(d, g)} == {"today", "v1"}
+    for g in ("weak_top", "diameter", "issues", "districts"):
+        assert {lay["view"] for lay in layers_of(d, g)} == {"today"}
+    for g in ("hubs", "water", "district_lines"):
+        assert {lay["view"] for lay in layers_of(d, g)} == {None}
 
 
-def test_weak_regions_ranked_with_population_in_popup(page):
-    weak = [f for b in _geojson_blocks(page) for f in b["features"] if f["properties"].get("style", {}).get("dashArray") == "6 4"]
-    assert len(weak) == 2
-    assert [f["properties"]["p0"] for f in weak] == ["1", "2"]  # sorted by rank, rank first
-    assert {f["properties"]["p2"] for f in weak} == {"540", "95"}  # population
-    assert '"Rank", "Reason", "Population"' in page  # popup labels
-    assert "gr-rank" in page  # the rank labels
+def test_what_is_shown_at_first(page):
+    on = {g["id"]: g["on"] for g in data_of(page)["groups"]}
+    assert on == {"rings": True, "districts": False, "settlements": True, "hubs": True, "network": True,
+                  "change": True, "proposed": True, "water": True, "district_lines": True, "weak_top": True,
+                  "weak_rest": False, "weak_empty": False, "diameter": False, "issues": False}
+    modes = {g["id"]: g["mode"] for g in data_of(page)["groups"]}
+    assert modes["rings"] == modes["districts"] == "shade"  # one shading at a time
 
 
-def test_comparison_toggle_and_change_layer(layers):
-    before, after, change = sample_comparison(layers["edges"])
-    page = render_map(hubs=layers["hubs"], comparison=Comparison(before, after, change, "Today", "With new bridge"))
-    assert '"Today: network, minutes to nearest hub"' in page
-    assert '"With new bridge: network, minutes to nearest hub"' in page
-    assert re.search(r"base_layers : \{\s*\"Today: network", page)  # radio buttons: one view at a time
-    assert "Change in minutes (after \u2212 before)" in page
-    d = change["delta_minutes"].to_numpy(float)
-    want = P.colour_of(d, P.change_classes(d))
-    blocks = [b for b in _geojson_blocks(page)
-              if b["features"] and re.match(r"[+-]\d", b["features"][0]["properties"].get("t0", ""))]
-    assert len(blocks) == 1
-    assert [f["properties"]["style"]["color"] for f in blocks[0]["features"]] == want
-    # before and after share one colour scale
-    both = np.concatenate([before["hub_minutes"].to_numpy(float), after["hub_minutes"].to_numpy(float)])
-    classes = P.cost_classes(both)
-    nets = [b for b in _geojson_blocks(page) if len(b["features"]) == len(before)
-            and not re.match(r"[+-]\d", b["features"][0]["properties"].get("t0", ""))]
-    assert len(nets) == 2
-    assert [f["properties"]["style"]["color"] for f in nets[0]["features"]] == P.colour_of(before["hub_minutes"], classes)
-    assert [f["properties"]["style"]["color"] for f in nets[1]["features"]] == P.colour_of(after["hub_minutes"], classes)
+# ---------------------------------------------------------------- colours follow the palette
+def test_rings_and_settlements_share_the_travel_classes(page):
+    d = data_of(page)
+    classes = P.travel_classes(MI.THRESHOLDS)
+    rings = layers_of(d, "rings", "today")[0]
+    assert rings["cls"] == [0, 1, 2, 3]
+    assert [s["fc"] for s in rings["styles"]] == [c.colour for c in classes]
+    assert all(s["fo"] == 1 for s in rings["styles"])  # opaque: the rendered colour is the legend's
+    legend = next(g for g in d["groups"] if g["id"] == "rings")["legend"]
+    assert [(e["c"], e["t"]) for e in legend] == [(c.colour, c.label) for c in classes]
+    sett = layers_of(d, "settlements", "today")[0]
+    # minutes 4, 15 (= the bound: within 15), 31, 61.5, none, 88
+    assert sett["cls"] == [0, 0, 2, 3, 4, 3]
+    assert sett["styles"][4]["fc"] == P.NO_VALUE
+    assert col(sett, "min") == [4.0, 15.0, 31.0, 61.5, None, 88.0]
+    pop = np.array([5200, 830, 120, 2400, 35, 610.0])
+    r = np.array(sett["size"])
+    assert np.allclose((r - 3) ** 2 / (r[0] - 3) ** 2, pop / pop.max(), atol=0.01)  # dot area ~ people
+    assert sett["order"] == [0, 3, 1, 5, 2, 4]  # names placed biggest first
+
+
+def test_network_colours_by_cost_at_the_cheaper_end(page):
+    d = data_of(page)
+    net = MI.network()
+    cost = net.link_cost()
+    lay = layers_of(d, "network", "today")[0]
+    classes = P.cost_classes(np.concatenate([cost, MI.scenario().network.link_cost()]))
+    idx = P.classify(cost, classes)
+    want = np.where(idx >= 0, idx, len(classes))
+    assert lay["cls"] == want.tolist()
+    assert [s["c"] for s in lay["styles"][:len(classes)]] == [c.colour for c in classes]
+    assert lay["styles"][len(classes)]["c"] == P.NO_VALUE and lay["styles"][len(classes)]["dash"]
+    # link (2,3)-(3,3) touches the node with no route; its other end has one, so it keeps a colour
+    e = net.edges
+    k = int(np.nonzero((e.from_node == 4 * 3 + 2) & (e.to_node == 4 * 3 + 3))[0][0])
+    assert np.isfinite(cost[k]) and lay["cls"][k] < len(classes)
+    # a link with no hub at either end is drawn "no route"; one not usable for this cost thin and grey
+    c = MI.node_cost()
+    c[[0, 1]] = np.nan
+    ec = MI.network().edge_cost.copy()
+    ec[5] = np.nan
+    d2 = data_of(render_map(MapInput(title="t", network=NetworkLayer(e, c, ec))))
+    lay2 = layers_of(d2, "network")[0]
+    n = len(P.cost_classes(NetworkLayer(e, c).link_cost()))
+    first = int(np.nonzero((e.from_node == 0) & (e.to_node == 1))[0][0])
+    assert lay2["cls"][first] == n and lay2["cls"][5] == n + 1
+    legend = next(g for g in d2["groups"] if g["id"] == "network")["legend"]
+    assert [x["t"] for x in legend[-2:]] == ["no route to a hub", "not used for minutes"]
+
+
+def test_change_uses_its_own_hues(page):
+    d = data_of(page)
+    lay = layers_of(d, "change", "v1")[0]
+    delta = MI.scenario().change["delta"].to_numpy(float)
+    classes = P.change_classes(delta)
+    idx = P.classify(delta, classes)
+    assert lay["cls"] == np.where(idx < 0, len(classes), idx).tolist()
+    net_colours = {s["c"] for s in layers_of(d, "network", "v1")[0]["styles"]}
+    assert not ({c.colour for c in classes} - {P.NEUTRAL}) & net_colours
+    assert P.PATH_COLOUR not in {c.colour for c in classes}
+
+
+# ---------------------------------------------------------------- weak regions: about people
+def test_weak_regions_top_20_with_people_rest_switchable_and_key_links(page):
+    d = data_of(page)
+    weak = MI.weak()
+    pop = weak["population"].to_numpy()
+    top = layers_of(d, "weak_top")
+    fills = [lay for lay in top if lay["type"] == "fill"][0]
+    assert col(fills, "rank") == list(range(1, 21))
+    rest = [lay for lay in layers_of(d, "weak_rest") if lay["type"] == "fill"][0]
+    assert col(rest, "rank") == [int(k) for k in weak["rank"][(pop >= 0.5)][20:]]
+    empty = [lay for lay in layers_of(d, "weak_empty") if lay["type"] == "fill"][0]
+    assert col(empty, "rank") == [int(k) for k in weak["rank"][pop < 0.5]]
+    badges = [lay for lay in top if lay["type"] == "badge"]
+    assert badges[0]["cols"]["rank"] == list(range(1, 21))
+    # reason colours are fixed, whatever reasons occur
+    for lay in (fills, rest, empty):
+        for reason, k in zip(weak.set_index("rank").loc[col(lay, "rank"), "reason"], lay["cls"]):
+            assert lay["styles"][k]["c"] == P.REASON_COLOURS[reason]
+    # each single-link region in the top 20 is keyed to its link, with the people behind it
+    keys = [lay for lay in top if lay["type"] == "line"][0]
+    single = weak[(weak["rank"] <= 20) & (weak["reason"] == "single_link")]
+    assert col(keys, "rank") == [int(k) for k in single["rank"]]
+    assert col(keys, "people") == [int(round(p)) for p in single["population"]]
+    feats = decode_lines(keys["geom"], d["frame"])
+    tr = Transformer.from_crs(MI.CRS, 4326, always_xy=True)
+    for f, eid in zip(feats, single["edge_id"]):
+        line = MI.network().edges.geometry.iloc[int(eid)]
+        lon, lat = tr.transform(*np.array(line.coords).T)
+        assert np.allclose(f[0], np.column_stack([lon, lat]), atol=d["frame"]["step"])
+    # popups: plain words; raw fields stay out of the page
+    assert "entry_x" not in json.dumps(d) and "src_fid" not in json.dumps(d)
+
+
+def test_popups_use_plain_labels_units_and_rounding(page):
+    d = data_of(page)
+    raw = re.compile(r"^[a-z]+(_[a-z0-9]+)+$")
+    for lay in d["layers"]:
+        p = lay.get("popup")
+        if not p:
+            continue
+        for label, key, fmt in p["rows"]:
+            assert not raw.match(label), label
+        for key in lay["cols"]:
+            for v in col(lay, key):
+                if isinstance(v, float):
+                    assert v == round(v, 3), (lay["group"], key, v)
+    sett = layers_of(d, "settlements", "today")[0]
+    assert [r[0] for r in sett["popup"]["rows"]] == ["People", "Minutes to the nearest hub", "Nearest hub",
+                                                     "Along the network"]
+    assert sett["popup"]["rows"][1][2] == {"d": 1, "u": "min", "none": "no hub reachable"}
+
+
+def test_network_issues_off_by_default_and_clustered(page):
+    d = data_of(page)
+    g = next(g for g in d["groups"] if g["id"] == "issues")
+    assert g["on"] is False
+    lay = layers_of(d, "issues")[0]
+    assert lay["type"] == "cluster" and len(lay["geom"]["xy"]) == 2 * 32
+    assert col(lay, "kind")[:1] == ["dead end"] and "crossing kept (bridge or tunnel)" in col(lay, "kind")
+
+
+# ---------------------------------------------------------------- any routing weight
+@pytest.mark.parametrize("unit,name,scale", [("km", "distance", 0.37), ("hops", "hops", 0.25), ("ms", "latency", 40.0)])
+def test_any_cost_unit(unit, name, scale):
+    net = MI.network(MI.node_cost() * scale)
+    m = MI.full(cost_unit=unit, cost_name=name, network=net, scenarios=())
+    d = data_of(render_map(m))
+    g = next(g for g in d["groups"] if g["id"] == "network")
+    assert g["title"] == f"Network: {name} to the nearest hub"
+    labels = [e["t"] for e in g["legend"] if e.get("fam") != "none"]
+    assert all(t.endswith(" " + unit) for t in labels) and not any(t.endswith(" min") for t in labels)
+    lay = layers_of(d, "network", "today")[0]
+    classes = P.cost_classes(net.link_cost(), unit)
+    idx = P.classify(net.link_cost(), classes)
+    assert lay["cls"] == np.where(idx >= 0, idx, len(classes)).tolist()
+    assert lay["popup"]["rows"][0][2]["u"] == unit
+
+
+# ---------------------------------------------------------------- geometry at the map's resolution
+def test_lines_are_simplified_to_the_resolution_and_stay_within_it():
+    # a 20 km line of 20,001 vertices wobbling by 0.2 m: the page keeps a handful of vertices
+    x = np.linspace(0, 20_000, 20_001)
+    y = 0.2 * np.sin(x / 3.0)
+    wobbly = shapely.LineString(np.column_stack([MI.X0 + x, MI.Y0 + y]))
+    zig = shapely.LineString([MI.xy(0, 1), MI.xy(5, 3), MI.xy(10, 1), MI.xy(15, 3), MI.xy(20, 1)])
+    edges = MI.network().edges.iloc[:2].copy()
+    edges = edges.set_geometry([wobbly, zig], crs=MI.CRS)
+    m = MapInput(title="t", network=NetworkLayer(edges, MI.node_cost()))
+    d = data_of(render_map(m))
+    fr = d["frame"]
+    res = fr["res_m"]
+    assert res == pytest.approx(20_000 / MAP_PIXELS, rel=0.05)
+    feats = decode_lines(layers_of(d, "network")[0]["geom"], fr)
+    assert len(feats[0][0]) <= 4 and len(feats[1][0]) == 5
+    back = Transformer.from_crs(4326, MI.CRS, always_xy=True)
+    for f, orig in zip(feats, (wobbly, zig)):
+        line = shapely.LineString(np.column_stack(back.transform(f[0][:, 0], f[0][:, 1])))
+        # Douglas-Peucker bound: within the tolerance, plus one quantisation step (~1.1 m per 1e-5 degree)
+        assert shapely.hausdorff_distance(line, orig) <= res + 2 * fr["step"] * 111_320
+
+
+def test_rings_keep_sharing_edges_after_simplification(page):
+    d = data_of(page)
+    lay = layers_of(d, "rings", "today")[0]
+    g = lay["geom"]
+    pts = decode_points(g, d["frame"])
+    back = Transformer.from_crs(4326, MI.CRS, always_xy=True)
+    x, y = back.transform(pts[:, 0], pts[:, 1])
+    pts = np.column_stack([x, y])
+    rings, k = [], 0
+    for n in g["n"]:
+        rings.append(pts[k:k + n])
+        k += n
+    polys, k = [], 0
+    for r in g["r"]:
+        polys.append(shapely.Polygon(rings[k], rings[k + 1:k + r]))
+        k += r
+    feats, k = [], 0
+    for f in g["f"]:
+        feats.append(shapely.MultiPolygon(polys[k:k + f]))
+        k += f
+    orig = MI.rings().geometry.values
+    for a, b in zip(feats, orig):
+        assert a.symmetric_difference(b).area / b.area < 0.01
+    total = sum(f.area for f in feats)
+    assert shapely.union_all(feats).area == pytest.approx(total, rel=1e-3)  # still disjoint
 
 
 # ---------------------------------------------------------------- deterministic, atomic, bad input
-def test_same_inputs_give_identical_files(tmp_path, layers):
-    a = write_map(tmp_path / "a.html", **_all(layers))
-    b = write_map(tmp_path / "b.html", **_all(layers))
+def test_same_inputs_give_identical_files(tmp_path):
+    a = write_map(tmp_path / "a.html", MI.full())
+    b = write_map(tmp_path / "b.html", MI.full())
     assert a.read_bytes() == b.read_bytes()
-    assert not re.search(r"[0-9a-f]{32}", a.read_text("utf-8").split("</script>", 1)[1])  # no random ids
 
 
-def test_bad_input(tmp_path, layers):
+def test_bad_input(tmp_path):
     with pytest.raises(OptionError, match="nothing to draw"):
-        render_map()
-    with pytest.raises(OptionError, match="not both"):
-        render_map(edges=layers["edges"], comparison=Comparison(layers["edges"], layers["edges"]))
-    with pytest.raises(LayerError, match=r"layer 'edges', field 'hub_minutes': is missing"):
-        render_map(edges=layers["edges"].drop(columns="hub_minutes"))
-    no_crs = layers["hubs"].copy()
-    no_crs = no_crs.set_crs(None, allow_override=True)
+        render_map(MapInput(title="t"))
+    with pytest.raises(OptionError, match="takes a MapInput"):
+        render_map({"title": "t"})
+    no_field = MI.settlements().drop(columns="minutes")
+    with pytest.raises(LayerError, match=r"layer 'settlements', field 'minutes': is missing"):
+        render_map(MI.full(settlements=no_field))
+    no_crs = MI.hubs().set_crs(None, allow_override=True)
     with pytest.raises(CRSError, match="layer 'hubs': has no CRS"):
-        render_map(hubs=no_crs)
+        render_map(MI.full(hubs=no_crs))
     with pytest.raises(OptionError, match="caution line must not be empty"):
-        render_map(hubs=layers["hubs"], caution="  ")
+        render_map(MI.full(caution="  "))
+    with pytest.raises(LayerError, match="node numbers run past"):
+        render_map(MapInput(title="t", network=NetworkLayer(MI.network().edges, np.zeros(3))))
+    with pytest.raises(OptionError, match="given twice"):
+        render_map(MI.full(scenarios=(MI.scenario(), MI.scenario())))
     with pytest.raises(OptionError, match=r"must end in \.html"):
-        write_map(tmp_path / "m.png", hubs=layers["hubs"])
-    p = write_map(tmp_path / "m.html", hubs=layers["hubs"])
+        write_map(tmp_path / "m.png", MI.full())
+    p = write_map(tmp_path / "m.html", MI.full())
     old = p.read_bytes()
     with pytest.raises(OutputExistsError):
-        write_map(p, edges=layers["edges"])
+        write_map(p, MI.full(scenarios=()))
     assert p.read_bytes() == old
     blocker = tmp_path / "file"
     blocker.write_text("x")
     with pytest.raises(OutputError, match="is a file, not a folder"):
-        write_map(blocker / "m.html", hubs=layers["hubs"])
+        write_map(blocker / "m.html", MI.full())
     assert sorted(x.name for x in tmp_path.iterdir()) == ["file", "m.html"]
 
 
-def test_custom_caution_is_shown_escaped(layers):
-    page = render_map(hubs=layers["hubs"], caution="Check <with> the district office & surveys")
-    assert "Check &lt;with&gt; the district office &amp; surveys" in page
+def test_caution_and_title_travel_as_data():
+    m = MI.full(caution="Check <with> the district office & surveys", title="A & B <i>")
+    d = data_of(render_map(m))
+    assert d["caution"] == "Check <with> the district office & surveys" and d["title"] == "A & B <i>"
+    assert data_of(render_map(MI.full()))["caution"] == CAUTION
 
 
-def test_point_layers_are_circles_never_default_markers(layers):
-    """Leaflet's default marker loads an icon image file; every point layer must use circle markers."""
-    before, after, _ = sample_comparison(layers["edges"])
-    pts = layers["hubs"][["name", "geometry"]].assign(delta_minutes=[-3.0, 0.0, 7.0])
-    page = render_map(issues=layers["issues"], comparison=Comparison(before, after, pts))
-    assert page.count("new L.CircleMarker(") == 2
-    assert "new L.Marker(" not in page and "L.marker(" not in page.split("Leaflet 1.9.4", 1)[1].split("</script>", 1)[1]
-    assert 'gr-sw-point" style="background:' in page  # the change legend shows point swatches
+# ---------------------------------------------------------------- through the pipeline (the adapter in pipeline._write_map)
+@pytest.mark.parametrize("weight,unit,name", [("minutes", "min", "minutes"), ("length_m", "km", "distance")])
+def test_a_study_run_writes_the_map_and_the_rings(tmp_path, weight, unit, name):
+    import geopandas as gpd
+    import pyogrio
+
+    from geo_reach.pipeline import run_study
+    from geo_reach.study import load_study
+
+    sys.path.insert(0, str(Path(__file__).parent / "studykit"))
+    sys.path.insert(0, str(Path(__file__).parent))
+    from studykit import write_study
+
+    path = write_study(tmp_path / "s")
+    hubs = gpd.read_file(tmp_path / "s" / "hubs.geojson")
+    hubs["name"] = ["{{ 7*7 }} {% raw %}", "<script>alert(7)</script> ${7*7}"]
+    hubs.to_file(tmp_path / "s" / "hubs.geojson")
+    text = path.read_text().replace('title = "Grid town"', 'title = "{{ 7*7 }} <b>town</b> ${7*7}"')
+    text = text.replace('kind_field = "kind"\n', 'kind_field = "kind"\nname_field = "name"\n', 1)
+    path.write_text(text.replace("[metrics]", f'[routing]\nweight = "{weight}"\n\n[metrics]'))
+    out = tmp_path / "out"
+    run_study(load_study(path), out)
+    page = (out / "map.html").read_bytes().decode("utf-8")   # as written (the vendored CSS has CRLF lines)
+    assert _outside_data(page) == _outside_data(render_map(MI.full()))   # the fixed page, whatever the study
+    d = data_of(page)
+    assert d["title"] == "{{ 7*7 }} <b>town</b> ${7*7}"
+    assert set(col(layers_of(d, "hubs")[0], "name")) == set(hubs["name"])
+    assert [v["name"] for v in d["views"]] == ["Today", "With far_link", "With new_clinic"]
+    g = next(g for g in d["groups"] if g["id"] == "network")
+    assert g["title"] == f"Network: {name} to the nearest hub"
+    assert all(e["t"].endswith(" " + unit) for e in g["legend"] if e.get("fam") != "none")
+    # the network is coloured for this weight: some links have a cost class (not all "no route")
+    net = layers_of(d, "network", "today")[0]
+    assert sum(c < len(g["legend"]) - 2 for c in net["cls"]) > 0.9 * len(net["cls"])
+    # rings in the GeoPackage, disjoint, with their bounds; the scenario's own rings too
+    layers = set(pyogrio.list_layers(out / "results.gpkg")[:, 0])
+    assert {"reach_rings", "reach_bands", "far_link_reach_rings"} <= layers
+    rings = gpd.read_file(out / "results.gpkg", layer="reach_rings")
+    assert rings["from_minutes"].tolist()[:3] == [0.0, 15.0, 30.0] and rings["to_minutes"].tolist()[:3] == [15, 30, 60]
+    assert shapely.union_all(rings.geometry.values).area == pytest.approx(rings.geometry.area.sum(), rel=1e-9)
+    assert (out / "results.reach_rings.sld").exists()
+    assert {lay["view"] for lay in layers_of(d, "rings")} == {"today", "v1", "v2"}
+    proposed = layers_of(d, "proposed")
+    assert [lay["view"] for lay in proposed] == ["v1"]
+
+
+def test_a_single_link_region_without_its_link_is_drawn_without_a_key():
+    import pandas as pd
+
+    weak = MI.weak()
+    ids = [None if k in (0, 3) else v for k, v in enumerate(weak["edge_id"])]
+    weak["edge_id"] = pd.array(ids, dtype="Int64")
+    d = data_of(render_map(MI.full(weak=weak, scenarios=())))
+    keys = [lay for lay in layers_of(d, "weak_top") if lay["type"] == "line"][0]
+    single = weak[(weak["rank"] <= 20) & (weak["reason"] == "single_link") & weak["edge_id"].notna()]
+    assert col(keys, "rank") == [int(k) for k in single["rank"]] and 1 not in col(keys, "rank")

@@ -22,7 +22,8 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parent))
 from helpers.routing_nets import binary_tree, cycle, grid, random_network  # noqa: E402
 
-from geo_reach.analysis.profile import (classify_growth, plot_profile, profile_steps,  # noqa: E402
+from geo_reach.export.charts import plot_profile  # noqa: E402
+from geo_reach.analysis.profile import (classify_growth, profile_steps,  # noqa: E402
                                         random_sources, reach_profile, sample_profile)
 from geo_reach.analysis.routing import one_to_all  # noqa: E402
 from geo_reach.errors import InputError, OptionError  # noqa: E402
@@ -84,7 +85,7 @@ def test_default_and_custom_steps():
     p = reach_profile(net, 0, "minutes", step=5.0)
     assert p.cost.tolist() == [5.0, 10.0, 15.0, 20.0]
     assert reach_profile(net, 0, "hops").cost.tolist() == [1, 2, 3, 4, 5, 6, 7, 8]
-    with pytest.raises(OptionError, match="--steps or --step"):
+    with pytest.raises(OptionError, match="steps and step: give one of them"):
         profile_steps("minutes", 10.0, steps=3, step=1.0)
     with pytest.raises(OptionError, match="positive"):
         reach_profile(net, 0, "minutes", step=-1.0)

@@ -140,6 +140,25 @@ def test_weak_regions_layout():
     assert nohub.population == pytest.approx(pop[inside].sum())
 
 
+def test_weak_regions_ranked_by_people_then_minutes():
+    net, cost = _layout()
+    gr = grid(20, 10)
+    surf = compute_surface(net, cost, np.where(np.isfinite(cost), 0, -1), gr, walk_kmh=5.0)
+    for pop in (np.arange(200, dtype=float).reshape(10, 20) % 7, np.zeros((10, 20)), np.ones((10, 20))):
+        reg = weak_regions(surf.minutes, surf.entry_node, gr, net, cost, [0], threshold_minutes=8.0, population=pop)
+        key = list(zip(-reg.population.to_numpy(), -np.nan_to_num(reg.mean_minutes.to_numpy(), nan=np.inf),
+                       -reg.area_km2.to_numpy()))
+        assert key == sorted(key)                       # people, then longer trips (none = longest), then area
+        assert list(reg["rank"]) == list(range(1, len(reg) + 1))
+    # nobody lives anywhere: the order is by minutes alone, the region no hub reaches first
+    none = weak_regions(surf.minutes, surf.entry_node, gr, net, cost, [0], threshold_minutes=8.0,
+                        population=np.zeros((10, 20)))
+    m = none.mean_minutes.to_numpy()
+    assert np.isnan(m[: np.isnan(m).sum()]).all()
+    fin = m[np.isfinite(m)]
+    assert (np.diff(fin) <= 1e-9).all()
+
+
 def test_weak_regions_refusals():
     net, cost = _layout()
     gr = grid(20, 10)

@@ -226,7 +226,7 @@ def kit_run(tmp_path_factory):
              "\n[outputs]\nmap = false\nprofile_png = false\n")
     p = write_study(d, extra=extra)
     out = d / "out"
-    run_study(load_study(p), out, progress=False, log=lambda *a: None)
+    run_study(load_study(p), out)
     return out
 
 
@@ -248,7 +248,7 @@ def test_pipeline_added_road_never_slower_and_closure_never_faster(kit_run):
 
     out = kit_run
     base_edges = gpd.read_file(out / "results.gpkg", layer="edges")
-    base_key = {shapely.normalize(g).wkb: m for g, m in zip(base_edges.geometry, base_edges["hub_minutes"])}
+    base_key = {shapely.normalize(g).wkb: m for g, m in zip(base_edges.geometry, base_edges["hub_cost"])}
     add = _raster(out / "delta_minutes_far_link.tif")
     shut = _raster(out / "delta_minutes_shut.tif")
     assert np.isfinite(add).any() and np.isfinite(shut).any()
@@ -258,7 +258,7 @@ def test_pipeline_added_road_never_slower_and_closure_never_faster(kit_run):
     assert np.nanmax(shut) > 0.1
     for name, sign in (("far_link", -1), ("shut", 1)):
         s = gpd.read_file(out / "results.gpkg", layer=f"{name}_settlements")
-        d = s["delta_minutes"].dropna().to_numpy()
+        d = s["hub_minutes_change"].dropna().to_numpy()
         assert len(d)
         assert (sign * d >= -1e-6).all(), (name, d)
         # Edges, like for like: each edge in the change layer against the baseline edge of the same
@@ -268,13 +268,13 @@ def test_pipeline_added_road_never_slower_and_closure_never_faster(kit_run):
         e = gpd.read_file(out / "results.gpkg", layer=f"{name}_edge_change")
         keys = [shapely.normalize(g).wkb for g in e.geometry]
         same = np.array([k in base_key for k in keys], dtype=bool)
-        after = e["minutes_after"].to_numpy()[same]
+        after = e["hub_cost_after"].to_numpy()[same]
         before = np.array([base_key[k] for k, s_ in zip(keys, same) if s_])
         assert (sign * (after - before) >= -1e-6).all(), (name, after - before)
         if name == "shut":
             assert same.all() and len(e) > 0
         else:
-            assert (~same).sum() == 1 and np.isnan(e["minutes_before"].to_numpy()[~same]).all()  # the new road
+            assert (~same).sum() == 1 and np.isnan(e["hub_cost_before"].to_numpy()[~same]).all()  # the new road
     summary = json.loads((out / "summary.json").read_text())
     assert summary["scenarios"]["shut"]["person_minutes_saved"] <= 1e-6
     assert summary["scenarios"]["far_link"]["person_minutes_saved"] >= -1e-6

@@ -93,8 +93,8 @@ def test_nodes_layer_merges_build_access_and_metrics(ran):
 
     _, out, _ = ran
     n = gpd.read_file(out / "results.gpkg", layer="nodes")
-    for f in ("node_id", "degree", "component", "entry", "nearest_hub", "hub_minutes", "nearest_clinic",
-              "clinic_minutes", "nearest_market", "market_minutes", "eccentricity", "closeness"):
+    for f in ("node_id", "degree", "component", "entry", "nearest_hub", "hub_cost", "nearest_hub_clinic",
+              "hub_cost_clinic", "nearest_hub_market", "hub_cost_market", "eccentricity", "closeness"):
         assert f in n.columns, f
 
 
@@ -232,12 +232,12 @@ def test_closure_change_layer_has_nothing_faster(tmp_path):
     code, _, err = cli("run", p, "-o", tmp_path / "o", "--quiet")
     assert code == 0, err
     ch = gpd.read_file(tmp_path / "o" / "results.gpkg", layer="shut_edge_change")
-    d = ch["delta_minutes"].dropna().to_numpy()
+    d = ch["hub_cost_change"].dropna().to_numpy()
     assert len(d) > 0 and (d >= -1e-9).all()
     import pyogrio
 
     if "detour_edge_change" in pyogrio.list_layers(tmp_path / "o" / "results.gpkg")[:, 0]:
-        d2 = gpd.read_file(tmp_path / "o" / "results.gpkg", layer="detour_edge_change")["delta_minutes"].dropna()
+        d2 = gpd.read_file(tmp_path / "o" / "results.gpkg", layer="detour_edge_change")["hub_cost_change"].dropna()
         assert (d2.to_numpy() >= -1e-9).all()
 
 
@@ -263,5 +263,12 @@ def test_a_zero_speed_in_a_line_table_is_refused(tmp_path):
 def test_a_folder_with_other_files_is_never_replaced(tmp_path):
     p = write_study(tmp_path, proposal=False)
     before = sorted(f.name for f in tmp_path.iterdir())
-    one_line_error(["run", p, "-o", tmp_path, "--overwrite"], "not empty")
+    # the folder holding the study and its inputs: refused as holding inputs
+    one_line_error(["run", p, "-o", tmp_path, "--overwrite"], "would hold the input")
     assert sorted(f.name for f in tmp_path.iterdir()) == before
+    # a folder of someone else's files: refused, naming them
+    other = tmp_path / "other"
+    other.mkdir()
+    (other / "notes.txt").write_text("mine")
+    one_line_error(["run", p, "-o", other, "--overwrite"], "geo-reach did not write (notes.txt)")
+    assert [f.name for f in other.iterdir()] == ["notes.txt"]

@@ -16,6 +16,7 @@ import pandas as pd
 
 from ..errors import LayerError
 from .attach import attach_points
+from .options import RoutingOptions
 from .routing import nearest_hub
 
 __all__ = ["HubAccess", "hub_access", "kind_name"]
@@ -38,18 +39,21 @@ class HubAccess:
     Attributes
     ----------
     node_fields : dict of str to ndarray, each shape (n_nodes,)
-        ``nearest_hub`` and ``hub_<weight>`` for all hubs, then
-        ``nearest_<kind>`` and ``<kind>_<weight>`` per kind (nulls where no
-        hub is reachable).
+        ``nearest_hub`` and ``hub_cost`` for all hubs, then
+        ``nearest_hub_<kind>`` and ``hub_cost_<kind>`` per kind (nulls where
+        no hub is reachable).  Costs are in the weight's unit (``weight``).
     node_cost : ndarray of float64, shape (n_nodes,)
         Cost to the nearest hub of any kind (NaN = none reachable).
     node_hub : ndarray of int64, shape (n_nodes,)
         0-based index of that hub (-1 = none).
     kind_costs : dict of kind to (cost, hub index) arrays
     hubs : pandas.DataFrame, one row per hub
-        ``hub_id``, ``kind`` (when kinds are given), ``attached``,
-        ``access_m``, ``served_nodes``, ``served_length_m``, ``component``,
-        ``alone``.
+        ``hub_id``, ``kind`` (when kinds are given), ``joined`` (1 when the
+        hub joins the network within reach), ``access_m``, ``served_nodes``,
+        ``served_length_m``, ``component``, ``isolated`` (1 when the hub's
+        component holds no other hub and is not the largest).
+    weight : Weight
+        The weight of every cost here.
     notes : list of str
         What was left out or is suspect (hubs beyond reach, hubs alone in a
         component, nodes reaching no hub).
@@ -60,6 +64,7 @@ class HubAccess:
     node_hub: np.ndarray
     kind_costs: dict
     hubs: pd.DataFrame
+    weight: object = None
     notes: list = field(default_factory=list)
 
 
@@ -72,8 +77,7 @@ def _id_column(values, present):
     return pd.Series(np.where(present, vals, None), dtype=object).to_numpy()
 
 
-def hub_access(network, xy, ids, kinds=None, weight: str = "minutes", direction: str = "to-hub", *,
-               max_access_m: float = 5000.0, walk_kmh: float = 5.0) -> HubAccess:
+def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = None) -> HubAccess:
     """Nearest hub and cost for every node, for all hubs and per hub kind.
 
     Parameters
@@ -85,9 +89,8 @@ def hub_access(network, xy, ids, kinds=None, weight: str = "minutes", direction:
         Hub ids (written in ``nearest_*`` fields).
     kinds : array_like of str, shape (n_hubs,), optional
         Hub kinds; each kind gets its own pair of fields.
-    weight, direction, max_access_m, walk_kmh
-        As in :func:`geo_reach.analysis.routing.nearest_hub` and
-        :func:`geo_reach.analysis.attach.attach_points`.
+    options : RoutingOptions, optional
+        Weight, direction and the walk to the network (defaults if not given).
 
     Returns
     -------
@@ -99,6 +102,8 @@ def hub_access(network, xy, ids, kinds=None, weight: str = "minutes", direction:
         Two kinds would give the same field name.
     """
     net = network
+    opt = options if options is not None else RoutingOptions()
+    weight = opt.weight
     ids = np.asarray(ids, dtype=object)
     n_hub = len(ids)
     groups = [(None, np.arange(n_hub))]
@@ -120,13 +125,13 @@ def hub_access(network, xy, ids, kinds=None, weight: str = "minutes", direction:
     node_cost = node_hub = None
     kind_costs = {}
     for name, members in groups:
-        att = attach_points(net, xy[members], weight, max_access_m=max_access_m, walk_kmh=walk_kmh)
-        cost, hub = nearest_hub(net, att, weight, direction)
+        att = attach_points(net, xy[members], weight, max_access_m=opt.max_access_m, walk_kmh=opt.walk_kmh)
+        cost, hub = nearest_hub(net, att, weight, opt.direction)
         has = (hub >= 0) & np.isfinite(cost)
         cost = np.where(has, cost, np.nan)
         hub_all = np.where(has, members[np.maximum(hub, 0)], -1)
-        col_id = "nearest_hub" if name is None else f"nearest_{name}"
-        col_cost = f"hub_{weight}" if name is None else f"{name}_{weight}"
+        col_id = "nearest_hub" if name is None else f"nearest_hub_{name}"
+        col_cost = "hub_cost" if name is None else f"hub_cost_{name}"
         per_node = np.empty(net.n_nodes, dtype=object)
         per_node[has] = ids[hub_all[has]]
         fields[col_id] = _id_column(per_node, has)
@@ -145,8 +150,8 @@ def hub_access(network, xy, ids, kinds=None, weight: str = "minutes", direction:
             if len(left):
                 sample = ", ".join(f"id {ids[i]} ({att.access_m[i]:,.0f} m)" if np.isfinite(att.access_m[i])
                                    else f"id {ids[i]} (no network to join)" for i in left[:3])
-                notes.append(f"{len(left)} hubs farther than --max-access-m {max_access_m:g} m from the network "
-                             f"are left out: {sample}{' ...' if len(left) > 3 else ''}")
+                notes.append(f"{len(left)} hubs farther than the largest access distance ({opt.max_access_m:g} m) "
+                             f"from the network are left out: {sample}{' ...' if len(left) > 3 else ''}")
         else:
             kind_costs[name] = (cost, hub_all)
         unreached = int((~has).sum())
@@ -170,11 +175,11 @@ def hub_access(network, xy, ids, kinds=None, weight: str = "minutes", direction:
     data = {"hub_id": ids}
     if kinds is not None:
         data["kind"] = kinds
-    data.update({"attached": attached.astype(np.int32),
+    data.update({"joined": attached.astype(np.int32),
                  "access_m": np.where(np.isfinite(access_m), access_m, np.nan),
                  "served_nodes": served_nodes, "served_length_m": served_len,
-                 "component": comp, "alone": alone.astype(np.int32)})
+                 "component": comp, "isolated": alone.astype(np.int32)})
     frame = pd.DataFrame(data)
     if all(isinstance(v, (int, np.integer)) for v in ids):
         frame["hub_id"] = frame["hub_id"].astype(np.int64)
-    return HubAccess(fields, node_cost, node_hub, kind_costs, frame, notes)
+    return HubAccess(fields, node_cost, node_hub, kind_costs, frame, weight, notes)

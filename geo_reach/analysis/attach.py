@@ -54,7 +54,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import OptionError
-from ..network.model import WEIGHTS, Network
+from ..network.model import Network
+from ..network.weights import Weight, as_weight
 
 __all__ = ["Attachment", "attach_points", "walk_cost"]
 
@@ -76,14 +77,14 @@ EXTRA_WALK_M = 1000.0
 _TREES: "weakref.WeakKeyDictionary[Network, dict]" = weakref.WeakKeyDictionary()
 
 
-def walk_cost(walk_m, weight: str, walk_kmh: float) -> np.ndarray:
-    """Cost of an off-network access leg.
+def walk_cost(walk_m, weight: Weight | str, walk_kmh: float) -> np.ndarray:
+    """Cost of an off-network access leg (see :meth:`Weight.walk_cost`).
 
     Parameters
     ----------
     walk_m : array_like of float
         Leg length in metres.
-    weight : {'minutes', 'length_m', 'latency_ms', 'hops'}
+    weight : Weight or str
     walk_kmh : float
         Off-network speed, km/h (5 km/h is common practice for walking).
 
@@ -99,14 +100,7 @@ def walk_cost(walk_m, weight: str, walk_kmh: float) -> np.ndarray:
     >>> float(walk_cost(500.0, "hops", 5.0))
     0.0
     """
-    walk_m = np.asarray(walk_m, dtype=np.float64)
-    if weight == "minutes":
-        return walk_m / (walk_kmh * 1000.0 / 60.0)
-    if weight == "length_m":
-        return walk_m.copy()
-    if weight in ("hops", "latency_ms"):
-        return np.zeros_like(walk_m)
-    raise OptionError(f"unknown weight '{weight}'; choose one of {', '.join(WEIGHTS)}")
+    return as_weight(weight).walk_cost(walk_m, walk_kmh)
 
 
 @dataclass(frozen=True, eq=False)
@@ -115,7 +109,7 @@ class Attachment:
 
     Attributes
     ----------
-    weight : str
+    weight : Weight
         The weight the legs were chosen for (edges without it are not entered).
     walk_kmh, max_access_m : float
         Off-network speed (km/h) and the largest access distance (m).
@@ -137,7 +131,7 @@ class Attachment:
         Length of the off-network access leg in metres.
     """
 
-    weight: str
+    weight: Weight
     walk_kmh: float
     max_access_m: float
     point_xy: np.ndarray
@@ -197,7 +191,7 @@ class Attachment:
             raise OptionError(f"unknown role '{role}'; choose 'leave' or 'arrive'")
         nleg = len(self.leg_point)
         legs = np.arange(nleg)
-        walk = walk_cost(self.leg_walk_m, self.weight, self.walk_kmh)
+        walk = self.weight.walk_cost(self.leg_walk_m, self.walk_kmh)
         is_edge = self.leg_edge >= 0
         e = self.leg_edge[is_edge]
         c = network.cost(self.weight)[e]
@@ -240,13 +234,13 @@ class Attachment:
         return out
 
 
-def _entry_places(network: Network, weight: str) -> dict:
+def _entry_places(network: Network, weight: Weight) -> dict:
     """Spatial indexes of the places points may join on ``weight`` (cached per network and weight)."""
     import shapely
     from scipy.spatial import cKDTree
 
     per_net = _TREES.setdefault(network, {})
-    if weight not in per_net:
+    if weight.name not in per_net:
         cost = network.cost(weight)
         mode = network.edge_mode.astype(str)
         routable = ~np.isnan(cost)
@@ -255,7 +249,7 @@ def _entry_places(network: Network, weight: str) -> dict:
         nodes = np.unique(np.concatenate([network.edge_from[other], network.edge_to[other]]))
         nodes = nodes[network.node_entry[nodes]]
         main = along[network.component[network.edge_from[along]] == 0]
-        per_net[weight] = {
+        per_net[weight.name] = {
             "along": along,
             "tree": shapely.STRtree(network.edge_geometry[along]) if len(along) else None,
             "main": main,
@@ -263,10 +257,10 @@ def _entry_places(network: Network, weight: str) -> dict:
             "nodes": nodes,
             "kd": cKDTree(np.column_stack([network.node_x[nodes], network.node_y[nodes]])) if len(nodes) else None,
         }
-    return per_net[weight]
+    return per_net[weight.name]
 
 
-def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m: float = 5000.0,
+def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max_access_m: float = 5000.0,
                   walk_kmh: float = 5.0, extra_walk_m: float = EXTRA_WALK_M) -> Attachment:
     """Find where each point may join the network.
 
@@ -275,7 +269,7 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
     network : Network
     xy : array_like of float, shape (n_points, 2)
         Point coordinates in the network's working CRS (metres).
-    weight : {'minutes', 'length_m', 'latency_ms', 'hops'}
+    weight : Weight or {'minutes', 'length_m', 'latency_ms', 'hops'}
         Edges without a value for it are not entered.
     max_access_m : float, default 5000
         Largest straight-line access distance, metres.
@@ -307,11 +301,11 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
     """
     import shapely
 
+    weight = as_weight(weight)
     if not np.isfinite(max_access_m) or max_access_m < 0:
-        raise OptionError(f"--max-access-m {max_access_m}: must be zero or more metres")
+        raise OptionError(f"max_access_m {max_access_m}: must be zero or more metres", key="max_access_m")
     if not np.isfinite(walk_kmh) or walk_kmh <= 0:
-        raise OptionError(f"--walk-kmh {walk_kmh}: must be a positive speed in km/h")
-    network.cost(weight)  # validates the weight
+        raise OptionError(f"walk_kmh {walk_kmh}: must be a positive speed in km/h", key="walk_kmh")
     xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
     p = len(xy)
     places = _entry_places(network, weight)
@@ -388,7 +382,7 @@ def attach_points(network: Network, xy, weight: str = "minutes", *, max_access_m
     if main_leg.any():
         np.minimum.at(first_main, leg_point[main_leg], leg_walk[main_leg])
     keep &= (leg_walk <= access[leg_point] + extra_walk_m) | (main_leg & (leg_walk <= first_main[leg_point] + TIE_M))
-    if not np.any(walk_cost(np.array([1.0]), weight, walk_kmh) > 0):
+    if not weight.walk_costed:
         keep &= leg_walk <= access[leg_point] + TIE_M   # free walking: the nearest entries only
     order = np.argsort(leg_point[keep], kind="stable")
     leg_point, leg_edge, leg_node, leg_frac, leg_walk = (a[keep][order] for a in

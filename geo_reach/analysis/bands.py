@@ -27,6 +27,7 @@ from ..errors import CRSError, InputError, OptionError
 __all__ = [
     "parse_thresholds",
     "band_polygons",
+    "ring_polygons",
     "PopulationStats",
     "population_stats",
     "ZoneSummary",
@@ -119,10 +120,10 @@ def band_polygons(minutes, nearest_hub, grid, thresholds, population=None, hub_i
     geopandas.GeoDataFrame
         One row per band for all hubs together (``hub_id`` null, cells
         dissolved), then one per band and hub reaching any cell within it.
-        Fields: ``band_minutes`` (float, minutes), ``hub_id`` (nullable),
+        Fields: ``within_minutes`` (float, minutes), ``hub_id`` (nullable),
         ``area_km2``, ``population`` (people; NaN without a population
         raster), geometry (MultiPolygon, grid CRS).  A band holds every cell
-        with ``minutes <= band_minutes``.
+        with ``minutes <= within_minutes``.
 
     Notes
     -----
@@ -148,22 +149,98 @@ def band_polygons(minutes, nearest_hub, grid, thresholds, population=None, hub_i
         if not within.any():
             continue
         combined = _polygons_by_value(within.astype(np.uint8), within, grid.transform)
-        rows.append({"band_minutes": t, "hub_id": None, "area_km2": within.sum() * cell_km2,
+        rows.append({"within_minutes": t, "hub_id": None, "area_km2": within.sum() * cell_km2,
                      "population": float(pop[within].sum()) if pop is not None else np.nan,
                      "geometry": combined[1]})
         per = _polygons_by_value(np.where(within, hub, 0).astype(np.int32), within & (hub > 0), grid.transform)
         counts = np.bincount(hub[within], minlength=n_hubs + 1)
         people = np.bincount(hub[within], weights=pop[within], minlength=n_hubs + 1) if pop is not None else None
         for h in sorted(per):
-            rows.append({"band_minutes": t, "hub_id": ids[h - 1], "area_km2": counts[h] * cell_km2,
+            rows.append({"within_minutes": t, "hub_id": ids[h - 1], "area_km2": counts[h] * cell_km2,
                          "population": float(people[h]) if people is not None else np.nan,
                          "geometry": per[h]})
-    frame = pd.DataFrame(rows, columns=["band_minutes", "hub_id", "area_km2", "population", "geometry"])
-    frame["band_minutes"] = frame["band_minutes"].astype(np.float64)
+    frame = pd.DataFrame(rows, columns=["within_minutes", "hub_id", "area_km2", "population", "geometry"])
+    frame["within_minutes"] = frame["within_minutes"].astype(np.float64)
     frame["area_km2"] = frame["area_km2"].astype(np.float64)
     frame["population"] = frame["population"].astype(np.float64)
     if all(isinstance(i, (int, np.integer)) for i in ids):
         frame["hub_id"] = frame["hub_id"].astype("Int64")
+    return gpd.GeoDataFrame(frame, geometry="geometry", crs=grid.crs)
+
+
+def ring_polygons(minutes, grid, thresholds, population=None, passable=None):
+    """Disjoint reach rings (layer ``reach_rings``): within the first threshold, between each pair, beyond the last.
+
+    Where :func:`band_polygons` gives nested bands (the 60-minute band holds
+    the 30-minute one), each cell here lies in exactly one ring, so the rings
+    can be drawn side by side and their people add up to the total.
+
+    Parameters
+    ----------
+    minutes : ndarray of float64, shape ``grid.shape``
+        Minutes to the nearest hub; NaN = none reachable.
+    grid : Grid
+    thresholds : sequence of str or number
+        Band limits, minutes.
+    population : ndarray of float64, shape ``grid.shape``, optional
+        People per cell.
+    passable : ndarray of bool, shape ``grid.shape``, optional
+        Cells one can be in; impassable cells (open water, barriers) belong
+        to no ring.  Without it, every cell belongs to one.
+
+    Returns
+    -------
+    geopandas.GeoDataFrame
+        One row per ring holding any cell, nearest first.  Fields:
+        ``from_minutes`` (float, exclusive lower bound; 0 for the first ring,
+        whose cells have ``0 <= minutes <= to_minutes``), ``to_minutes``
+        (float, inclusive upper bound; null for the last ring, which also
+        holds the passable cells no hub reaches), ``area_km2``,
+        ``population`` (people; NaN without a population raster), geometry
+        (MultiPolygon, grid CRS).
+
+    Notes
+    -----
+    A cell with ``minutes == t`` is within ``t``, as for the bands and the
+    population counts (:func:`population_stats`), so the ring populations
+    are the differences of the band populations.  One
+    :func:`rasterio.features.shapes` pass over the grid.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from geo_reach.ingest.rasters import Grid
+    >>> g = Grid.from_bounds((0, 0, 3000, 1000), 1000.0, 0.0, crs="EPSG:32633")
+    >>> r = ring_polygons(np.array([[10.0, 30.0, np.nan]]), g, [30, 60])
+    >>> r[["from_minutes", "to_minutes", "area_km2"]].to_numpy().tolist()
+    [[0.0, 30.0, 2.0], [60.0, nan, 1.0]]
+    """
+    import geopandas as gpd
+
+    _check_shapes(grid, minutes=minutes, population=population, passable=passable)
+    keys = parse_thresholds(thresholds)
+    minutes = np.asarray(minutes, dtype=np.float64)
+    pop = None if population is None else np.where(np.isfinite(population), population, 0.0)
+    ring = np.full(grid.shape, len(keys), dtype=np.int32)          # beyond the last, or unreachable
+    with np.errstate(invalid="ignore"):
+        for i in range(len(keys) - 1, -1, -1):
+            ring[minutes <= keys[i][1]] = i
+    inside = np.ones(grid.shape, bool) if passable is None else np.asarray(passable, dtype=bool)
+    polys = _polygons_by_value(ring + 1, inside, grid.transform)   # labels from 1: 0 is never a ring
+    counts = np.bincount((ring + 1)[inside], minlength=len(keys) + 2)
+    people = (np.bincount((ring + 1)[inside], weights=pop[inside], minlength=len(keys) + 2)
+              if pop is not None else None)
+    rows = []
+    for k in sorted(polys):
+        i = k - 1
+        rows.append({"from_minutes": keys[i - 1][1] if i > 0 else 0.0,
+                     "to_minutes": keys[i][1] if i < len(keys) else np.nan,
+                     "area_km2": counts[k] * grid.cell_area_km2,
+                     "population": float(people[k]) if people is not None else np.nan,
+                     "geometry": polys[k]})
+    frame = pd.DataFrame(rows, columns=["from_minutes", "to_minutes", "area_km2", "population", "geometry"])
+    for c in ("from_minutes", "to_minutes", "area_km2", "population"):
+        frame[c] = frame[c].astype(np.float64)
     return gpd.GeoDataFrame(frame, geometry="geometry", crs=grid.crs)
 
 

@@ -31,7 +31,8 @@ from scipy.sparse.csgraph import connected_components
 
 from ..errors import OptionError
 from ..network.model import Network
-from .routing import _check_weight, _Graph, _search
+from ..network.weights import Weight, as_weight
+from .routing import _Graph, _search
 
 __all__ = [
     "Diameter", "MeanPath", "ComponentCounts",
@@ -44,8 +45,8 @@ __all__ = [
 EXACT_MAX_NODES = 5000
 
 
-def _matrix(network: Network, weight: str) -> sp.csr_array:
-    return network.csr(_check_weight(weight)).matrix
+def _matrix(network: Network, weight: Weight | str) -> sp.csr_array:
+    return network.csr(weight).matrix
 
 
 def _rows(m: sp.csr_array, sources, budget: float = 1e7):
@@ -81,7 +82,7 @@ class ComponentCounts:
     largest_strong_component_nodes: int
 
 
-def largest_strong_component(network: Network, weight: str = "minutes") -> np.ndarray:
+def largest_strong_component(network: Network, weight: Weight | str = "minutes") -> np.ndarray:
     """Node ids (sorted) of the largest strongly connected component on ``weight``.
 
     Ties in size go to the component holding the smallest node id.
@@ -97,7 +98,7 @@ def largest_strong_component(network: Network, weight: str = "minutes") -> np.nd
     return np.nonzero(labels == best)[0].astype(np.int64)
 
 
-def component_counts(network: Network, weight: str = "minutes") -> ComponentCounts:
+def component_counts(network: Network, weight: Weight | str = "minutes") -> ComponentCounts:
     """Weak and strong component figures (see :class:`ComponentCounts`)."""
     comp = network.component
     largest = int(np.sum(comp == 0)) if network.n_nodes else 0
@@ -149,7 +150,7 @@ def _is_symmetric(m: sp.csr_array) -> bool:
             and np.array_equal(m.data, t.data))
 
 
-def diameter(network: Network, weight: str = "minutes") -> Diameter:
+def diameter(network: Network, weight: Weight | str = "minutes") -> Diameter:
     """Exact weighted diameter of the largest strongly connected component, with eccentricity bounds.
 
     Parameters
@@ -261,7 +262,7 @@ def diameter(network: Network, weight: str = "minutes") -> Diameter:
     return Diameter(float(value), int(nodes[a]), int(nodes[b]), runs, nodes[np.array(path, dtype=np.int64)])
 
 
-def diameter_brute_force(network: Network, weight: str = "minutes") -> float:
+def diameter_brute_force(network: Network, weight: Weight | str = "minutes") -> float:
     """Reference: the largest finite cost over all pairs of the largest strong component (one run per node)."""
     nodes = largest_strong_component(network, weight)
     if len(nodes) <= 1:
@@ -293,7 +294,7 @@ class MeanPath:
     sources: int
 
 
-def mean_path(network: Network, weight: str = "minutes", *, exact: bool | None = None, samples: int = 200,
+def mean_path(network: Network, weight: Weight | str = "minutes", *, exact: bool | None = None, samples: int = 200,
               seed: int = 0, exact_max_nodes: int = EXACT_MAX_NODES) -> MeanPath:
     """Mean least-cost trip over ordered pairs of distinct nodes in the largest strong component.
 
@@ -372,7 +373,7 @@ def _harmonic_sums(m: sp.csr_array, sources):
     return np.concatenate(sums) if sums else np.zeros(0), np.concatenate(ecc) if ecc else np.zeros(0)
 
 
-def global_efficiency(network: Network, weight: str = "minutes") -> float:
+def global_efficiency(network: Network, weight: Weight | str = "minutes") -> float:
     """Global efficiency: mean of 1/cost over ordered pairs of distinct nodes of the whole network.
 
     Parameters
@@ -404,7 +405,7 @@ def global_efficiency(network: Network, weight: str = "minutes") -> float:
     return float(sums.sum() / (n * (n - 1)))
 
 
-def node_centrality(network: Network, weight: str = "minutes"):
+def node_centrality(network: Network, weight: Weight | str = "minutes"):
     """Per-node eccentricity and harmonic closeness in one all-pairs sweep.
 
     Returns
@@ -436,17 +437,17 @@ def node_centrality(network: Network, weight: str = "minutes"):
     return np.maximum(ecc, 0.0), (sums / (n - 1) if n > 1 else np.zeros(n))
 
 
-def eccentricity(network: Network, weight: str = "minutes") -> np.ndarray:
+def eccentricity(network: Network, weight: Weight | str = "minutes") -> np.ndarray:
     """Per-node eccentricity (see :func:`node_centrality`)."""
     return node_centrality(network, weight)[0]
 
 
-def closeness(network: Network, weight: str = "minutes") -> np.ndarray:
+def closeness(network: Network, weight: Weight | str = "minutes") -> np.ndarray:
     """Per-node harmonic closeness of outgoing trips (see :func:`node_centrality`)."""
     return node_centrality(network, weight)[1]
 
 
-def estimate_global_efficiency(network: Network, weight: str = "minutes", *, samples: int = 200,
+def estimate_global_efficiency(network: Network, weight: Weight | str = "minutes", *, samples: int = 200,
                                seed: int = 0) -> float:
     """Global efficiency estimated from ``samples`` random sources (exact if samples >= n_nodes).
 
@@ -465,7 +466,7 @@ def estimate_global_efficiency(network: Network, weight: str = "minutes", *, sam
     return float(sums.mean() / (n - 1))
 
 
-def network_figures(network: Network, weight: str = "minutes", *, exact: bool = False, samples: int = 200,
+def network_figures(network: Network, weight: Weight | str = "minutes", *, exact: bool = False, samples: int = 200,
                     seed: int = 0, centrality: bool | None = None):
     """All the network-wide figures in one call (what ``geo-reach metrics`` and a study run report).
 
@@ -493,6 +494,7 @@ def network_figures(network: Network, weight: str = "minutes", *, exact: bool = 
     eccentricity, closeness : ndarray or None
         Per node, when ``centrality``.
     """
+    weight = as_weight(weight)
     if centrality is None:
         centrality = network.n_nodes <= EXACT_MAX_NODES
     cc = component_counts(network, weight)
@@ -520,6 +522,7 @@ def network_figures(network: Network, weight: str = "minutes", *, exact: bool = 
                       "exact": mp.exact, "sources": mp.sources},
         "global_efficiency": eff,
         "global_efficiency_exact": bool(eff_exact),
-        "weight": weight,
+        "weight": weight.name,
+        "unit": weight.unit,
     }
     return figures, dia, ecc, clo

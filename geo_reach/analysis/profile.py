@@ -25,10 +25,11 @@ import numpy as np
 
 from ..errors import OptionError
 from ..network.model import Network
-from .routing import _check_weight, check_nodes, one_to_all
+from ..network.weights import Weight, as_weight
+from .routing import check_nodes, one_to_all
 
 __all__ = ["Growth", "ReachProfile", "reach_profile", "sample_profile", "classify_growth",
-           "profile_steps", "plot_profile", "random_sources", "EARLY_FRACTION", "LINEAR_TOLERANCE"]
+           "profile_steps", "random_sources", "EARLY_FRACTION", "LINEAR_TOLERANCE", "MAX_STEPS"]
 
 #: The fit uses the steps reaching at most this fraction of the reachable nodes.
 EARLY_FRACTION = 0.5
@@ -37,7 +38,8 @@ LINEAR_TOLERANCE = 0.25
 #: Fewest points a growth fit needs.
 MIN_FIT_POINTS = 3
 
-_UNITS = {"minutes": "min", "length_m": "m", "latency_ms": "ms", "hops": "links"}
+#: Most steps a profile may have (each step is a pass over the edges); more is refused, not run.
+MAX_STEPS = 10_000
 
 
 @dataclass(frozen=True)
@@ -82,7 +84,7 @@ class ReachProfile:
     sources : ndarray of int64
         The source node(s).
     growth : Growth
-    weight : str
+    weight : Weight
     """
 
     cost: np.ndarray
@@ -91,10 +93,11 @@ class ReachProfile:
     reachable_nodes: float
     sources: np.ndarray
     growth: Growth
-    weight: str
+    weight: Weight
 
 
-def profile_steps(weight: str, max_cost: float, *, steps: int | None = None, step: float | None = None) -> np.ndarray:
+def profile_steps(weight: Weight | str, max_cost: float, *, steps: int | None = None,
+                  step: float | None = None) -> np.ndarray:
     """Step limits: ``step`` apart, or ``steps`` equal steps, up to ``max_cost``.
 
     Defaults: step 1 for ``hops``, else 20 equal steps.
@@ -106,14 +109,15 @@ def profile_steps(weight: str, max_cost: float, *, steps: int | None = None, ste
     >>> profile_steps("minutes", 10.0, steps=4).tolist()
     [2.5, 5.0, 7.5, 10.0]
     """
+    weight = as_weight(weight)
     if steps is not None and step is not None:
-        raise OptionError("give --steps or --step, not both")
-    if steps is not None and (int(steps) != steps or steps < 1):
-        raise OptionError(f"--steps {steps}: give a whole number of steps, 1 or more")
+        raise OptionError("steps and step: give one of them, not both", key="steps")
+    if steps is not None and (int(steps) != steps or not 1 <= steps <= MAX_STEPS):
+        raise OptionError(f"steps {steps}: give a whole number of steps from 1 to {MAX_STEPS:,}", key="steps")
     if step is not None and (not np.isfinite(step) or step <= 0):
-        raise OptionError(f"--step {step}: give a positive cost step")
+        raise OptionError(f"step {step}: give a positive cost step", key="step")
     if steps is None and step is None:
-        if weight == "hops":
+        if weight.name == "hops":
             step = 1.0
         else:
             steps = 20
@@ -121,11 +125,15 @@ def profile_steps(weight: str, max_cost: float, *, steps: int | None = None, ste
         return np.array([step if step is not None else 0.0], dtype=np.float64)
     if step is not None:
         k = max(1, int(np.ceil(max_cost / step - 1e-9)))
+        if k > MAX_STEPS:
+            raise OptionError(f"step {step:g}: gives {k:,} steps up to {max_cost:.6g} {weight.unit}, more than the "
+                              f"limit of {MAX_STEPS:,}; give a step of at least {max_cost / MAX_STEPS:.3g}",
+                              key="step")
         return step * np.arange(1, k + 1, dtype=np.float64)
     return np.linspace(max_cost / steps, max_cost, int(steps))
 
 
-def _counts(network: Network, weight: str, dist: np.ndarray, source: int, limits: np.ndarray):
+def _counts(network: Network, weight: Weight, dist: np.ndarray, source: int, limits: np.ndarray):
     """Nodes (excluding the source) and network length within each limit, for one distance row."""
     d = dist.copy()
     d[source] = np.inf
@@ -220,7 +228,7 @@ def classify_growth(cost, nodes, reachable: float) -> Growth:
     return Growth("exponential", None, r, n, rss_p, rss_e)
 
 
-def reach_profile(network: Network, source: int, weight: str = "minutes", *, steps: int | None = None,
+def reach_profile(network: Network, source: int, weight: Weight | str = "minutes", *, steps: int | None = None,
                   step: float | None = None) -> ReachProfile:
     """Nodes and network length within each cost step from ``source``.
 
@@ -261,14 +269,14 @@ def reach_profile(network: Network, source: int, weight: str = "minutes", *, ste
     return sample_profile(network, [source], weight, steps=steps, step=step)
 
 
-def sample_profile(network: Network, sources, weight: str = "minutes", *, steps: int | None = None,
+def sample_profile(network: Network, sources, weight: Weight | str = "minutes", *, steps: int | None = None,
                    step: float | None = None) -> ReachProfile:
     """The reach profile averaged over ``sources`` (node ids), on common steps.
 
     The steps run up to the largest eccentricity among the sources; counts
     are means over the sources.  Use :func:`random_sources` to pick sources.
     """
-    _check_weight(weight)
+    weight = as_weight(weight)
     sources = check_nodes(network, np.atleast_1d(sources))
     if len(sources) == 0:
         raise OptionError("give at least one source node")
@@ -292,48 +300,8 @@ def sample_profile(network: Network, sources, weight: str = "minutes", *, steps:
 def random_sources(network: Network, k: int, seed: int = 0) -> np.ndarray:
     """``k`` distinct node ids drawn uniformly with a seeded numpy ``default_rng`` (all if k >= n)."""
     if k < 1:
-        raise OptionError(f"--sample {k}: give 1 or more sources")
+        raise OptionError(f"sources {k}: give 1 or more random sources", key="sources")
     n = network.n_nodes
     if k >= n:
         return np.arange(n, dtype=np.int64)
     return np.sort(np.random.default_rng(seed).choice(n, size=k, replace=False)).astype(np.int64)
-
-
-def plot_profile(profile: ReachProfile, path, *, title: str | None = None) -> None:
-    """Write the profile as a PNG chart (two panels: nodes and length against cost).
-
-    Parameters
-    ----------
-    profile : ReachProfile
-    path : str or Path
-        Output PNG; written atomically.
-    """
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    import matplotlib.pyplot as plt
-
-    from .. import CAUTION
-    from ..export.atomic import atomic_path
-
-    unit = _UNITS.get(profile.weight, profile.weight)
-    fig, (a1, a2) = plt.subplots(1, 2, figsize=(10, 4.2), constrained_layout=True)
-    a1.plot(profile.cost, profile.nodes, marker="o", color="#1b6f8a")
-    a1.set_xlabel(f"cost from source ({profile.weight}, {unit})")
-    a1.set_ylabel("nodes within cost (count)")
-    a1.grid(alpha=0.3)
-    a2.plot(profile.cost, profile.length_m / 1000.0, marker="s", color="#b5651d")
-    a2.set_xlabel(f"cost from source ({profile.weight}, {unit})")
-    a2.set_ylabel("network length within cost (km)")
-    a2.grid(alpha=0.3)
-    g = profile.growth
-    detail = (f"exponent {g.exponent:.2f}" if g.exponent is not None else
-              f"rate {g.rate:.3g} per {unit}" if g.rate is not None else "too few steps to fit")
-    src = (f"node {int(profile.sources[0])}" if len(profile.sources) == 1
-           else f"mean of {len(profile.sources)} sources")
-    fig.suptitle(title or f"Reach profile from {src}: growth {g.kind} ({detail})")
-    fig.get_layout_engine().set(rect=(0, 0.05, 1, 0.95))  # keep the bottom strip for the caution
-    fig.text(0.01, 0.01, CAUTION, fontsize=6.5, color="#555555")
-    with atomic_path(path, suffix=".png") as tmp:
-        fig.savefig(tmp, dpi=120, format="png")
-    plt.close(fig)

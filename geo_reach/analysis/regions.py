@@ -21,7 +21,10 @@ Each region carries ``population``, ``area_km2``, ``mean_minutes`` (mean
 over its cells with a hub reachable), the nearest network point
 (``entry_x``, ``entry_y``, working CRS metres) and that point's minutes
 (``entry_minutes``, null where no hub is reachable), ``edge_id`` (the
-bridge, for ``single_link``) and ``rank`` by population (1 = most people).
+bridge, for ``single_link``) and ``rank``: by the people affected (1 = most
+people), then by their mean minutes (longer first; none reachable counts as
+longest), then by area.  For a ``single_link`` region, ``population`` is the
+number of people behind that one link: those who lose every hub if it fails.
 
 Results are model estimates; local surveys, codes and licensed professional
 practice decide.
@@ -233,7 +236,7 @@ def _assign_groups(pre, parent, cut, group, rooted_at_hub):
 
 def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, threshold_minutes: float,
                  population=None, direction: str = "to-hub", passable=None):
-    """The weak-region layer: far, single-link and hub-less areas, ranked by population.
+    """The weak-region layer: far, single-link and hub-less areas, ranked by people, then minutes.
 
     Parameters
     ----------
@@ -391,7 +394,9 @@ def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, thres
         frame[c] = frame[c].astype(np.float64)
     frame["edge_id"] = pd.array([None if v is None or (isinstance(v, float) and np.isnan(v)) else int(v)
                                  for v in frame["edge_id"]], dtype="Int64")
-    order = np.lexsort((-frame["area_km2"].to_numpy(), -np.nan_to_num(frame["population"].to_numpy(), nan=-1.0)))
+    # people first; among equals, the longer mean trip (no hub reachable = longest), then the larger area
+    mins = np.nan_to_num(frame["mean_minutes"].to_numpy(), nan=np.inf)
+    order = np.lexsort((-frame["area_km2"].to_numpy(), -mins, -np.nan_to_num(frame["population"].to_numpy(), nan=-1.0)))
     frame = frame.iloc[order].reset_index(drop=True)
     frame.insert(0, "rank", np.arange(1, len(frame) + 1, dtype=np.int64))
     return gpd.GeoDataFrame(frame, geometry="geometry", crs=grid.crs)

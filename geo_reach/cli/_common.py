@@ -1,11 +1,127 @@
-"""Option definitions shared by several subcommands (one text per option)."""
+"""Options and helpers shared by the subcommands: one text per option, defaults from the option classes.
+
+Defaults are read from the typed option classes
+(:class:`~geo_reach.network.build.BuildOptions`,
+:class:`~geo_reach.analysis.options.RoutingOptions`, ...), never written
+here; a value the user typed is validated once, where it enters (argparse
+``type=`` or the option class).
+"""
 
 from __future__ import annotations
 
-import json
+import argparse
 import sys
 
-__all__ = ["add_layer_options", "add_output_options", "study_from_layer_args", "emit_json", "parse_class_speeds"]
+import numpy as np
+
+from ..analysis.options import DIRECTIONS, RoutingOptions
+from ..errors import OptionError
+from ..network.build import BuildOptions
+from ..network.weights import WEIGHT_NAMES, as_weight
+
+__all__ = ["add_layer_options", "add_output_options", "add_weight", "add_direction", "add_access",
+           "routing_options", "study_from_layer_args", "emit_json", "print_json", "parse_class_speeds",
+           "note", "report_excluded", "report_left_out", "read_network_arg", "read_points_arg", "check_layer_io", "crs_arg"]
+
+_R = RoutingOptions()
+_B = BuildOptions()
+
+
+def note(msg: str) -> None:
+    """One report line on stderr."""
+    print(f"geo-reach: {msg}", file=sys.stderr)
+
+
+# ------------------------------------------------------------------ routing options
+def _weight_arg(text):
+    try:
+        return as_weight(text)
+    except OptionError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a weight; choose one of {', '.join(WEIGHT_NAMES)}") \
+            from None
+
+
+def add_weight(p, choices=WEIGHT_NAMES):
+    """``--weight``: a :class:`~geo_reach.network.weights.Weight` (validated here, once)."""
+    p.add_argument("--weight", type=_weight_arg, default=as_weight(_R.weight), metavar="{" + ",".join(choices) + "}",
+                   help=f"what a trip's cost counts: {', '.join(choices)} (1 per link); edges with no value "
+                        f"for it are left out and counted (default {_R.weight})")
+
+
+def add_direction(p):
+    p.add_argument("--direction", choices=DIRECTIONS, default=_R.direction,
+                   help="to-hub: the trip from each place to its hub (default); from-hub: the trip from the hub")
+
+
+def add_access(p, what="points"):
+    p.add_argument("--max-access-m", type=float, default=_R.max_access_m, metavar="M",
+                   help=f"{what} farther than this from the network are reported and left out "
+                        f"(default {_R.max_access_m:g})")
+    p.add_argument("--walk-kmh", type=float, default=_R.walk_kmh, metavar="KMH",
+                   help=f"off-network walking speed on flat open ground, km/h (default {_R.walk_kmh:g}, "
+                        "common practice for walking)")
+
+
+def routing_options(args) -> RoutingOptions:
+    """The command's :class:`RoutingOptions` (options it does not take keep their defaults)."""
+    return RoutingOptions(weight=getattr(args, "weight", _R.weight),
+                          direction=getattr(args, "direction", _R.direction),
+                          max_access_m=getattr(args, "max_access_m", _R.max_access_m),
+                          walk_kmh=getattr(args, "walk_kmh", _R.walk_kmh))
+
+
+# ------------------------------------------------------------------ inputs
+def read_network_arg(path, weight=None):
+    """Read the NETWORK.gpkg argument (see :func:`geo_reach.network.io.read_network`)."""
+    from ..network.io import read_network
+
+    return read_network(path, weight)
+
+
+def read_points_arg(ref, network, *, id_field=None, kind_field=None, what="hubs", id_key="hub_id_field"):
+    """Read a point layer in the network's CRS and report what was left out on stderr."""
+    from ..ingest.points import read_points
+
+    pts = read_points(ref, network.crs, id_field=id_field, kind_field=kind_field, what=what, id_key=id_key)
+    for msg in pts.notes:
+        note(msg)
+    return pts
+
+
+def report_left_out(att, ids, what: str, max_access_m: float) -> int:
+    """Report the points farther than ``max_access_m`` from the network; return how many."""
+    out = ~att.attached
+    k = int(out.sum())
+    if k:
+        first = np.nonzero(out)[0][:3]
+        sample = ", ".join(f"id {ids[i]} ({att.access_m[i]:,.0f} m)" if np.isfinite(att.access_m[i])
+                           else f"id {ids[i]} (no network to join)" for i in first)
+        note(f"{k} {what} farther than --max-access-m {max_access_m:g} m from the network are left out: "
+             f"{sample}{' ...' if k > 3 else ''}")
+    return k
+
+
+def report_excluded(net, weight) -> int:
+    from ..analysis.routing import excluded_edges
+
+    k = excluded_edges(net, weight)
+    if k:
+        note(f"{k} of {net.n_edges} edges have no {weight} value and are left out of this routing")
+    return k
+
+
+# ------------------------------------------------------------------ build options
+def crs_arg(text):
+    """argparse ``type=`` for a CRS option: checked with pyproj here, kept as typed."""
+    from ..errors import CRSError
+    from ..ingest.layers import parse_crs
+
+    try:
+        parse_crs(text)
+    except CRSError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a coordinate reference system pyproj knows; give one "
+                                         "such as EPSG:32633") from None
+    return text
 
 
 def add_layer_options(p):
@@ -22,30 +138,33 @@ def add_layer_options(p):
     g.add_argument("--all-season-field", help="field flagging all-season roads (1/0, yes/no)")
     g.add_argument("--stations", metavar="LAYER", help="rail stations / cable access nodes (point layer)")
     g.add_argument("--boarding-minutes", type=float, default=0.0, help="rail boarding penalty in minutes (default 0)")
-    g.add_argument("--assume-crs", metavar="EPSG:NNNN", help="CRS for layers that have none")
+    g.add_argument("--assume-crs", metavar="EPSG:NNNN", type=crs_arg, help="CRS for layers that have none")
     t = p.add_argument_group("topology (metres on the ground)")
-    t.add_argument("--crs", metavar="EPSG:NNNN", help="metric working CRS (default: UTM zone of the data's centre)")
-    t.add_argument("--snap-m", type=float, default=1.0, help="join line ends closer than this (default 1.0)")
+    t.add_argument("--crs", metavar="EPSG:NNNN", type=crs_arg, help="metric working CRS (default: UTM zone of the data's centre)")
+    t.add_argument("--snap-m", type=float, default=_B.snap_m,
+                   help=f"join line ends closer than this (default {_B.snap_m:g})")
     t.add_argument("--dangle-m", type=float, help="report dead ends shorter than this (default 10 x --snap-m)")
-    t.add_argument("--access-snap-m", type=float, default=100.0,
-                   help="stations/access nodes farther than this from their line are reported, not attached (default 100)")
-    t.add_argument("--transfer-max-m", type=float, default=1000.0,
-                   help="longest walk between a station and the nearest road (default 1000)")
-    t.add_argument("--transfer-walk-kmh", type=float, default=5.0,
-                   help="walking speed on that link, km/h (default 5, common practice)")
+    t.add_argument("--access-snap-m", type=float, default=_B.access_snap_m,
+                   help=f"stations/access nodes farther than this from their line are reported, not attached "
+                        f"(default {_B.access_snap_m:g})")
+    t.add_argument("--transfer-max-m", type=float, default=_B.transfer_max_m,
+                   help=f"longest walk between a station and the nearest road (default {_B.transfer_max_m:g})")
+    t.add_argument("--transfer-walk-kmh", type=float, default=_B.transfer_walk_kmh,
+                   help=f"walking speed on that link, km/h (default {_B.transfer_walk_kmh:g}, common practice)")
 
 
 def add_output_options(p, metavar):
     """-o/--output, --overwrite, --report and --json, as build and check take them."""
-    p.add_argument("-o", "--output", required=True, metavar=metavar, help="output GeoPackage")
+    p.add_argument("-o", "--output", required=True, metavar=metavar,
+                   help="output GeoPackage (.gpkg); NAME.parquet (GeoParquet, for large networks), NAME.fgb, "
+                        "NAME.geojson or NAME.shp write one file per layer: NAME.edges.parquet, NAME.nodes.parquet, "
+                        "NAME.network_issues.parquet")
     p.add_argument("--overwrite", action="store_true", help="replace an existing output")
     p.add_argument("--report", metavar="FILE.json", help="write the report as JSON")
     p.add_argument("--json", action="store_true", help="print the report as JSON")
 
 
 def parse_class_speeds(text):
-    import argparse
-
     out = {}
     for item in filter(None, (s.strip() for s in text.split(","))):
         k, sep, v = item.partition("=")
@@ -53,9 +172,20 @@ def parse_class_speeds(text):
             out[k.strip()] = float(v)
         except ValueError:
             raise argparse.ArgumentTypeError(f"'{item}' is not CLASS=KMH") from None
-        if not sep or out[k.strip()] <= 0:
+        if not sep or not out[k.strip()] > 0:
             raise argparse.ArgumentTypeError(f"'{item}' is not CLASS=KMH with a positive speed")
     return out
+
+
+def check_layer_io(args, what: str, issues_only: bool = False) -> None:
+    """``build``/``check``: the layers (and stations) are inputs; the files ``-o`` stands for and ``--report``
+    outputs."""
+    from ..export.gpkg import network_files
+    from ..export.guard import check_io
+
+    files = [(f, what) for f in network_files(args.output, issues_only)]
+    check_io(inputs=[*args.layers, args.stations], files=[*files, (args.report, "report")],
+             overwrite=args.overwrite)
 
 
 def study_from_layer_args(args):
@@ -93,25 +223,21 @@ def study_from_layer_args(args):
     return study_from_dict({"lines": lines, "network": network}, Path("."), check_files=False)
 
 
+# ------------------------------------------------------------------ JSON
+def print_json(obj) -> None:
+    """``obj`` as JSON on stdout (the one encoder: :mod:`geo_reach.export.jsonout`)."""
+    from ..export.jsonout import dumps
+
+    sys.stdout.write(dumps(obj) + "\n")
+
+
 def emit_json(obj, path=None, stdout=False):
     """Write ``obj`` as JSON to ``path`` (atomically) and/or stdout."""
     from ..export.atomic import atomic_path
+    from ..export.jsonout import dumps
 
-    text = json.dumps(obj, indent=2, sort_keys=False, default=_default)
     if path:
         with atomic_path(path) as tmp:
-            tmp.write_text(text + "\n")
+            tmp.write_text(dumps(obj) + "\n", encoding="utf-8")
     if stdout:
-        sys.stdout.write(text + "\n")
-
-
-def _default(o):
-    import numpy as np
-
-    if isinstance(o, np.integer):
-        return int(o)
-    if isinstance(o, np.floating):
-        return None if np.isnan(o) else float(o)
-    if isinstance(o, np.ndarray):
-        return o.tolist()
-    return str(o)
+        print_json(obj)

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from ._routing import add_access, add_direction, add_weight, note, report_excluded
+from ._common import add_access, add_direction, add_weight, note, report_excluded
+
+__all__ = ["register", "study_from_args", "run"]
 
 
 def register(sub):
@@ -17,7 +19,7 @@ def register(sub):
                    help="field with the hub kind (clinic, market, port ...): one result per kind")
     add_weight(p)
     add_direction(p)
-    add_access(p)
+    add_access(p, "hubs")
     p.add_argument("-o", "--output", required=True, metavar="OUT.gpkg", help="output GeoPackage")
     p.add_argument("--overwrite", action="store_true", help="replace an existing output")
     p.set_defaults(func=run)
@@ -39,7 +41,7 @@ def study_from_args(args):
     if args.hub_kind_field:
         hubs["kind_field"] = args.hub_kind_field
     raw = {"network": {"prebuilt": str(args.network)}, "hubs": hubs,
-           "routing": {"weight": args.weight, "direction": args.direction,
+           "routing": {"weight": args.weight.name, "direction": args.direction,
                        "max_access_m": float(args.max_access_m), "walk_kmh": float(args.walk_kmh)}}
     return study_from_dict(raw, Path("."), check_files=False)
 
@@ -47,13 +49,13 @@ def study_from_args(args):
 def run(args):
     import geopandas as gpd
 
-    from .. import CAUTION
+    from .._meta import CAUTION
     from ..errors import LayerError
-    from ..export.atomic import check_output
     from ..export.gpkg import write_layers
+    from ..export.guard import check_io
     from ..pipeline import analyse, build_or_read, read_hubs
 
-    check_output(args.output, args.overwrite)
+    check_io(inputs=[args.network, args.hubs], files=[(args.output, "GeoPackage")], overwrite=args.overwrite)
     study = study_from_args(args)
     built = build_or_read(study, [])
     net = built.network
@@ -69,14 +71,16 @@ def run(args):
     for k, v in res.node_fields.items():
         nodes[k] = v
     hub_layer = res.hub_table
+    w = study.routing.weight
     if hubs.kinds is None:
         hub_layer = hub_layer.drop(columns="kind")
     hub_layer = gpd.GeoDataFrame(hub_layer, geometry="geometry", crs=net.crs)
     write_layers(args.output, {"nodes": nodes, "hubs": hub_layer}, overwrite=args.overwrite,
-                 descriptions={"nodes": f"nearest hub and {args.weight} ({args.direction}). {CAUTION}",
+                 descriptions={"nodes": f"nearest hub and hub_cost: {w.describes} ({w.unit}), trips "
+                                        f"{args.direction}. {CAUTION}",
                                "hubs": f"nodes and network length each hub serves. {CAUTION}"})
-    attached = hub_layer["attached"].to_numpy()
-    reached = int(nodes[[c for c in nodes.columns if c.startswith("nearest_")]].notna().any(axis=1).sum())
+    attached = hub_layer["joined"].to_numpy()
+    reached = int(nodes[[c for c in nodes.columns if c.startswith("nearest_hub")]].notna().any(axis=1).sum())
     note(f"access: {int(attached.sum())} of {len(hubs.ids)} hubs joined the network; {reached} of {net.n_nodes} "
          f"nodes reach a hub -> {args.output}")
     note(CAUTION)

@@ -4,7 +4,9 @@ from __future__ import annotations
 
 import sys
 
-from ._common import add_layer_options, add_output_options, emit_json, study_from_layer_args
+from ._common import add_layer_options, add_output_options, check_layer_io, emit_json, print_json, study_from_layer_args
+
+__all__ = ["register", "run"]
 
 
 def register(sub):
@@ -17,21 +19,24 @@ def register(sub):
 
 
 def run(args):
-    from ..export.atomic import check_output
-    from ..export.gpkg import write_network
+    from ..export.atomic import OutputSet
+    from ..export.gpkg import network_files, write_network
     from ..pipeline import build_or_read, layer_specs
 
-    check_output(args.output, args.overwrite)
-    if args.report:
-        check_output(args.report, True, "report")
+    check_layer_io(args, "network file")
     study = study_from_layer_args(args)
     result = build_or_read(study, layer_specs(study))
-    write_network(args.output, result, overwrite=args.overwrite)
-    emit_json(result.report, args.report, stdout=args.json)
+    with OutputSet([*network_files(args.output), args.report]) as out:
+        write_network(args.output, result, into=out)
+        if args.report:
+            emit_json(result.report, out.path(args.report))
+    if args.json:
+        print_json(result.report)
     if not args.json:
         r = result.report
         kinds = ", ".join(f"{k} {v}" for k, v in r["issues"].items() if v)
         print(f"network: {r['nodes']} nodes, {r['edges']} edges, {r['components']} components "
-              f"({r['network_length_m'] / 1000:.1f} km) -> {args.output}", file=sys.stderr)
+              f"({r['network_length_m'] / 1000:.1f} km) -> "
+              f"{', '.join(map(str, network_files(args.output, sides=False)))}", file=sys.stderr)
         print(f"issues: {kinds or 'none'} (layer network_issues)", file=sys.stderr)
     return 0

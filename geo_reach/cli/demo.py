@@ -4,12 +4,16 @@ from __future__ import annotations
 
 from pathlib import Path
 
+__all__ = ["register", "repo_root", "run"]
+
 
 def register(sub):
     p = sub.add_parser("demo", help="run the whole analysis on the invented demo region",
                        description="Run data_samples/study.toml (an invented region) with its proposed line "
-                                   "as a scenario, replacing maps/demo/.")
+                                   "as a scenario, into maps/demo/ (the same rules as geo-reach run).")
     p.add_argument("-o", "--output", default=None, metavar="OUTDIR", help="output folder (default maps/demo)")
+    p.add_argument("--overwrite", action="store_true",
+                   help="replace a folder that holds results geo-reach wrote (never one holding other files)")
     p.add_argument("--quiet", action="store_true")
     p.set_defaults(func=run)
 
@@ -30,8 +34,11 @@ def run(args):
         raise MissingInputError(f"file '{study_path}': the demo study is missing; run geo-reach demo from a "
                                 "checkout of the repository")
     out = Path(args.output) if args.output else root / "maps" / "demo"
+    from ._progress import StepDisplay
+
     study = load_study(study_path)
-    # The demo replaces its own outputs on every run.
-    summary = run_study(study, out, overwrite=True, progress=not args.quiet)
+    show = StepDisplay(not args.quiet, total=6 + 5 * len(study.scenarios))
+    summary = run_study(study, out, overwrite=args.overwrite, progress=show)
+    show.close()
     print_summary(summary, out)
     return 0

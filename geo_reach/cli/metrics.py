@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
-import sys
 
 import numpy as np
 
-from ._routing import add_weight, dump_json, note, report_excluded
+from ..analysis.options import MetricsOptions
+from ._common import add_weight, note, print_json, report_excluded
+
+__all__ = ["register", "study_from_args", "run"]
+
+_M = MetricsOptions()
 
 
 def register(sub):
@@ -20,9 +24,9 @@ def register(sub):
     p.add_argument("--json", action="store_true", help="print the figures as JSON")
     p.add_argument("--exact", action="store_true",
                    help="exact mean path and efficiency even above 5,000 nodes (one search per node)")
-    p.add_argument("--samples", type=int, default=200, metavar="K",
-                   help="random sources for the estimates above 5,000 nodes (default 200)")
-    p.add_argument("--seed", type=int, default=0, help="seed of the source sample (default 0)")
+    p.add_argument("--sources", "--samples", dest="samples", type=int, default=_M.samples, metavar="K",
+                   help=f"random sources for the estimates above 5,000 nodes (default {_M.samples})")
+    p.add_argument("--seed", type=int, default=_M.seed, help=f"seed of the source sample (default {_M.seed})")
     p.add_argument("-o", "--output", metavar="NODES.gpkg",
                    help="write layers nodes (eccentricity, closeness) and diameter_path (one search per node)")
     p.add_argument("--overwrite", action="store_true", help="replace an existing output")
@@ -35,22 +39,18 @@ def study_from_args(args):
 
     from ..study import study_from_dict
 
-    raw = {"network": {"prebuilt": str(args.network)}, "routing": {"weight": args.weight},
+    raw = {"network": {"prebuilt": str(args.network)}, "routing": {"weight": args.weight.name},
            "metrics": {"exact": bool(args.exact), "samples": int(args.samples), "seed": int(args.seed),
                        "node_figures": bool(args.output)}}
     return study_from_dict(raw, Path("."), check_files=False)
 
 
 def run(args):
-    from .. import CAUTION
-    from ..errors import OptionError
-    from ..export.atomic import check_output
+    from .._meta import CAUTION
+    from ..export.guard import check_io
     from ..pipeline import analyse, build_or_read
 
-    if args.samples < 2:
-        raise OptionError(f"--samples {args.samples}: give 2 or more sources")
-    if args.output:
-        check_output(args.output, args.overwrite)
+    check_io(inputs=[args.network], files=[(args.output, "GeoPackage")], overwrite=args.overwrite)
     study = study_from_args(args)
     built = build_or_read(study, [])
     net = built.network
@@ -66,23 +66,24 @@ def run(args):
     if args.output:
         _write(args, net, res)
     if args.json:
-        sys.stdout.write(dump_json(out) + "\n")
+        print_json(out)
     else:
-        u = args.weight
+        u = args.weight.unit
         print(f"nodes {net.n_nodes}, edges {net.n_edges}, components {out['components']} "
               f"(largest {out['largest_component_nodes']} nodes; largest strongly connected "
               f"{out['largest_strong_component_nodes']})")
         print(f"diameter {dia['value']:.6g} {u} from node {dia['from_node']} to node {dia['to_node']} "
-              f"({dia['sssp_runs']} single-source runs)")
+              f"({dia['sssp_runs']} searches)")
         print(f"mean path {mp['value']:.6g} {u} " + ("(exact)" if mp["exact"] else
               f"(95% CI {mp['ci95_low']:.6g}-{mp['ci95_high']:.6g}, {mp['sources']} sources)"))
-        print(f"global efficiency {eff:.6g} per {u}" + ("" if eff_exact else " (estimated)"))
+        print(f"global efficiency {eff:.6g} per {u}" + ("" if eff_exact else " (estimated)")
+              if np.isfinite(eff) else "global efficiency undefined (zero-cost trips between distinct nodes)")
         print(CAUTION)
     return 0
 
 
 def _write(args, net, res):
-    from .. import CAUTION
+    from .._meta import CAUTION
     from ..export.gpkg import write_layers
 
     nodes = net.nodes_frame()[["node_id", "geometry"]].copy()
@@ -93,7 +94,7 @@ def _write(args, net, res):
     if res.diameter_path is not None and len(res.diameter_path):
         layers["diameter_path"] = res.diameter_path
     write_layers(args.output, layers, overwrite=args.overwrite,
-                 descriptions={"nodes": f"eccentricity ({args.weight}) and harmonic closeness "
-                                        f"(per {args.weight}) of trips from each node. {CAUTION}",
+                 descriptions={"nodes": f"eccentricity ({args.weight.unit_name}) and harmonic closeness "
+                                        f"(per {args.weight.unit}) of trips from each node. {CAUTION}",
                                "diameter_path": f"one least-cost path realising the diameter. {CAUTION}"})
     note(f"metrics: per-node figures -> {args.output}")

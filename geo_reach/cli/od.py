@@ -5,7 +5,10 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._routing import add_access, add_weight, load_network, note, read_points, report_excluded, report_left_out
+from ._common import (add_access, add_weight, note, read_network_arg, read_points_arg, report_excluded, report_left_out,
+                      routing_options)
+
+__all__ = ["register", "run"]
 
 
 def register(sub):
@@ -33,69 +36,98 @@ def run(args):
     import pandas as pd
     import shapely
 
-    from .. import CAUTION
+    from .._meta import CAUTION
     from ..analysis.attach import attach_points
-    from ..analysis.routing import od_matrix
-    from ..export.atomic import atomic_path, check_output
+    from ..analysis.trips import od_matrix
+    from ..export.atomic import OutputSet
     from ..export.gpkg import write_layers
+    from ..export.guard import check_io
 
     if args.nearest is not None and args.nearest < 1:
         raise OptionError(f"--nearest {args.nearest}: give 1 or more")
-    check_output(args.output, args.overwrite)
-    if args.csv:
-        check_output(args.csv, args.overwrite, "CSV file")
-    net = load_network(args.network, args.weight)
-    report_excluded(net, args.weight)
-    o = read_points(args.origins, net, id_field=args.origin_id_field, what="origins",
-                    id_option="--origin-id-field")
-    d = read_points(args.destinations, net, id_field=args.destination_id_field, what="destinations",
-                    id_option="--destination-id-field")
-    kw = dict(max_access_m=args.max_access_m, walk_kmh=args.walk_kmh)
-    oa = attach_points(net, o.xy, args.weight, **kw)
-    da = attach_points(net, d.xy, args.weight, **kw)
+    check_io(inputs=[args.network, args.origins, args.destinations],
+             files=[(args.output, "GeoPackage"), (args.csv, "CSV file")], overwrite=args.overwrite)
+    opt = routing_options(args)
+    net = read_network_arg(args.network, opt.weight)
+    report_excluded(net, opt.weight)
+    o = read_points_arg(args.origins, net, id_field=args.origin_id_field, what="origins", id_key="origin_id_field")
+    d = read_points_arg(args.destinations, net, id_field=args.destination_id_field, what="destinations",
+                        id_key="destination_id_field")
+    kw = dict(max_access_m=opt.max_access_m, walk_kmh=opt.walk_kmh)
+    oa = attach_points(net, o.xy, opt.weight, **kw)
+    da = attach_points(net, d.xy, opt.weight, **kw)
     report_left_out(oa, o.ids, "origins", args.max_access_m)
     report_left_out(da, d.ids, "destinations", args.max_access_m)
     oi = np.nonzero(oa.attached)[0]
     di = np.nonzero(da.attached)[0]
-    od = od_matrix(net, oa.subset(oi), da.subset(di), args.weight)
-    cost, length = od.cost, od.length_m
+    part = od_matrix(net, oa.subset(oi), da.subset(di), opt.weight)
+    n_o, n_d = len(o.ids), len(d.ids)
+    cost = np.full((n_o, n_d), np.inf)
+    length = np.full((n_o, n_d), np.inf)
+    cost[np.ix_(oi, di)] = part.cost
+    length[np.ix_(oi, di)] = part.length_m
+    far = f"farther than the largest access distance ({opt.max_access_m:g} m) from the network"
+    why = np.full((n_o, n_d), "", dtype=object)
+    why[~np.isfinite(cost)] = f"no path on {opt.weight.name}: the two lie in parts of the network no trip joins"
+    why[:, ~da.attached] = f"destination {far}"
+    why[~oa.attached, :] = f"origin {far}"
     rows_o, rows_d, rank = [], [], []
-    for a in range(len(oi)):
+    for a in range(n_o):
         if args.nearest is not None:
             fin = np.nonzero(np.isfinite(cost[a]))[0]
             order = fin[np.lexsort((length[a, fin], cost[a, fin]))][: args.nearest]
+            if len(order) == 0:   # kept, with a null destination and the reason
+                rows_o.append(np.array([a]))
+                rows_d.append(np.array([-1]))
+                rank.append(np.array([0]))
+                continue
             rows_o.append(np.full(len(order), a))
             rows_d.append(order)
             rank.append(np.arange(1, len(order) + 1))
         else:
-            rows_o.append(np.full(len(di), a))
-            rows_d.append(np.arange(len(di)))
+            rows_o.append(np.full(n_d, a))
+            rows_d.append(np.arange(n_d))
     ro = np.concatenate(rows_o) if rows_o else np.zeros(0, np.int64)
     rd = np.concatenate(rows_d) if rows_d else np.zeros(0, np.int64)
-    c = cost[ro, rd] if len(ro) else np.zeros(0)
-    ln = length[ro, rd] if len(ro) else np.zeros(0)
+    none = rd < 0
+    rdx = np.maximum(rd, 0)
+    c = np.where(none, np.inf, cost[ro, rdx]) if len(ro) else np.zeros(0)
+    ln = np.where(none, np.inf, length[ro, rdx]) if len(ro) else np.zeros(0)
+    reason = why[ro, rdx] if len(ro) else np.zeros(0, object)
+    if none.any():
+        reason[none] = np.where(~oa.attached[ro[none]], f"origin {far}", "no destination reachable on "
+                                f"{opt.weight.name}")
+    dest = d.ids[rdx].astype(object) if len(ro) else np.zeros(0, object)
+    dest[none] = None
     data = {
-        "origin_id": o.ids[oi][ro] if len(ro) else np.zeros(0, object),
-        "destination_id": d.ids[di][rd] if len(ro) else np.zeros(0, object),
-        "cost": np.where(np.isfinite(c), c, np.nan),
+        "origin_id": o.ids[ro] if len(ro) else np.zeros(0, object),
+        "destination_id": dest,
+        "trip_cost": np.where(np.isfinite(c), c, np.nan),
         "length_m": np.where(np.isfinite(c), ln, np.nan),
-        "weight": np.full(len(ro), args.weight, dtype=object),
+        "weight": np.full(len(ro), opt.weight.name, dtype=object),
+        "reason": reason,
     }
     if args.nearest is not None:
-        data["rank"] = np.concatenate(rank) if rank else np.zeros(0, np.int64)
+        r = np.concatenate(rank) if rank else np.zeros(0, np.int64)
+        data["rank"] = pd.array(np.where(r > 0, r, 0), dtype="Int64")
+        data["rank"][r == 0] = pd.NA
     frame = pd.DataFrame(data)
     for col, ids in (("origin_id", o.ids), ("destination_id", d.ids)):
         if all(isinstance(v, (int, np.integer)) for v in ids):
-            frame[col] = frame[col].astype(np.int64)
-    lines = shapely.linestrings(np.stack([o.xy[oi][ro], d.xy[di][rd]], axis=1)) if len(ro) else []
+            frame[col] = frame[col].astype("Int64")
+    ends = np.where(none[:, None], o.xy[ro], d.xy[rdx]) if len(ro) else np.zeros((0, 2))
+    lines = shapely.linestrings(np.stack([o.xy[ro], ends], axis=1)) if len(ro) else []
     layer = gpd.GeoDataFrame(frame, geometry=np.asarray(lines, dtype=object), crs=net.crs)
-    write_layers(args.output, {"od_pairs": layer}, overwrite=args.overwrite,
-                 descriptions={"od_pairs": f"least {args.weight} between origins and destinations. {CAUTION}"})
-    if args.csv:
-        with atomic_path(args.csv, suffix=".csv") as tmp:
-            frame.to_csv(tmp, index=False)
-    none = int((~np.isfinite(c)).sum())
-    note(f"od: {len(frame)} pairs ({len(oi)} origins x {'K nearest' if args.nearest else len(di)} destinations), "
-         f"{none} without a path -> {args.output}{' and ' + args.csv if args.csv else ''}")
+    with OutputSet([args.output, args.csv]) as out:
+        write_layers(out.path(args.output), {"od_pairs": layer},
+                     descriptions={"od_pairs": f"least cost ({opt.weight.describes}, {opt.weight.unit}) between "
+                                               f"origins and destinations. {CAUTION}"})
+        if args.csv:
+            from ..export.tables import write_csv
+
+            write_csv(out.path(args.csv), frame)   # the caution on line 1, as every table geo-reach writes
+    unreached = int((~np.isfinite(c)).sum())
+    note(f"od: {len(frame)} rows ({n_o} origins x {'the K nearest' if args.nearest else n_d} destinations), "
+         f"{unreached} without a path (reason given) -> {args.output}{' and ' + args.csv if args.csv else ''}")
     note(CAUTION)
     return 0

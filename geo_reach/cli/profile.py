@@ -2,11 +2,10 @@
 
 from __future__ import annotations
 
-import sys
-
-
 from ..errors import OptionError
-from ._routing import add_weight, dump_json, load_network, note, report_excluded
+from ._common import add_weight, note, print_json, read_network_arg, report_excluded
+
+__all__ = ["register", "run"]
 
 
 def register(sub):
@@ -17,7 +16,7 @@ def register(sub):
                                    "Figures are model estimates; local surveys decide.")
     p.add_argument("network", metavar="NETWORK.gpkg", help="network GeoPackage from geo-reach build")
     p.add_argument("--from", dest="source", type=int, metavar="NODE_ID", help="source node id (layer nodes)")
-    p.add_argument("--sample", type=int, metavar="K",
+    p.add_argument("--sources", "--sample", dest="sample", type=int, metavar="K",
                    help="average the profile over K random sources instead of one --from node")
     p.add_argument("--seed", type=int, default=0, help="seed of the --sample sources (default 0)")
     s = p.add_mutually_exclusive_group()
@@ -32,16 +31,16 @@ def register(sub):
 
 
 def run(args):
-    from .. import CAUTION
-    from ..analysis.profile import plot_profile, random_sources, sample_profile
+    from .._meta import CAUTION
+    from ..analysis.profile import random_sources, sample_profile
     from ..analysis.routing import check_nodes
-    from ..export.atomic import check_output
+    from ..export.charts import plot_profile
+    from ..export.guard import check_io
 
     if (args.source is None) == (args.sample is None):
-        raise OptionError("give a source node with --from NODE_ID, or --sample K for K random sources")
-    if args.png:
-        check_output(args.png, args.overwrite, "chart")
-    net = load_network(args.network, args.weight)
+        raise OptionError("give a source node with --from NODE_ID, or --sources K for K random sources")
+    check_io(inputs=[args.network], files=[(args.png, "chart")], overwrite=args.overwrite)
+    net = read_network_arg(args.network, args.weight)
     report_excluded(net, args.weight)
     if args.source is not None:
         try:
@@ -49,13 +48,16 @@ def run(args):
         except Exception as err:
             raise type(err)(f"--from: {err}") from err
     else:
+        if args.sample < 1:
+            raise OptionError(f"--sources {args.sample}: give 1 or more random sources")
         sources = random_sources(net, args.sample, args.seed)
     prof = sample_profile(net, sources, args.weight, steps=args.steps, step=args.step)
     g = prof.growth
     out = {
         "source": int(sources[0]) if args.source is not None else None,
         "sources": len(sources),
-        "weight": args.weight,
+        "weight": args.weight.name,
+        "unit": args.weight.unit,
         "counts_source": False,
         "reachable_nodes": prof.reachable_nodes,
         "steps": [{"cost": float(c), "nodes": float(n) if args.sample else int(n), "length_m": float(m)}
@@ -67,13 +69,13 @@ def run(args):
         plot_profile(prof, args.png)
         note(f"profile chart -> {args.png}")
     if args.json:
-        sys.stdout.write(dump_json(out) + "\n")
+        print_json(out)
     else:
-        print(f"{'cost (' + args.weight + ')':>20} {'nodes':>12} {'length_km':>12}")
+        print(f"{'cost (' + args.weight.unit + ')':>20} {'nodes':>12} {'length_km':>12}")
         for c, n, m in zip(prof.cost, prof.nodes, prof.length_m):
             print(f"{c:20.6g} {n:12.6g} {m / 1000:12.3f}")
         detail = (f"exponent {g.exponent:.3f}" if g.exponent is not None else
-                  f"rate {g.rate:.4g} per {args.weight}" if g.rate is not None else "too few steps to fit")
+                  f"rate {g.rate:.4g} per {args.weight.unit}" if g.rate is not None else "too few steps to fit")
         print(f"growth: {g.kind} ({detail}; fitted on {g.points} steps)")
         print(CAUTION)
     return 0

@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-import sys
-
 import numpy as np
 
 from ..errors import InputError, OptionError
-from ._routing import add_access, add_weight, dump_json, load_network, note, report_excluded
+from ._common import add_access, add_weight, note, print_json, read_network_arg, report_excluded, routing_options
+
+__all__ = ["register", "run"]
 
 
 def register(sub):
@@ -47,38 +47,40 @@ def run(args):
     from pyproj import CRS, Transformer
     from pyproj.exceptions import CRSError as ProjCRSError
 
-    from .. import CAUTION
+    from .._meta import CAUTION
     from ..analysis.attach import attach_points
-    from ..analysis.routing import shortest_path
+    from ..analysis.trips import shortest_path
     from ..errors import CRSError
-    from ..export.atomic import atomic_path, check_output
+    from ..export.atomic import atomic_path
+    from ..export.guard import check_io
 
-    if args.output:
-        check_output(args.output, args.overwrite)
+    check_io(inputs=[args.network], files=[(args.output, "route file")], overwrite=args.overwrite)
     try:
         src = CRS.from_user_input(args.crs) if args.crs else CRS.from_epsg(4326)
     except ProjCRSError as err:
         raise CRSError(f"--crs {args.crs}: not a CRS pyproj knows ({err}); give e.g. EPSG:32633") from err
-    net = load_network(args.network, args.weight)
-    report_excluded(net, args.weight)
+    opt = routing_options(args)
+    net = read_network_arg(args.network, opt.weight)
+    report_excluded(net, opt.weight)
     if src.is_geographic:
-        for (lon, lat), opt in ((args.origin, "--from"), (args.destination, "--to")):
+        for (lon, lat), flag in ((args.origin, "--from"), (args.destination, "--to")):
             if not (-180 <= lon <= 180 and -90 <= lat <= 90):
-                raise OptionError(f"{opt} {lon},{lat}: not a longitude,latitude; give --crs for projected "
+                raise OptionError(f"{flag} {lon},{lat}: not a longitude,latitude; give --crs for projected "
                                   "coordinates")
     to_net = Transformer.from_crs(src, net.crs, always_xy=True)
     xy = np.array(to_net.transform(*np.array([args.origin, args.destination]).T)).T
-    att = attach_points(net, xy, args.weight, max_access_m=args.max_access_m, walk_kmh=args.walk_kmh)
-    for i, opt in enumerate(("--from", "--to")):
+    att = attach_points(net, xy, opt.weight, max_access_m=opt.max_access_m, walk_kmh=opt.walk_kmh)
+    for i, flag in enumerate(("--from", "--to")):
         if not att.attached[i]:
             pt = (args.origin, args.destination)[i]
             far = (f"{att.access_m[i]:,.0f} m from the nearest place to join the network"
                    if np.isfinite(att.access_m[i]) else "where no network edge can be joined")
-            raise InputError(f"{opt} {pt[0]},{pt[1]}: the point is {far}, beyond --max-access-m "
+            raise InputError(f"{flag} {pt[0]},{pt[1]}: the point is {far}, beyond --max-access-m "
                              f"{args.max_access_m:g}; check the coordinates (X,Y order, --crs) or raise --max-access-m")
-    r = shortest_path(net, att.subset([0]), att.subset([1]), args.weight)
+    r = shortest_path(net, att.subset([0]), att.subset([1]), opt.weight)
     props = {
-        "weight": args.weight,
+        "weight": opt.weight.name,
+        "unit": opt.weight.unit,
         "cost": r.cost,
         "length_m": r.length_m,
         "access_m": r.access_m,
@@ -96,12 +98,13 @@ def run(args):
         note("the two points are in parts of the network that no trip joins on this weight "
              "(cost and geometry null)")
     feature = {"type": "Feature", "geometry": geom, "properties": props}
-    text = dump_json(feature)
     if args.output:
+        from ..export.jsonout import dumps
+
         with atomic_path(args.output) as tmp:
-            tmp.write_text(text + "\n")
-        note(f"route: {args.weight} {r.cost:.6g}, {r.length_m / 1000:.3f} km -> {args.output}" if r.found
+            tmp.write_text(dumps(feature) + "\n", encoding="utf-8")
+        note(f"route: {opt.weight.format(r.cost, 2)}, {r.length_m / 1000:.3f} km -> {args.output}" if r.found
              else f"route: no path -> {args.output}")
     else:
-        sys.stdout.write(text + "\n")
+        print_json(feature)
     return 0

@@ -5,6 +5,8 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
+__all__ = ["register", "default_outdir", "run", "run_compare", "print_summary", "scenario_headline"]
+
 
 def register(sub):
     p = sub.add_parser("run", help="run everything a study file describes",
@@ -22,23 +24,28 @@ def register(sub):
                                    "comparison outputs only.")
     c.add_argument("study", metavar="STUDY.toml")
     c.add_argument("--scenario", action="append", metavar="NAME", help="a scenario to compare (repeatable)")
-    c.add_argument("-o", "--output", required=True, metavar="OUTDIR")
-    c.add_argument("--overwrite", action="store_true")
-    c.add_argument("--quiet", action="store_true")
+    c.add_argument("-o", "--output", metavar="OUTDIR",
+                   help="output folder (default: geo-reach-out/<study name>-compare beside the study file)")
+    c.add_argument("--overwrite", action="store_true", help="replace a folder that already holds results")
+    c.add_argument("--quiet", action="store_true", help="no progress lines")
     c.set_defaults(func=run_compare)
 
 
-def default_outdir(study_path: Path) -> Path:
-    return study_path.parent / "geo-reach-out" / study_path.stem
+def default_outdir(study_path: Path, suffix: str = "") -> Path:
+    """``geo-reach-out/<study name><suffix>`` beside the study file."""
+    return study_path.parent / "geo-reach-out" / f"{study_path.stem}{suffix}"
 
 
 def run(args):
     from ..pipeline import run_study
     from ..study import load_study
+    from ._progress import StepDisplay
 
     study = load_study(args.study)
     out = Path(args.output) if args.output else default_outdir(Path(args.study))
-    summary = run_study(study, out, overwrite=args.overwrite, progress=not args.quiet)
+    show = StepDisplay(not args.quiet, total=6 + 5 * len(study.scenarios))
+    summary = run_study(study, out, overwrite=args.overwrite, progress=show)
+    show.close()
     print_summary(summary, out)
     return 0
 
@@ -46,16 +53,44 @@ def run(args):
 def run_compare(args):
     from ..pipeline import run_study
     from ..study import load_study
+    from ._progress import StepDisplay
 
     study = load_study(args.study)
     if not study.scenarios:
         from ..errors import InputError
 
         raise InputError(f"file '{args.study}': the study has no [scenarios.NAME] table; add one to compare")
-    summary = run_study(study, Path(args.output), overwrite=args.overwrite, scenarios=args.scenario,
-                        only_comparison=True, progress=not args.quiet)
-    print_summary(summary, Path(args.output))
+    out = Path(args.output) if args.output else default_outdir(Path(args.study), "-compare")
+    show = StepDisplay(not args.quiet, total=6 + 5 * len(args.scenario or study.scenarios))
+    summary = run_study(study, out, overwrite=args.overwrite, scenarios=args.scenario,
+                        only_comparison=True, progress=show)
+    show.close()
+    print_summary(summary, out)
     return 0
+
+
+def scenario_headline(s: dict, unit: str) -> str:
+    """One line per scenario, the people it cuts off first (a loss is never hidden behind a gain)."""
+    parts = []
+    cut = s.get("people_cut_off") or {}
+    by_kind = {k: v for k, v in (cut.get("by_kind") or {}).items() if v}
+    if cut.get("total") or by_kind:
+        kinds = ", ".join(f"{k} {v:,.0f}" for k, v in by_kind.items())
+        parts.append(f"CUTS OFF {cut.get('total') or 0:,.0f} people from every hub"
+                     + (f" (from their nearest hub of a kind: {kinds})" if kinds else ""))
+    parts.append("; ".join(s["changes"]) or "changes nothing")
+    parts.append(f"{s.get('new_or_upgraded_km', 0):.1f} km new/upgraded")
+    newly = s.get("people_newly_within", {})
+    if newly:
+        parts.append("people newly within " + ", ".join(f"{k} min: {v:+,.0f}" for k, v in newly.items()))
+    parts.append(f"person-minutes saved {s.get('person_minutes_saved', 0):,.0f}")
+    lc = s.get("largest_component") or {}
+    if lc and not lc.get("same_places", True):
+        parts.append(f"network split: largest part {lc['nodes_before']:,} -> {lc['nodes_after']:,} nodes "
+                     "(diameter not compared)")
+    elif s.get("diameter_change") is not None:
+        parts.append(f"diameter {s['diameter_change']:+.1f} {unit}")
+    return "; ".join(parts)
 
 
 def print_summary(summary: dict, out: Path, file=None):
@@ -72,9 +107,10 @@ def print_summary(summary: dict, out: Path, file=None):
       f"{(n['network_length_m'] or 0) / 1000:.1f} km", file=file)
     d = m["diameter"]
     mp = m["mean_path"]
+    unit = m.get("unit", m["weight"])
     if d["value"] is not None:
-        p(f"diameter: {d['value']:.1f} {m['weight']} (node {d['from_node']} to {d['to_node']}); "
-          f"mean path {mp['value']:.1f} {m['weight']}", file=file)
+        p(f"diameter: {d['value']:.1f} {unit} (node {d['from_node']} to {d['to_node']}); "
+          f"mean path {mp['value']:.1f} {unit}", file=file)
     if "population_total" in b:
         bands = b["population_by_band"]
         largest = max(bands, key=float)
@@ -86,9 +122,5 @@ def print_summary(summary: dict, out: Path, file=None):
           file=file)
     for r in summary.get("scenario_ranking", []):
         s = summary["scenarios"][r["scenario"]]
-        newly = s.get("people_newly_within", {})
-        p(f"scenario {r['rank']}. {r['scenario']}: {'; '.join(s['changes']) or 'changes nothing'}; "
-          f"{s.get('new_or_upgraded_km', 0):.1f} km new/upgraded; people newly within "
-          + ", ".join(f"{k} min: {v:+,.0f}" for k, v in newly.items())
-          + f"; person-minutes saved {s.get('person_minutes_saved', 0):,.0f}", file=file)
+        p(f"scenario {r['rank']}. {r['scenario']}: {scenario_headline(s, unit)}", file=file)
     p(summary["caution"], file=file)

@@ -9,6 +9,13 @@ from __future__ import annotations
 import csv
 from pathlib import Path
 
+from ..analysis.options import SurfaceOptions
+from ._common import add_access, add_direction
+
+__all__ = ["register", "study_from_args", "run"]
+
+_S = SurfaceOptions()
+
 
 def register(sub):
     p = sub.add_parser("surface", help="travel-time surface, reach bands, population and weak regions",
@@ -20,14 +27,12 @@ def register(sub):
     p.add_argument("--hub-kind-field", metavar="F", help="field with the hub kind: one surface per kind too")
     p.add_argument("-o", "--output", required=True, metavar="OUTDIR", help="output folder (new or empty)")
     p.add_argument("--overwrite", action="store_true", help="replace a folder that already holds results")
-    p.add_argument("--cell-m", type=float, default=100.0, help="cell side in metres (default 100)")
-    p.add_argument("--margin-m", type=float, default=2000.0, help="margin around the study area (default 2000)")
+    p.add_argument("--cell-m", type=float, default=_S.cell_m, help=f"cell side in metres (default {_S.cell_m:g})")
+    p.add_argument("--margin-m", type=float, default=_S.margin_m,
+                   help=f"margin around the study area, metres (default {_S.margin_m:g})")
     p.add_argument("--extent", metavar="XMIN,YMIN,XMAX,YMAX", help="grid extent in the network's CRS")
-    p.add_argument("--walk-kmh", type=float, default=5.0, help="off-network walking speed on the flat (default 5)")
-    p.add_argument("--max-access-m", type=float, default=5000.0,
-                   help="hubs farther than this from the network are reported and left out (default 5000)")
-    p.add_argument("--direction", choices=["to-hub", "from-hub"], default="to-hub",
-                   help="the trip from each place to its hub (default) or from the hub out")
+    add_access(p, "hubs")
+    add_direction(p)
     p.add_argument("--terrain", metavar="DEM.tif", help="elevation raster (slopes by Tobler's hiking function)")
     p.add_argument("--landcover", metavar="LC.tif", help="land-cover classes raster (needs --landcover-speeds)")
     p.add_argument("--landcover-speeds", metavar="TABLE",
@@ -39,7 +44,8 @@ def register(sub):
     p.add_argument("--population-field", help="population field of --settlements")
     p.add_argument("--zones", metavar="LAYER", help="district polygons for per-zone tables")
     p.add_argument("--zone-id-field", metavar="F", help="field naming each zone")
-    p.add_argument("--bands", default="30,60,120", help="band limits in minutes (default 30,60,120)")
+    p.add_argument("--bands", default=",".join(f"{b:g}" for b in _S.bands),
+                   help=f"band limits in minutes (default {','.join(f'{b:g}' for b in _S.bands)})")
     p.add_argument("--weak-minutes", type=float, help="weak-region threshold (default: the largest band)")
     p.add_argument("--quiet", action="store_true", help="no progress lines")
     p.set_defaults(func=run)
@@ -129,9 +135,17 @@ def study_from_args(args):
 
 def run(args):
     from ..pipeline import run_surface
+    from ._progress import StepDisplay
 
+    from ..export.guard import check_io
+
+    speeds = args.landcover_speeds if args.landcover_speeds and Path(args.landcover_speeds).is_file() else None
+    check_io(inputs=[args.network, args.hubs, args.terrain, args.landcover, speeds, args.barriers, args.population,
+                     args.settlements, args.zones], folder=args.output, overwrite=args.overwrite)
     study = study_from_args(args)
-    s = run_surface(study, Path(args.output), overwrite=args.overwrite, progress=not args.quiet)
+    show = StepDisplay(not args.quiet)
+    s = run_surface(study, Path(args.output), overwrite=args.overwrite, progress=show)
+    show.close()
     if s.get("population_total") is not None:
         largest = max(s["population_by_band"], key=float)
         print(f"people: {s['population_total']:,.0f}; within {largest} min: {s['population_by_band'][largest]:,.0f}; "

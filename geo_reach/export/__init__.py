@@ -3,7 +3,7 @@ SLD style files and the offline HTML map.  All write atomically (see :mod:`.atom
 
 from .atomic import atomic_dir, atomic_path, check_output
 from .gpkg import write_layers
-from .html_map import Comparison, render_map, write_map
+from .webmap import MapInput, NetworkLayer, ScenarioView, render_map, write_map
 from .raster import cog_problems, write_cog
 from .styles import sld_for, style_path, write_styles
 
@@ -12,5 +12,5 @@ __all__ = [
     "write_layers",
     "write_cog", "cog_problems",
     "write_styles", "sld_for", "style_path",
-    "write_map", "render_map", "Comparison",
+    "write_map", "render_map", "MapInput", "NetworkLayer", "ScenarioView",
 ]

@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import math
 import struct
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -33,7 +34,9 @@ import numpy as np
 from ..errors import CRSError, OptionError, OutputError, where
 from .atomic import atomic_path, check_output
 
-__all__ = ["write_cog", "cog_problems", "tiff_layout", "BLOCK_PX", "OVERVIEW_OVER_PX"]
+__all__ = ["write_cog", "cog_problems", "tiff_layout", "BLOCK_PX", "OVERVIEW_OVER_PX", "Category", "hub_categories",
+           "write_categories", "category_sld", "write_category_sld", "category_colours", "RASTER_TERMS",
+           "write_result_raster", "raster_metadata", "pam_path"]
 
 #: Internal tile size (pixels, square).
 BLOCK_PX = 512
@@ -109,7 +112,7 @@ def _overview_factors(height: int, width: int, block: int) -> list[int]:
     return factors
 
 
-def _write(tmp: Path, arr, transform, crs, nodata, dtype, resampling: str, driver: str):
+def _write(tmp: Path, arr, transform, crs, nodata, dtype, resampling: str, driver: str, meta=None):
     import rasterio
     from rasterio.enums import Resampling
     from rasterio.io import MemoryFile
@@ -121,6 +124,7 @@ def _write(tmp: Path, arr, transform, crs, nodata, dtype, resampling: str, drive
     with MemoryFile() as mem:
         with mem.open(**profile) as ds:
             ds.write(arr)
+            _set_metadata(ds, meta or {})
             if driver == "GTiff":
                 factors = _overview_factors(height, width, OVERVIEW_OVER_PX)
                 if factors:
@@ -139,6 +143,19 @@ def _write(tmp: Path, arr, transform, crs, nodata, dtype, resampling: str, drive
             raise OutputError(f"{where(tmp)}GDAL wrote no CRS or nodata")
 
 
+def _set_metadata(ds, meta: dict) -> None:
+    """Band descriptions, units and tags (GDAL keeps them in the file's GDAL_METADATA TIFF tag)."""
+    for b in range(1, ds.count + 1):
+        if meta.get("description"):
+            ds.set_band_description(b, str(meta["description"]))
+        if meta.get("units") is not None:
+            ds.set_band_unit(b, str(meta["units"]))
+        if meta.get("band_tags"):
+            ds.update_tags(b, **{k: str(v) for k, v in meta["band_tags"].items()})
+    if meta.get("tags"):
+        ds.update_tags(**{k: str(v) for k, v in meta["tags"].items()})
+
+
 def _cog_driver_available() -> bool:
     import rasterio
 
@@ -147,7 +164,8 @@ def _cog_driver_available() -> bool:
 
 
 def write_cog(path, array, transform, crs, nodata, dtype=None, overwrite: bool = False,
-              resampling: str | None = None) -> Path:
+              resampling: str | None = None, *, description: str | None = None, units: str | None = None,
+              tags: dict | None = None, band_tags: dict | None = None) -> Path:
     """Write a raster as a cloud-optimised GeoTIFF, atomically.
 
     Parameters
@@ -170,6 +188,11 @@ def write_cog(path, array, transform, crs, nodata, dtype=None, overwrite: bool =
     resampling : str, optional
         Overview resampling (GDAL name); default ``average`` for floats and
         ``nearest`` for integers (classes must not be averaged).
+    description, units : str, optional
+        Every band's description and unit (GDAL band description and unit
+        type; a desktop GIS shows them beside the band).
+    tags, band_tags : dict, optional
+        Dataset and band metadata items (GDAL metadata, default domain).
 
     Returns
     -------
@@ -214,13 +237,242 @@ def write_cog(path, array, transform, crs, nodata, dtype=None, overwrite: bool =
     driver = "COG" if _cog_driver_available() else "GTiff"
     with atomic_path(path, suffix=path.suffix) as tmp:
         try:
-            _write(tmp, arr, transform, rio_crs, nodata, dtype, _resampling(dtype, resampling), driver)
+            _write(tmp, arr, transform, rio_crs, nodata, dtype, _resampling(dtype, resampling), driver,
+                   {"description": description, "units": units, "tags": tags, "band_tags": band_tags})
         except OutputError:
             raise
         except Exception as err:  # rasterio/GDAL errors
             msg = " ".join(str(err).split())[:200]
             raise OutputError(f"{where(path)}could not be written ({msg}); check the folder is writable "
                               "and has free space") from err
+    return path
+
+
+# ------------------------------------------------------------------ what the result rasters hold
+#: File stem -> (glossary name, unit written as the band's unit type).  ``<kind>`` and ``<scenario>``
+#: stand for the parts that vary.
+RASTER_TERMS = {
+    "minutes": ("hub_minutes", "minutes"),
+    "minutes_<kind>": ("hub_minutes_<kind>", "minutes"),
+    "nearest_hub": ("nearest_hub", "category"),
+    "nearest_<kind>": ("nearest_hub_<kind>", "category"),
+    "connection_m": ("connection_m", "m"),
+    "delta_minutes_<scenario>": ("hub_minutes_change", "minutes"),
+}
+
+
+def _raster_term(stem: str):
+    import re
+
+    for pattern, (name, unit) in RASTER_TERMS.items():
+        rx = "^" + re.escape(pattern).replace(re.escape("<kind>"), "(?P<part>.+)") \
+            .replace(re.escape("<scenario>"), "(?P<part>.+)") + "$"
+        m = re.match(rx, stem)
+        if m:
+            part = m.groupdict().get("part")
+            return (name.replace("<kind>", part) if part and "<kind>" in name else name), unit, part
+    return None
+
+
+def raster_metadata(stem: str) -> dict:
+    """``description``, ``units`` and ``tags`` for a result raster named ``stem`` (``minutes``, ``nearest_clinic`` ...).
+
+    The description is the glossary's name and meaning; the tags carry the
+    tool and the caution.
+
+    >>> raster_metadata("minutes_clinic")["description"].split(":")[0]
+    'hub_minutes_clinic'
+    >>> raster_metadata("delta_minutes_new_road")["units"]
+    'minutes'
+    """
+    from .._meta import CAUTION, TOOL, __version__
+    from ..glossary import describe
+
+    found = _raster_term(stem)
+    tags = {"TIFFTAG_SOFTWARE": f"{TOOL} {__version__}", "CAUTION": CAUTION}
+    if found is None:
+        return {"description": stem, "units": "", "tags": tags}
+    name, unit, part = found
+    meaning = describe(name) or ""
+    if name == "hub_minutes_change":
+        meaning = (f"hub_minutes with scenario {part} minus hub_minutes today (negative: faster); empty where "
+                   "neither reaches a hub.")
+    if unit == "category":
+        meaning += " Cell value = hub number 1..n (0 = none); the categories name each hub."
+    return {"description": f"{name}: {meaning}".strip(), "units": unit, "tags": tags}
+
+
+@dataclass(frozen=True)
+class Category:
+    """One value of a category raster: the hub number and the hub it stands for."""
+
+    value: int
+    hub_id: str
+    name: str | None = None
+    kind: str | None = None
+
+    @property
+    def label(self) -> str:
+        """``<hub_id> <name>`` (the id alone for a hub without a name)."""
+        return f"{self.hub_id} {self.name}" if self.name else str(self.hub_id)
+
+
+def hub_categories(hubs) -> list[Category]:
+    """The categories of a nearest-hub raster: hub number ``k`` is row ``k - 1`` of the hubs frame.
+
+    ``hubs`` is a frame with ``hub_id`` and optional ``name`` and ``kind``.
+    """
+    import pandas as pd
+
+    def text(v):
+        return None if v is None or (not isinstance(v, str) and pd.isna(v)) else str(v)
+
+    names = hubs["name"].tolist() if "name" in hubs.columns else [None] * len(hubs)
+    kinds = hubs["kind"].tolist() if "kind" in hubs.columns else [None] * len(hubs)
+    return [Category(i + 1, str(h), text(n), text(k))
+            for i, (h, n, k) in enumerate(zip(hubs["hub_id"].tolist(), names, kinds))]
+
+
+# GDAL raster attribute table codes (gdal.h: GDALRATFieldType and GDALRATFieldUsage, from memory;
+# the tests read the table back through GDAL itself).
+_GFT_INTEGER, _GFT_STRING = 0, 2
+_GFU_GENERIC, _GFU_NAME, _GFU_MINMAX = 0, 2, 5
+
+
+def pam_path(tif) -> Path:
+    """The GDAL PAM side file of a raster: ``<file>.aux.xml``."""
+    tif = Path(tif)
+    return tif.with_name(tif.name + ".aux.xml")
+
+
+def write_categories(tif, categories: list[Category], nodata_label: str = "") -> Path:
+    """Write the categories of ``tif`` as GDAL category names and a raster attribute table.
+
+    They go into the GDAL PAM side file ``<tif>.aux.xml`` (the place GDAL's
+    GeoTIFF driver keeps both; GDAL, QGIS and rasterio's GDAL read it with
+    the raster).  The table has fields ``value`` (usage MinMax), ``hub_id``,
+    ``name`` (usage Name) and ``kind``; category ``k`` is named
+    :attr:`Category.label`.  Written atomically.
+
+    References
+    ----------
+    .. [1] GDAL documentation: "GDAL Data Model" (category names, raster
+       attribute tables) and the PAM ``.aux.xml`` format (GDALPamDataset).
+    """
+    import xml.etree.ElementTree as ET
+
+    cats = sorted(categories, key=lambda c: c.value)
+    root = ET.Element("PAMDataset")
+    band = ET.SubElement(root, "PAMRasterBand", band="1")
+    names = ET.SubElement(band, "CategoryNames")
+    labels = {c.value: c.label for c in cats}
+    for v in range(0, (cats[-1].value if cats else 0) + 1):
+        ET.SubElement(names, "Category").text = labels.get(v, nodata_label if v == 0 else "")
+    rat = ET.SubElement(band, "GDALRasterAttributeTable", tableType="thematic")
+    fields = (("value", _GFT_INTEGER, _GFU_MINMAX), ("hub_id", _GFT_STRING, _GFU_GENERIC),
+              ("name", _GFT_STRING, _GFU_NAME), ("kind", _GFT_STRING, _GFU_GENERIC))
+    for i, (name, typ, usage) in enumerate(fields):
+        fd = ET.SubElement(rat, "FieldDefn", index=str(i))
+        ET.SubElement(fd, "Name").text = name
+        ET.SubElement(fd, "Type").text = str(typ)
+        ET.SubElement(fd, "Usage").text = str(usage)
+    for r, c in enumerate(cats):
+        row = ET.SubElement(rat, "Row", index=str(r))
+        for v in (str(c.value), c.hub_id, c.name or "", c.kind or ""):
+            ET.SubElement(row, "F").text = v
+    ET.indent(root)
+    out = pam_path(tif)
+    with atomic_path(out, suffix=".xml") as tmp:
+        Path(tmp).write_bytes(ET.tostring(root, encoding="utf-8", xml_declaration=False) + b"\n")
+    return out
+
+
+def category_colours(n: int) -> list[str]:
+    """``n`` colours for hub categories: hues a golden angle apart, so neighbouring numbers differ.
+
+    >>> category_colours(3)
+    ['#d9a362', '#62d9c6', '#d962c9']
+    """
+    import colorsys
+
+    out = []
+    for i in range(n):
+        r, g, b = colorsys.hsv_to_rgb((0.0917 + i * 0.381966) % 1.0, 0.55, 0.85)
+        out.append("#{:02x}{:02x}{:02x}".format(*(round(x * 255) for x in (r, g, b))))
+    return out
+
+
+def category_sld(categories: list[Category], layer: str, title: str | None = None) -> str:
+    """An SLD 1.0.0 raster style: one colour per category, labelled ``<hub_id> <name>``.
+
+    A ``RasterSymbolizer`` whose ``ColorMap`` (``type="values"``, the exact-value
+    map GeoServer and QGIS read; readers without it interpolate between
+    consecutive whole numbers, which gives the same colours on these whole-number
+    cells) has one ``ColorMapEntry`` per hub with its ``label``; value 0 (no hub)
+    is transparent.
+
+    References
+    ----------
+    .. [1] OGC 02-070 (2002). Styled Layer Descriptor Implementation Specification 1.0.0
+       (RasterSymbolizer, ColorMap, ColorMapEntry).
+    """
+    import xml.etree.ElementTree as ET
+
+    from .._meta import CAUTION
+
+    sld, xsi = "http://www.opengis.net/sld", "http://www.w3.org/2001/XMLSchema-instance"
+    ET.register_namespace("", sld)
+    ET.register_namespace("xsi", xsi)
+
+    def el(parent, tag, text=None, **attrib):
+        e = ET.SubElement(parent, f"{{{sld}}}{tag}", attrib)
+        if text is not None:
+            e.text = text
+        return e
+
+    root = ET.Element(f"{{{sld}}}StyledLayerDescriptor", {
+        "version": "1.0.0",
+        f"{{{xsi}}}schemaLocation": "http://www.opengis.net/sld "
+                                    "http://schemas.opengis.net/sld/1.0.0/StyledLayerDescriptor.xsd"})
+    nl = el(root, "NamedLayer")
+    el(nl, "Name", layer)
+    us = el(nl, "UserStyle")
+    el(us, "Name", layer)
+    el(us, "Title", title or f"{layer}: nearest hub")
+    el(us, "Abstract", CAUTION)
+    rule = el(el(us, "FeatureTypeStyle"), "Rule")
+    el(rule, "Name", "hubs")
+    rs = el(rule, "RasterSymbolizer")
+    el(rs, "Opacity", "0.8")
+    cmap = el(rs, "ColorMap", type="values")
+    cats = sorted(categories, key=lambda c: c.value)
+    el(cmap, "ColorMapEntry", color="#ffffff", quantity="0", opacity="0", label="no hub reachable")
+    for c, colour in zip(cats, category_colours(len(cats))):
+        el(cmap, "ColorMapEntry", color=colour, quantity=str(c.value), label=c.label)
+    ET.indent(root)
+    return ET.tostring(root, encoding="unicode", xml_declaration=False)
+
+
+def write_category_sld(path, categories: list[Category], layer: str | None = None) -> Path:
+    """Write :func:`category_sld` to ``path`` (UTF-8, atomically)."""
+    path = Path(path)
+    text = '<?xml version="1.0" encoding="UTF-8"?>\n' + category_sld(categories, layer or path.stem) + "\n"
+    with atomic_path(path, suffix=".sld") as tmp:
+        Path(tmp).write_text(text, encoding="utf-8")
+    return path
+
+
+def write_result_raster(path, array, grid, nodata, *, categories: list[Category] | None = None) -> Path:
+    """A result raster of the pipeline: the COG with its band description, units and tags
+    (:func:`raster_metadata` of the file's stem), plus, for a nearest-hub raster, its categories
+    (:func:`write_categories`) and labelled style (``<stem>.sld``)."""
+    path = Path(path)
+    meta = raster_metadata(path.stem)
+    band_tags = {f"CATEGORY_{c.value}": c.label for c in categories} if categories else None
+    write_cog(path, array, grid.transform, grid.crs, nodata, overwrite=True, band_tags=band_tags, **meta)
+    if categories is not None:
+        write_categories(path, categories)
+        write_category_sld(path.with_suffix(".sld"), categories, layer=path.stem)
     return path
 
 

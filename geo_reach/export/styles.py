@@ -4,10 +4,12 @@ Each ``.sld`` file styles one layer with the same classes and colours as the
 HTML map (:mod:`geo_reach.export.palette`), so a layer added to a desktop GIS
 project can be given its style with one "load style" step:
 
-* ``reach_bands``: fill by ``band_minutes`` (one rule per band);
-* ``weak_regions``: fill by ``reason``, labelled with ``rank``;
-* ``edges`` (with ``hub_minutes``): lines graduated by minutes to the nearest hub;
-* ``hubs`` (with ``kind``): circles by kind;
+* ``reach_rings``: one opaque fill per disjoint ring (by ``to_minutes``);
+* ``reach_bands``: the nested bands as outlines, all hubs together only
+  (per-hub rows are not drawn);
+* ``weak_regions``: outlined in the fixed colour of each ``reason``, labelled with ``rank``;
+* ``edges`` (with ``hub_<weight>``): lines graduated by the cost to the nearest hub;
+* ``hubs`` (with ``kind``): the map's shape per kind;
 * any layer with ``delta_minutes``: lines or fills on the diverging change scale.
 
 Files are SLD 1.1.0 documents whose symbolizers use Symbology Encoding 1.1
@@ -36,7 +38,8 @@ from .atomic import atomic_path, check_output
 
 __all__ = [
     "SLD_NS", "SE_NS", "OGC_NS",
-    "reach_bands_sld", "weak_regions_sld", "edges_sld", "hubs_sld", "change_sld",
+    "reach_rings_sld", "reach_bands_sld", "weak_regions_sld", "edges_sld", "hubs_sld", "change_sld",
+    "COST_FIELDS",
     "sld_for", "write_styles", "style_path",
 ]
 
@@ -190,50 +193,111 @@ def _values(values) -> np.ndarray:
 
 
 # ------------------------------------------------------------------ one function per layer
-def reach_bands_sld(band_minutes, layer: str = "reach_bands") -> str:
-    """SLD text for reach bands: one fill rule per distinct ``band_minutes`` (upper bound, minutes).
+def _and_filter(rule, *parts):
+    """A filter of several comparisons joined by And (one part: no And)."""
+    f = _sub(rule, _ogc("Filter"))
+    if len(parts) > 1:
+        f = _sub(f, _ogc("And"))
+    for op, field, value in parts:
+        if op == "PropertyIsNull":
+            el = _sub(f, _ogc(op))
+            _sub(el, _ogc("PropertyName"), field)
+        else:
+            _cmp(f, op, field, value)
+
+
+def reach_rings_sld(to_minutes, layer: str = "reach_rings") -> str:
+    """SLD text for disjoint reach rings: one opaque fill per ring, the map's colours.
+
+    Rings are told apart by ``to_minutes`` (their inclusive upper bound; null
+    for the last, open ring), so they tile the map without stacking.
 
     Examples
     --------
-    >>> "PropertyIsEqualTo" in reach_bands_sld([15, 30])
+    >>> "PropertyIsNull" in reach_rings_sld([30, 60, None])
     True
     """
-    classes = P.band_classes(np.asarray(list(band_minutes), dtype=float))
-    root, fts = _document(layer, "Reach bands (minutes to the nearest hub)",
-                          "Places reached within each band's upper bound, in minutes. Model estimates only.")
-    for c in classes:
-        rule = _rule(fts, f"band_{_num(c.hi)}", f"{c.label} min")
-        f = _sub(rule, _ogc("Filter"))
-        _cmp(f, "PropertyIsEqualTo", "band_minutes", _num(c.hi))
-        _polygon(rule, c.colour)
+    vals = np.asarray([np.nan if v is None else float(v) for v in to_minutes], dtype=float)
+    ts = sorted({float(v) for v in vals[np.isfinite(vals)]}) or [float("inf")]
+    classes = P.travel_classes(ts) if np.isfinite(ts[-1]) else []
+    root, fts = _document(layer, "Reach rings (minutes to the nearest hub)",
+                          "Disjoint rings: each place lies in one. The last ring also holds places no hub "
+                          "reaches. Model estimates only.")
+    for i, c in enumerate(classes):
+        rule = _rule(fts, f"ring_{i + 1}", c.label)
+        if c.hi is None:
+            _null_filter(rule, "to_minutes")
+        else:
+            f = _sub(rule, _ogc("Filter"))
+            _cmp(f, "PropertyIsEqualTo", "to_minutes", _num(c.hi))
+        _polygon(rule, c.colour, opacity=1.0, outline=c.colour, width=0.2)
     return _text(root)
 
 
-def weak_regions_sld(reasons, layer: str = "weak_regions") -> str:
-    """SLD text for weak regions: fill by ``reason``, each labelled with its ``rank``."""
-    colours = P.category_colours(_values(reasons))
+def reach_bands_sld(band_minutes, layer: str = "reach_bands", field: str = "within_minutes") -> str:
+    """SLD text for the nested reach bands: the outline of each band for all hubs together.
+
+    The bands are nested (the 60-minute band holds the 30-minute one), so
+    filling them would stack colours; each is drawn as its outline (an
+    isochrone), and the per-hub rows (``hub_id`` not null) match no rule.
+    Use ``reach_rings`` for filled areas.
+
+    Examples
+    --------
+    >>> "PolygonSymbolizer" in reach_bands_sld([15, 30])
+    False
+    """
+    vals = sorted({float(v) for v in np.asarray(list(band_minutes), dtype=float) if np.isfinite(v)})
+    root, fts = _document(layer, "Reach bands: outline of the places within each band (all hubs)",
+                          "Nested bands drawn as outlines; per-hub rows are not drawn. Model estimates only.")
+    widths = np.linspace(2.2, 1.0, len(vals)) if vals else []
+    for t, w in zip(vals, widths):
+        rule = _rule(fts, f"band_{_num(t)}", f"within {_num(t)} min")
+        _and_filter(rule, ("PropertyIsEqualTo", field, _num(t)), ("PropertyIsNull", "hub_id", None))
+        _outline(rule, P.OUTLINE, float(w))
+    return _text(root)
+
+
+def weak_regions_sld(reasons=None, layer: str = "weak_regions") -> str:
+    """SLD text for weak regions: outlined in the fixed colour of each reason, labelled with ``rank``."""
     root, fts = _document(layer, "Weakly connected regions (by reason, labelled with rank)",
-                          "Rank 1 is the weakest. Model estimates only.")
-    for i, (reason, colour) in enumerate(colours.items()):
-        rule = _rule(fts, f"reason_{i + 1}", reason)
+                          "Rank 1 has the most people. Model estimates only.")
+    for i, (reason, colour) in enumerate(P.REASON_COLOURS.items()):
+        rule = _rule(fts, f"reason_{i + 1}", P.REASON_LABELS[reason])
         f = _sub(rule, _ogc("Filter"))
         _cmp(f, "PropertyIsEqualTo", "reason", reason)
-        _polygon(rule, colour, outline=P.OUTLINE, width=1.0)
+        _outline(rule, colour)
         _label(rule, "rank")
-    rule = _rule(fts, "reason_other", "other or no reason")
+    rule = _rule(fts, "reason_other", "other reason")
     _sub(rule, _se("ElseFilter"))
-    _polygon(rule, P.NO_VALUE, outline=P.OUTLINE, width=1.0)
+    _outline(rule, P.reason_colour(None))
     _label(rule, "rank")
     return _text(root)
 
 
-def edges_sld(hub_minutes, layer: str = "edges", field: str = "hub_minutes") -> str:
-    """SLD text for the network graduated by minutes to the nearest hub (``hub_minutes``)."""
-    classes = P.cost_classes(np.asarray(list(hub_minutes), dtype=float))
-    root, fts = _document(layer, "Network by minutes to the nearest hub",
-                          "Travel time from each link to the nearest hub. Model estimates only.")
+def _outline(rule, colour: str, width: float = 2.5):
+    sym = _sub(rule, _se("LineSymbolizer"))
+    st = _sub(sym, _se("Stroke"))
+    _svg(st, "stroke", colour)
+    _svg(st, "stroke-width", _num(width))
+
+
+#: Cost fields of network layers and their units (``hub_cost`` is in the routing weight's unit, given by
+#: the caller; the others are kept for layers written by earlier versions).
+COST_FIELDS = {"hub_cost": "", "hub_minutes": "min", "hub_length_m": "m", "hub_hops": "hops",
+               "hub_latency_ms": "ms"}
+#: Change fields (after minus before) and their units; ``hub_cost_change`` is in the weight's unit.
+CHANGE_FIELDS = {"hub_minutes_change": "min", "hub_cost_change": "", "delta_minutes": "min"}
+
+
+def edges_sld(values, layer: str = "edges", field: str = "hub_minutes", unit: str | None = None) -> str:
+    """SLD text for the network graduated by the cost to the nearest hub (the map's network colours)."""
+    unit = unit or COST_FIELDS.get(field, "")
+    classes = P.cost_classes(np.asarray(list(values), dtype=float), unit)
+    root, fts = _document(layer, "Network by cost to the nearest hub",
+                          f"Cost from each link to the nearest hub ({unit}). Model estimates only.")
     for i, c in enumerate(classes):
-        rule = _rule(fts, f"minutes_{i + 1}", f"{c.label} min")
+        rule = _rule(fts, f"cost_{i + 1}", c.label)
         _range_filter(rule, field, c.lo, c.hi)
         _line(rule, c.colour, 2.0)
     rule = _rule(fts, "no_route", "no route to a hub")
@@ -243,22 +307,36 @@ def edges_sld(hub_minutes, layer: str = "edges", field: str = "hub_minutes") -> 
 
 
 def hubs_sld(kinds, layer: str = "hubs") -> str:
-    """SLD text for hubs: circles coloured by ``kind``."""
-    colours = P.category_colours(_values(kinds))
+    """SLD text for hubs: the map's shape per ``kind`` (black, or white with a black outline)."""
+    sym = P.hub_symbols(_values(kinds))
     root, fts = _document(layer, "Hubs by kind", "Places trips are measured to.")
-    for i, (kind, colour) in enumerate(colours.items()):
+    for i, (kind, (shape, fill)) in enumerate(sym.items()):
         rule = _rule(fts, f"kind_{i + 1}", kind)
         f = _sub(rule, _ogc("Filter"))
         _cmp(f, "PropertyIsEqualTo", "kind", kind)
-        _circle(rule, colour)
+        _mark(rule, shape, fill)
     rule = _rule(fts, "kind_other", "other")
     _sub(rule, _se("ElseFilter"))
-    _circle(rule, P.NO_VALUE)
+    _mark(rule, "square", P.NO_VALUE)
     return _text(root)
 
 
-def change_sld(delta_minutes, geometry: str = "line", layer: str = "change") -> str:
-    """SLD text for a change layer on the diverging scale of ``delta_minutes`` (after minus before).
+def _mark(rule, shape: str, fill: str, size: float = 12.0):
+    sym = _sub(rule, _se("PointSymbolizer"))
+    g = _sub(sym, _se("Graphic"))
+    m = _sub(g, _se("Mark"))
+    _sub(m, _se("WellKnownName"), shape)
+    f = _sub(m, _se("Fill"))
+    _svg(f, "fill", fill)
+    st = _sub(m, _se("Stroke"))
+    _svg(st, "stroke", P.OUTLINE if fill == "#ffffff" else "#ffffff")
+    _svg(st, "stroke-width", "1")
+    _sub(g, _se("Size"), _num(size))
+
+
+def change_sld(delta, geometry: str = "line", layer: str = "change", field: str = "delta_minutes",
+               unit: str = "min") -> str:
+    """SLD text for a change layer on the map's diverging scale of ``field`` (after minus before).
 
     Parameters
     ----------
@@ -270,15 +348,15 @@ def change_sld(delta_minutes, geometry: str = "line", layer: str = "change") -> 
             "point": lambda r, c: _circle(r, c, 8.0)}
     if geometry not in draw:
         raise OptionError(f"geometry must be 'line', 'polygon' or 'point', not {geometry!r}")
-    classes = P.change_classes(np.asarray(list(delta_minutes), dtype=float))
-    root, fts = _document(layer, "Change in minutes (after minus before)",
-                          "Negative: faster after the change; positive: slower. Model estimates only.")
+    classes = P.change_classes(np.asarray(list(delta), dtype=float), unit)
+    root, fts = _document(layer, "Change (after minus before)",
+                          "Negative: faster or cheaper after the change; positive: slower. Model estimates only.")
     for i, c in enumerate(classes):
-        rule = _rule(fts, f"change_{i + 1}", f"{c.label} min")
-        _range_filter(rule, "delta_minutes", c.lo, c.hi)
+        rule = _rule(fts, f"change_{i + 1}", c.label)
+        _range_filter(rule, field, c.lo, c.hi)
         draw[geometry](rule, c.colour)
     rule = _rule(fts, "no_value", "no value before or after (new, closed or unreachable)")
-    _null_filter(rule, "delta_minutes")
+    _null_filter(rule, field)
     if geometry == "line":
         _line(rule, P.NO_VALUE, 1.2, dash="4 3")
     else:
@@ -295,24 +373,32 @@ def _geometry_kind(frame) -> str:
     return "line"
 
 
-def sld_for(name: str, frame) -> str | None:
+def sld_for(name: str, frame, cost_unit: str = "") -> str | None:
     """The SLD text for a layer if it is one this module styles, else ``None``.
 
-    Chosen by field: ``delta_minutes`` (change), then by name: ``reach_bands``
-    (``band_minutes``), ``weak_regions`` (``reason``), ``edges``
-    (``hub_minutes``), ``hubs`` (``kind``).
+    Chosen by field: a change field (:data:`CHANGE_FIELDS`), then by name:
+    ``reach_rings`` (``to_minutes``; also ``<scenario>_reach_rings``),
+    ``reach_bands`` (``within_minutes``), ``weak_regions`` (``reason``),
+    ``edges`` and ``<scenario>_edges`` (``hub_cost``), ``hubs`` (``kind``).
+    ``cost_unit`` is the routing weight's unit, for ``hub_cost`` legends.
     """
     cols = set(getattr(frame, "columns", []))
     if not hasattr(frame, "geometry"):
         return None
-    if "delta_minutes" in cols:
-        return change_sld(frame["delta_minutes"], _geometry_kind(frame), layer=name)
-    if name == "reach_bands" and "band_minutes" in cols:
-        return reach_bands_sld(frame["band_minutes"], layer=name)
+    change = [c for c in CHANGE_FIELDS if c in cols]
+    if change:
+        unit = CHANGE_FIELDS[change[0]] or cost_unit
+        return change_sld(frame[change[0]], _geometry_kind(frame), layer=name, field=change[0], unit=unit)
+    if (name == "reach_rings" or name.endswith("_reach_rings")) and "to_minutes" in cols:
+        return reach_rings_sld(frame["to_minutes"], layer=name)
+    band = "within_minutes" if "within_minutes" in cols else "band_minutes"
+    if name == "reach_bands" and band in cols:
+        return reach_bands_sld(frame[band], layer=name, field=band)
     if name == "weak_regions" and "reason" in cols:
         return weak_regions_sld(frame["reason"], layer=name)
-    if "hub_minutes" in cols and _geometry_kind(frame) == "line" and (name == "edges" or name.endswith("_edges")):
-        return edges_sld(frame["hub_minutes"], layer=name)
+    cost = [c for c in COST_FIELDS if c in cols]
+    if cost and _geometry_kind(frame) == "line" and (name == "edges" or name.endswith("_edges")):
+        return edges_sld(frame[cost[0]], layer=name, field=cost[0], unit=COST_FIELDS[cost[0]] or cost_unit)
     if name == "hubs" and "kind" in cols:
         return hubs_sld(frame["kind"], layer=name)
     return None
@@ -324,7 +410,8 @@ def style_path(gpkg_path, layer: str) -> Path:
     return p.with_name(f"{p.stem}.{layer}.sld")
 
 
-def write_styles(gpkg_path, layers: Mapping[str, object], overwrite: bool = False) -> list[Path]:
+def write_styles(gpkg_path, layers: Mapping[str, object], overwrite: bool = False,
+                 cost_unit: str = "") -> list[Path]:
     """Write an ``.sld`` file beside ``gpkg_path`` for each layer :func:`sld_for` styles.
 
     Parameters
@@ -335,6 +422,8 @@ def write_styles(gpkg_path, layers: Mapping[str, object], overwrite: bool = Fals
         The same mapping given to :func:`geo_reach.export.gpkg.write_layers`.
     overwrite : bool
         Replace existing style files.
+    cost_unit : str
+        Unit of ``hub_cost`` (the routing weight's), for legends.
 
     Returns
     -------
@@ -349,7 +438,7 @@ def write_styles(gpkg_path, layers: Mapping[str, object], overwrite: bool = Fals
     """
     todo = []
     for name, frame in layers.items():
-        text = sld_for(name, frame)
+        text = sld_for(name, frame, cost_unit)
         if text is not None:
             todo.append((check_output(style_path(gpkg_path, name), overwrite, "style file"), text))
     out = []

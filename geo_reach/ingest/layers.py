@@ -13,7 +13,8 @@ from pathlib import Path
 
 from ..errors import CRSError, InputError, LayerError, MissingInputError, where
 
-__all__ = ["LayerRef", "parse_layer_ref", "list_layers", "read_frame", "read_layer", "GEOM_FAMILIES"]
+__all__ = ["LayerRef", "parse_layer_ref", "list_layers", "read_frame", "read_layer", "parse_crs", "GEOM_FAMILIES",
+           "layer_set", "exists", "FORMATS", "PARQUET_SUFFIXES", "LAYER_SET_SUFFIXES"]
 
 GEOM_FAMILIES = {
     "lines": {"LineString", "MultiLineString", "LinearRing"},
@@ -54,24 +55,84 @@ def parse_layer_ref(text) -> LayerRef:
     if isinstance(text, LayerRef):
         return text
     text = str(text)
-    if Path(text).exists() or ":" not in text:
+    if exists(text) or ":" not in text:
         return LayerRef(Path(text))
     path, _, layer = text.rpartition(":")
     return LayerRef(Path(path), layer or None)
 
 
+#: Suffixes read as GeoParquet (through pyarrow and geopandas, not a GDAL driver the wheels may lack).
+PARQUET_SUFFIXES = (".parquet", ".geoparquet")
+#: One-layer formats whose ``NAME.<layer>.<ext>`` files may be named together as ``NAME.<ext>`` (what
+#: ``geo-reach build -o NAME.<ext>`` writes).
+LAYER_SET_SUFFIXES = (".parquet", ".geoparquet", ".fgb", ".geojson", ".shp")
+#: The formats the messages name: each is read and written in the tests (tests/test_formats.py).
+FORMATS = "a GeoPackage, Shapefile, GeoJSON, FlatGeobuf or GeoParquet file"
+
+
+def layer_set(path) -> dict[str, Path]:
+    """``{layer: file}`` of the one-layer files ``NAME.<layer>.<ext>`` that ``NAME.<ext>`` stands for.
+
+    Empty when ``path`` exists itself, has another suffix, or no such file is there.
+    """
+    path = Path(path)
+    if path.exists() or path.suffix.lower() not in LAYER_SET_SUFFIXES:
+        return {}
+    folder = path.parent if str(path.parent) else Path(".")
+    if not folder.is_dir():
+        return {}
+    head = f"{path.stem}."
+    out = {}
+    for f in sorted(folder.iterdir()):
+        if f.is_file() and f.name.startswith(head) and f.suffix.lower() == path.suffix.lower():
+            layer = f.name[len(head):-len(f.suffix)]
+            if layer and "." not in layer:
+                out[layer] = f
+    return out
+
+
+def exists(path) -> bool:
+    """``path`` is a file or folder, or stands for a set of one-layer files (:func:`layer_set`)."""
+    return Path(path).exists() or bool(layer_set(path))
+
+
+def _parquet_problem(path: Path) -> str | None:
+    """Why ``path`` is not GeoParquet (None when it is)."""
+    import pyarrow.parquet as pq
+
+    try:
+        meta = pq.read_schema(path).metadata or {}
+    except Exception as err:  # pyarrow raises ArrowInvalid, OSError ...
+        return f"not a Parquet file ({_short(err)})"
+    if b"geo" not in meta:
+        return "a Parquet file without GeoParquet metadata (no 'geo' key): write it as GeoParquet, e.g. with " \
+               "geopandas to_parquet or GDAL's Parquet driver"
+    return None
+
+
 def list_layers(path) -> list[str]:
-    """Names of the vector layers in ``path`` (raises if the file is missing or not vector data)."""
+    """Names of the vector layers in ``path`` (raises if the file is missing or not vector data).
+
+    A GeoParquet file holds one layer, named as the file's stem; ``NAME.<ext>``
+    standing for ``NAME.<layer>.<ext>`` files lists those layers.
+    """
     import pyogrio
 
     path = Path(path)
     if not path.exists():
+        found = layer_set(path)
+        if found:
+            return list(found)
         raise MissingInputError(f"{where(path)}not found; check the path")
+    if path.suffix.lower() in PARQUET_SUFFIXES and path.is_file():
+        problem = _parquet_problem(path)
+        if problem:
+            raise InputError(f"{where(path)}cannot be read as vector data: {problem}")
+        return [path.stem]
     try:
         return [str(n) for n in pyogrio.list_layers(path)[:, 0]]
     except Exception as err:  # pyogrio raises several DataSourceError kinds
-        raise InputError(f"{where(path)}cannot be read as vector data ({_short(err)}); "
-                         "give a GeoPackage, Shapefile, GeoJSON, FlatGeobuf or GeoParquet file") from err
+        raise InputError(f"{where(path)}cannot be read as vector data ({_short(err)}); give {FORMATS}") from err
 
 
 def _short(err) -> str:
@@ -91,12 +152,15 @@ def read_frame(path, layer=None, columns=None):
     names = list_layers(path)
     if layer is not None and layer not in names:
         raise MissingInputError(f"{where(path, layer)}no such layer; the file has: {', '.join(names)}")
-    if layer is None and len(names) > 1 and path.suffix.lower() == ".gpkg":
+    members = layer_set(path)
+    if layer is None and len(names) > 1 and (path.suffix.lower() == ".gpkg" or members):
         raise InputError(f"{where(path)}holds {len(names)} layers ({', '.join(names)}); "
                          f"name one as {path}:LAYER")
+    if members:
+        return read_frame(members[layer or names[0]], None, columns)
     suffix = path.suffix.lower()
     try:
-        if suffix in (".parquet", ".geoparquet"):
+        if suffix in PARQUET_SUFFIXES:
             gdf = gpd.read_parquet(path, columns=columns)
             gdf.index.name = "fid"
             return gdf
@@ -129,7 +193,6 @@ def read_layer(ref, expect: str = "lines", assume_crs=None, allow_empty: bool = 
     ------
     MissingInputError, LayerError, CRSError
     """
-    from pyproj import CRS
 
     ref = parse_layer_ref(ref)
     gdf = read_frame(ref.path, ref.layer)
@@ -153,6 +216,30 @@ def read_layer(ref, expect: str = "lines", assume_crs=None, allow_empty: bool = 
     if gdf.crs is None:
         if assume_crs is None:
             raise CRSError(f"{loc}the layer has no CRS (a Shapefile without its .prj?); "
-                           "add one in a GIS or pass --assume-crs EPSG:NNNN")
-        gdf = gdf.set_crs(CRS.from_user_input(assume_crs))
+                           "add one in a GIS or give assume_crs (e.g. EPSG:32633)", key="assume_crs")
+        gdf = gdf.set_crs(parse_crs(assume_crs, "assume_crs"))
     return gdf
+
+
+def parse_crs(value, key: str = "crs"):
+    """A :class:`pyproj.CRS` from what the user gave (``EPSG:32633``, WKT, PROJ string ...).
+
+    Raises
+    ------
+    CRSError
+        pyproj does not know it; the message names the option (``key``) and
+        gives an example.
+
+    Examples
+    --------
+    >>> parse_crs("EPSG:32633").to_epsg()
+    32633
+    """
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError as ProjCRSError
+
+    try:
+        return CRS.from_user_input(value)
+    except (ProjCRSError, TypeError, ValueError) as err:
+        raise CRSError(f"{key} {str(value)[:80]!r}: not a coordinate reference system pyproj knows; give one "
+                       "such as EPSG:32633", key=key) from err

@@ -1,4 +1,4 @@
-"""Read a built network for one weight, and point layers (hubs, origins, destinations).
+"""Read point layers (hubs, origins, destinations): ids, kinds, one point per part.
 
 Shared by the commands and the study pipeline, so both read inputs the same way.
 """
@@ -9,36 +9,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import InputError, LayerError, MissingInputError, where
+from ..errors import LayerError, MissingInputError, where
 
-__all__ = ["load_network", "Points", "read_points"]
-
-
-def load_network(path, weight: str | None):
-    """Read a network GeoPackage and check it can be routed on ``weight``.
-
-    Raises
-    ------
-    InputError
-        Missing file or layers, negative costs (from :meth:`Network.read`), the
-        weight's column missing from layer ``edges``, or no edge with a value.
-    """
-    import pyogrio
-
-    from ..network.model import Network
-
-    net = Network.read(path)
-    if weight is None:
-        return net
-    if weight != "hops":
-        fields = [str(f) for f in pyogrio.read_info(path, layer="edges")["fields"]]
-        if weight not in fields:
-            raise MissingInputError(f"{where(path, 'edges')}has no field '{weight}' for --weight {weight} "
-                                    f"(fields: {', '.join(fields)}); choose another --weight or rebuild the network")
-        if net.n_edges and np.isnan(net.cost(weight)).all():
-            raise InputError(f"{where(path, 'edges', field=weight)}no edge has a value; "
-                             "choose another --weight")
-    return net
+__all__ = ["Points", "read_points"]
 
 
 @dataclass
@@ -54,12 +27,14 @@ class Points:
     frame: object = None    # the kept features (one row per point), in the network's CRS
 
 
-def read_points(ref, crs, *, id_field=None, kind_field=None, what="hubs", id_option="--hub-id-field",
-                assume_crs=None) -> Points:
+def read_points(ref, crs, *, id_field=None, kind_field=None, what="hubs", id_key="hub_id_field",
+                kind_key="hub_kind_field", assume_crs=None) -> Points:
     """Read a point layer (hubs, origins, destinations), reprojected to the network's CRS.
 
     Ids: the ``id_field`` values (duplicates refused), else the row number
-    from 1.  Multi-points become one point per part sharing the id.  Features
+    from 1.  ``id_key`` and ``kind_key`` name the options that gave the
+    fields, for messages (the CLI and study loader show them as the flag or
+    dotted key the user typed).  Multi-points become one point per part sharing the id.  Features
     without geometry (or without a kind, when kinds are asked for) are left
     out and listed in ``notes``.
     """
@@ -74,7 +49,7 @@ def read_points(ref, crs, *, id_field=None, kind_field=None, what="hubs", id_opt
         if id_field not in gdf.columns:
             raise MissingInputError(f"{loc}has no field '{id_field}' for the {what} ids "
                                     f"(fields: {', '.join(map(str, gdf.columns.drop(gdf.geometry.name)))}); "
-                                    f"check {id_option}")
+                                    f"check {id_key}", key=id_key)
         col = gdf[id_field]
         if col.isna().any():
             fid = gdf.index[col.isna().to_numpy()][0]
@@ -92,7 +67,7 @@ def read_points(ref, crs, *, id_field=None, kind_field=None, what="hubs", id_opt
         if kind_field not in gdf.columns:
             raise MissingInputError(f"{loc}has no field '{kind_field}' for the hub kinds "
                                     f"(fields: {', '.join(map(str, gdf.columns.drop(gdf.geometry.name)))}); "
-                                    "check --hub-kind-field")
+                                    f"check {kind_key}", key=kind_key)
         kinds = gdf[kind_field].to_numpy(object)
     geom = gdf.geometry
     empty = (geom.isna() | geom.is_empty).to_numpy().copy()

@@ -35,6 +35,7 @@ __all__ = [
     "RasterLayer",
     "Resampled",
     "read_raster",
+    "raster_bounds",
     "resample_to_grid",
     "available_memory_bytes",
     "SURFACE_BYTES_PER_CELL",
@@ -209,13 +210,18 @@ class RasterLayer:
     data : ndarray of float64, shape (rows, cols)
         Values; ``NaN`` where the file says no data.
     transform : affine.Affine
+        Of ``data`` (of the window read, when only a window was read).
     crs : pyproj.CRS
+    nonfinite : int
+        Cells holding NaN or an infinity that the file does not declare as
+        no data (read as no data; callers report them).
     """
 
     path: Path
     data: np.ndarray
     transform: Affine
     crs: CRS
+    nonfinite: int = 0
 
 
 @dataclass(frozen=True)
@@ -242,10 +248,42 @@ class Resampled:
     missing_cells: int
     source_total: float = float("nan")
     correction: float = float("nan")
+    nonfinite: int = 0
 
 
-def read_raster(path, band: int = 1) -> RasterLayer:
-    """Read one band of a raster file and check it can be used.
+def _open(path):
+    import rasterio
+    from rasterio.errors import RasterioIOError
+
+    path = Path(path)
+    if not path.exists():
+        raise MissingInputError(f"{where(path)}not found; check the path")
+    if path.is_dir():
+        raise InputError(f"{where(path)}is a folder; give a raster file (GeoTIFF)")
+    try:
+        return rasterio.open(path)
+    except RasterioIOError as err:
+        raise InputError(f"{where(path)}is not a raster GDAL can read; give a GeoTIFF") from err
+
+
+def raster_bounds(path) -> tuple[tuple[float, float, float, float], CRS]:
+    """``(xmin, ymin, xmax, ymax)`` of a raster in its own CRS, and that CRS, without reading pixels.
+
+    Raises
+    ------
+    MissingInputError, InputError, CRSError
+        As :func:`read_raster`.
+    """
+    with _open(path) as ds:
+        if ds.crs is None:
+            raise CRSError(f"{where(path)}has no coordinate reference system; "
+                           "set one (e.g. gdal_edit.py -a_srs EPSG:XXXX) and try again")
+        b = ds.bounds
+        return (b.left, b.bottom, b.right, b.top), CRS.from_user_input(ds.crs)
+
+
+def read_raster(path, band: int = 1, *, within=None, memory_limit_bytes: int | None = None) -> RasterLayer:
+    """Read one band of a raster file (or only the window a study needs) and check it can be used.
 
     Parameters
     ----------
@@ -253,6 +291,13 @@ def read_raster(path, band: int = 1) -> RasterLayer:
         A GeoTIFF or any raster GDAL reads.
     band : int, default 1
         1-based band number.
+    within : (bounds, crs), optional
+        Read only the pixels covering ``bounds`` (xmin, ymin, xmax, ymax in
+        ``crs``), plus two pixels of padding: a continent-wide raster costs
+        only the study area's memory.
+    memory_limit_bytes : int, optional
+        Refuse, before reading, when the pixels to read would need more
+        memory than this (default: half the memory available now).
 
     Returns
     -------
@@ -263,21 +308,16 @@ def read_raster(path, band: int = 1) -> RasterLayer:
     MissingInputError
         The file does not exist.
     InputError
-        The file is not a raster, has no such band, or holds no data at all.
+        The file is not a raster, has no such band, holds no data at all in
+        the window, does not overlap ``within``, or is too large to read
+        (the message states the size).
     CRSError
         The raster has no coordinate reference system.
     """
-    import rasterio
-    from rasterio.errors import RasterioIOError
+    from rasterio.windows import Window, from_bounds
 
     path = Path(path)
-    if not path.exists():
-        raise MissingInputError(f"{where(path)}not found; check the path")
-    try:
-        ds = rasterio.open(path)
-    except RasterioIOError as err:
-        raise InputError(f"{where(path)}is not a raster GDAL can read; give a GeoTIFF") from err
-    with ds:
+    with _open(path) as ds:
         if ds.count < band or band < 1:
             raise InputError(f"{where(path)}has {ds.count} band(s), band {band} asked for; choose 1..{ds.count}")
         if ds.crs is None:
@@ -285,13 +325,39 @@ def read_raster(path, band: int = 1) -> RasterLayer:
                            "set one (e.g. gdal_edit.py -a_srs EPSG:XXXX) and try again")
         if ds.transform.is_identity:
             raise InputError(f"{where(path)}has no georeferencing (identity transform); georeference it first")
-        data = ds.read(band, masked=True).astype(np.float64)
+        full = Window(0, 0, ds.width, ds.height)
+        window = full
+        if within is not None:
+            from rasterio.warp import transform_bounds
+
+            bounds, crs = within
+            try:
+                b = transform_bounds(crs, ds.crs, *bounds, densify_pts=21)
+            except Exception as err:  # pyproj/GDAL raise several kinds for impossible transforms
+                raise InputError(f"{where(path)}the study area cannot be transformed to the raster's CRS "
+                                 f"({err}); reproject the raster first") from err
+            w = from_bounds(*b, transform=ds.transform)
+            w = Window(w.col_off - 2, w.row_off - 2, w.width + 4, w.height + 4).round_offsets().round_lengths()
+            try:
+                window = w.intersection(full)
+            except Exception:   # rasterio raises WindowError when they do not meet
+                raise InputError(f"{where(path)}does not overlap the study area; give a raster covering it "
+                                 "(check its CRS)") from None
+        nbytes = int(window.width) * int(window.height) * 8 * 3
+        limit = memory_limit_bytes if memory_limit_bytes is not None else available_memory_bytes() // 2
+        if nbytes > limit:
+            raise InputError(f"{where(path)}the part to read is {int(window.width):,} x {int(window.height):,} "
+                             f"pixels (about {nbytes / 2**30:,.1f} GiB in memory), above the limit of "
+                             f"{limit / 2**30:,.1f} GiB; clip the raster to the study area or resample it coarser")
+        data = ds.read(band, masked=True, window=window).astype(np.float64)
         arr = np.ma.filled(data, np.nan)
+        nonfinite = int((~np.isfinite(np.ma.getdata(data)) & ~np.ma.getmaskarray(data)).sum())
         arr[~np.isfinite(arr)] = np.nan
         if np.all(np.isnan(arr)):
-            raise InputError(f"{where(path)}band {band} is no data everywhere; "
+            raise InputError(f"{where(path)}band {band} is no data everywhere"
+                             f"{' in the study area' if within is not None else ''}; "
                              "check the file or its nodata value")
-        return RasterLayer(path, arr, ds.transform, CRS.from_user_input(ds.crs))
+        return RasterLayer(path, arr, ds.window_transform(window), CRS.from_user_input(ds.crs), nonfinite)
 
 
 def _sum_resampling_available() -> bool:
@@ -412,7 +478,7 @@ def resample_to_grid(layer: RasterLayer, grid: Grid, kind: str) -> Resampled:
         cover = np.zeros(grid.shape, dtype=np.float64)
         reproject(valid.astype(np.float64), cover, resampling=Resampling.max, src_nodata=None,
                   dst_nodata=None, init_dest_nodata=False, **dst_kw)
-        return Resampled(dst, int((cover <= 0).sum()), total_in, correction)
+        return Resampled(dst, int((cover <= 0).sum()), total_in, correction, layer.nonfinite)
 
     if kind == "terrain":
         dst = np.full(grid.shape, np.nan, dtype=np.float64)

@@ -31,12 +31,10 @@ import pandas as pd
 import scipy.sparse as sp
 from pyproj import CRS
 
-from ..errors import InputError, OptionError
+from ..errors import InputError
+from .weights import Weight, as_weight
 
-__all__ = ["Network", "WEIGHTS", "Adjacency", "EDGE_FIELDS", "NODE_FIELDS"]
-
-#: The costs a route can be weighted by.  ``hops`` counts each link as 1.
-WEIGHTS = ("minutes", "length_m", "latency_ms", "hops")
+__all__ = ["Network", "Adjacency", "EDGE_FIELDS", "NODE_FIELDS"]
 
 #: Fields of the ``edges`` layer, in order (extra columns follow).
 EDGE_FIELDS = ("edge_id", "from_node", "to_node", "mode", "length_m", "minutes",
@@ -153,19 +151,16 @@ class Network:
         return len(self.edge_from)
 
     # ------------------------------------------------------------------ costs
-    def cost(self, weight: str) -> np.ndarray:
-        """Per-edge cost for ``weight`` (``NaN`` = not routable on it)."""
-        if weight == "hops":
-            return np.ones(self.n_edges)
-        if weight == "minutes":
-            return self.edge_minutes
-        if weight == "length_m":
-            return self.edge_length_m
-        if weight == "latency_ms":
-            return self.edge_latency_ms
-        raise OptionError(f"unknown weight '{weight}'; choose one of {', '.join(WEIGHTS)}")
+    def edge_column(self, name: str) -> np.ndarray:
+        """The per-edge cost column ``name`` (``minutes``, ``length_m`` or ``latency_ms``)."""
+        return {"minutes": self.edge_minutes, "length_m": self.edge_length_m,
+                "latency_ms": self.edge_latency_ms}[name]
 
-    def arcs(self, weight: str, reverse: bool = False):
+    def cost(self, weight: Weight | str) -> np.ndarray:
+        """Per-edge cost for ``weight`` (``NaN`` = not routable on it)."""
+        return as_weight(weight).edge_cost(self)
+
+    def arcs(self, weight: Weight | str, reverse: bool = False):
         """Directed arcs usable on ``weight``.
 
         Returns
@@ -189,9 +184,10 @@ class Network:
             tail, head = head, tail
         return tail.astype(np.int64), head.astype(np.int64), cost.astype(np.float64), edge.astype(np.int64)
 
-    def csr(self, weight: str = "minutes", reverse: bool = False) -> Adjacency:
+    def csr(self, weight: Weight | str = "minutes", reverse: bool = False) -> Adjacency:
         """The CSR adjacency for ``weight`` (cached; cheapest of parallel arcs)."""
-        key = (weight, bool(reverse))
+        weight = as_weight(weight)
+        key = (weight.name, bool(reverse))
         cache = self._csr_cache
         if key not in cache:
             tail, head, cost, edge = self.arcs(weight, reverse)
@@ -332,32 +328,3 @@ class Network:
             edge_src_fid=edges["src_fid"].fillna(-1).to_numpy(np.int64) if "src_fid" in edges else np.full(len(edges), -1, np.int64),
             extra=extra,
         )
-
-    @classmethod
-    def read(cls, path) -> "Network":
-        """Read a network GeoPackage written by ``geo-reach build``.
-
-        Raises
-        ------
-        MissingInputError
-            The file does not exist.
-        InputError
-            The file lacks an ``edges`` or ``nodes`` layer, or they are inconsistent.
-        """
-        from ..ingest.layers import list_layers, read_frame
-
-        from ..errors import MissingInputError
-        from pathlib import Path
-
-        path = Path(path)
-        if not path.exists():
-            raise MissingInputError(f"file '{path}': not found; give the GeoPackage written by geo-reach build")
-        names = list_layers(path)
-        for need in ("edges", "nodes"):
-            if need not in names:
-                raise InputError(f"file '{path}': has no layer '{need}' (layers: {', '.join(names) or 'none'}); "
-                                 "give the GeoPackage written by geo-reach build")
-        try:
-            return cls.from_frames(read_frame(path, "edges"), read_frame(path, "nodes"))
-        except InputError as err:
-            raise InputError(f"file '{path}', {err}") from err

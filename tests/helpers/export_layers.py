@@ -66,7 +66,7 @@ def sample_layers() -> dict:
         rings.append(disc if prev is None else disc.difference(prev))
         prev = disc
     bands = gpd.GeoDataFrame({
-        "band_minutes": [15, 30, 60],
+        "within_minutes": [15, 30, 60],
         "area_km2": [shapely.area(g) / 1e6 for g in rings],
         "population": [1200, 830, 310],
     }, geometry=rings, crs=CRS)

@@ -1,0 +1,51 @@
+"""Charts written as PNG files (matplotlib, no display needed).
+
+Every chart carries the caution line at its foot and is written atomically.
+"""
+
+from __future__ import annotations
+
+from .._meta import CAUTION
+from .atomic import atomic_path
+
+__all__ = ["plot_profile"]
+
+
+def plot_profile(profile, path, *, title: str | None = None) -> None:
+    """Write a reach profile as a PNG chart (two panels: nodes and length against cost).
+
+    Parameters
+    ----------
+    profile : geo_reach.analysis.profile.ReachProfile
+    path : str or Path
+        Output PNG; written atomically.
+    title : str, optional
+        Drawn as plain text (matplotlib's mathtext is switched off for it).
+    """
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    import matplotlib.pyplot as plt
+
+    w = profile.weight
+    fig, (a1, a2) = plt.subplots(1, 2, figsize=(10, 4.2), constrained_layout=True)
+    a1.plot(profile.cost, profile.nodes, marker="o", color="#1b6f8a")
+    a1.set_xlabel(f"cost from source ({w.unit_name})")
+    a1.set_ylabel("nodes within cost (count)")
+    a1.grid(alpha=0.3)
+    a2.plot(profile.cost, profile.length_m / 1000.0, marker="s", color="#b5651d")
+    a2.set_xlabel(f"cost from source ({w.unit_name})")
+    a2.set_ylabel("network length within cost (km)")
+    a2.grid(alpha=0.3)
+    g = profile.growth
+    detail = (f"exponent {g.exponent:.2f}" if g.exponent is not None else
+              f"rate {g.rate:.3g} per {w.unit}" if g.rate is not None else "too few steps to fit")
+    src = (f"node {int(profile.sources[0])}" if len(profile.sources) == 1
+           else f"mean of {len(profile.sources)} sources")
+    fig.suptitle(title or f"Reach profile from {src}: growth {g.kind} ({detail})", usetex=False)
+    fig._suptitle.set_parse_math(False)   # a title from the user's data is text, never markup
+    fig.get_layout_engine().set(rect=(0, 0.05, 1, 0.95))  # keep the bottom strip for the caution
+    fig.text(0.01, 0.01, CAUTION, fontsize=6.5, color="#555555")
+    with atomic_path(path, suffix=".png") as tmp:
+        fig.savefig(tmp, dpi=120, format="png")
+    plt.close(fig)
