@@ -21,7 +21,8 @@ from pyproj import CRS
 sys.path.insert(0, str(Path(__file__).parent))
 from helpers.routing_nets import make_network  # noqa: E402
 
-from geo_reach import CAUTION, cli  # noqa: E402
+from geo_reach import cli  # noqa: E402
+from geo_reach._meta import CAUTION  # noqa: E402
 
 X0, Y0 = 500000.0, 6000000.0
 UTM = CRS.from_epsg(32633)
@@ -101,9 +102,13 @@ def test_2sfca_worked_example(case, capsys, monkeypatch):
     hubs = gpd.read_file(case / "out.gpkg", layer="hub_catchments").set_index("hub_id")
     np.testing.assert_allclose(hubs.loc[["H1", "H2"], "ratio"], [1 / 1500, 1 / 2500], rtol=1e-9)
     assert hubs.loc[["H1", "H2", "M"], "settlements_within"].tolist() == [2, 2, 2]
-    csv = (case / "out.csv").read_text().splitlines()
-    assert csv[0] == "settlement_id,kind,measure,index,hubs_within,nearest_minutes,reason"
-    assert len(csv) == 1 + 8
+    from geo_reach.export.tables import read_csv
+
+    assert CAUTION in (case / "out.csv").read_text(encoding="utf-8-sig").splitlines()[0]
+    csv = read_csv(case / "out.csv")
+    assert list(csv.columns) == ["settlement_id", "kind", "measure", "index", "hubs_within", "nearest_minutes",
+                                 "reason"]
+    assert len(csv) == 8
 
 
 def test_cumulative_gravity_and_capacity_default(case, capsys, monkeypatch):
@@ -198,6 +203,6 @@ def test_output_never_replaces_an_input(case, capsys, monkeypatch):
     args = base_args(case, "--measure", "cumulative", "--within-minutes", 5, "--overwrite")
     args[args.index(case / "out.gpkg")] = case / "net.gpkg"
     code, _, err = run(args, capsys, monkeypatch)
-    assert_refused(code, err, "net.gpkg", "is an input")
+    assert_refused(code, err, "net.gpkg", "is also an input")
     assert (case / "net.gpkg").read_bytes() == before
     assert pyogrio.list_layers(case / "net.gpkg")[:, 0].tolist() == ["edges", "nodes"]

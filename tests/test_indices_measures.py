@@ -31,7 +31,7 @@ from geo_reach.analysis.attach import attach_points  # noqa: E402
 from geo_reach.analysis.indices import measures as M  # noqa: E402
 from geo_reach.analysis.indices.layer import access_index, catchment_bound  # noqa: E402
 from geo_reach.analysis.indices.trips import TripCosts, trip_costs  # noqa: E402
-from geo_reach.analysis.routing import od_matrix  # noqa: E402
+from geo_reach.analysis.trips import od_matrix  # noqa: E402
 from geo_reach.errors import OptionError  # noqa: E402
 
 SETTINGS = settings(max_examples=60, deadline=None)

@@ -29,7 +29,7 @@ from helpers.routing_nets import make_network, random_network  # noqa: E402
 from geo_reach.analysis.attach import attach_points  # noqa: E402
 from geo_reach.analysis.indices import trips  # noqa: E402
 from geo_reach.analysis.indices.trips import trip_costs  # noqa: E402
-from geo_reach.analysis.routing import od_matrix  # noqa: E402
+from geo_reach.analysis.trips import od_matrix  # noqa: E402
 from geo_reach.errors import OptionError  # noqa: E402
 
 SETTINGS = settings(max_examples=40, deadline=None)

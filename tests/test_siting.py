@@ -29,7 +29,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 from helpers.routing_nets import make_network, random_network  # noqa: E402
 
 from geo_reach.analysis.attach import attach_points  # noqa: E402
-from geo_reach.analysis.routing import od_matrix  # noqa: E402
+from geo_reach.analysis.trips import od_matrix  # noqa: E402
 from geo_reach.analysis.siting import build_problem, choose_sites, solve, solve_milp  # noqa: E402
 from geo_reach.errors import OptionError  # noqa: E402
 

@@ -21,7 +21,8 @@ from pyproj import CRS
 sys.path.insert(0, str(Path(__file__).parent))
 from helpers.routing_nets import make_network  # noqa: E402
 
-from geo_reach import CAUTION, cli  # noqa: E402
+from geo_reach import cli  # noqa: E402
+from geo_reach._meta import CAUTION  # noqa: E402
 
 X0, Y0 = 500000.0, 6000000.0
 UTM = CRS.from_epsg(32633)
@@ -128,7 +129,8 @@ def test_scenario_file_adds_the_sites_to_a_study(case, capsys, monkeypatch):
     sites = gpd.read_file(case / "out.gpkg", layer="chosen_sites")
     assert sites["hub_id"].tolist() == [3, 4]          # after the existing ids 1 and 2
     assert sites["kind"].tolist() == ["clinic", "clinic"]
-    from geo_reach.pipeline import read_hubs, scenario_inputs
+    from geo_reach.pipeline.inputs import read_hubs
+    from geo_reach.pipeline.scenarios import scenario_inputs
     from geo_reach.study import load_study
 
     study = case / "study.toml"
@@ -193,6 +195,6 @@ def test_scenario_file_never_replaces_an_input(case, capsys, monkeypatch):
     before = (case / "hubs.gpkg").read_bytes()
     code, _, err = run(args_for(case, "--count", 1, "--objective", "coverage", "--within-minutes", 2.5,
                                 "--scenario-file", case / "hubs.gpkg", "--overwrite"), capsys, monkeypatch)
-    assert_refused(code, err, "hubs.gpkg", "is an input")
+    assert_refused(code, err, "hubs.gpkg", "is also an input")
     assert (case / "hubs.gpkg").read_bytes() == before
     assert not (case / "out.gpkg").exists()

@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-from pathlib import Path
+from ._common import add_access, note
 
-from ._routing import add_access, note
+__all__ = ["register", "run", "check_options", "parse_numbers"]
 
 
 def parse_numbers(text):
@@ -65,7 +65,6 @@ def check_options(args):
     from ..analysis.indices.layer import catchment_bound
     from ..analysis.indices.measures import check_decay, check_zones
     from ..errors import OptionError
-    from ._routing import check_positive
 
     t = catchment_bound(args.measure, args.within_minutes, args.weight, args.zone_minutes)
     if args.measure == "gravity":
@@ -91,8 +90,9 @@ def check_options(args):
             check_zones(args.zone_minutes, weights, t)
     elif args.zone_minutes is not None or args.zone_weights is not None:
         raise OptionError(f"--zone-minutes and --zone-weights apply to --measure e2sfca only, not {args.measure}")
-    check_positive(args.walk_kmh, "--walk-kmh")
-    if args.max_access_m is not None and not args.max_access_m >= 0:
+    if not (args.walk_kmh > 0 and args.walk_kmh < float("inf")):
+        raise OptionError(f"--walk-kmh {args.walk_kmh}: give a positive speed in km/h")
+    if not args.max_access_m >= 0:
         raise OptionError(f"--max-access-m {args.max_access_m}: give zero or more metres")
     return t
 
@@ -100,24 +100,18 @@ def check_options(args):
 def run(args):
     import numpy as np
 
-    from .. import CAUTION
+    from .._meta import CAUTION
     from ..analysis.indices.inputs import read_weighted_points
     from ..analysis.indices.layer import index_layer
-    from ..export.atomic import atomic_path, check_output
+    from ..export.atomic import OutputSet
     from ..export.gpkg import write_layers
-    from ._routing import load_network, report_excluded
-
-    from ..ingest.layers import parse_layer_ref
-    from .sites import check_not_input
+    from ..export.guard import check_io
+    from ._common import read_network_arg, report_excluded
 
     t = check_options(args)
-    inputs = [parse_layer_ref(r).path for r in (args.network, args.hubs, args.settlements)]
-    check_not_input(args.output, inputs)
-    check_output(args.output, args.overwrite)
-    if args.csv:
-        check_not_input(args.csv, inputs + [Path(args.output)], "CSV file")
-        check_output(args.csv, args.overwrite, "CSV file")
-    net = load_network(args.network, args.weight)
+    check_io(inputs=[args.network, args.hubs, args.settlements],
+             files=[(args.output, "GeoPackage"), (args.csv, "CSV file")], overwrite=args.overwrite)
+    net = read_network_arg(args.network, args.weight)
     report_excluded(net, args.weight)
     hubs = read_weighted_points(args.hubs, net.crs, what="hubs", value_field=args.capacity_field,
                                 value_name="capacity", value_option="--capacity-field", default=1.0,
@@ -134,20 +128,22 @@ def run(args):
 
         zones = list(np.asarray(E2SFCA_ZONE_FRACTIONS) * t)
     layer, hub_layer, notes = index_layer(net, st, hubs, args.measure, within=t, weight=args.weight,
-                                       decay=args.decay, decay_param=args.decay_param, zones=zones,
-                                       zone_weights=args.zone_weights, max_access_m=args.max_access_m,
-                                       walk_kmh=args.walk_kmh)
+                                          decay=args.decay, decay_param=args.decay_param, zones=zones,
+                                          zone_weights=args.zone_weights, max_access_m=args.max_access_m,
+                                          walk_kmh=args.walk_kmh)
     for msg in notes:
         note(msg)
     unit = "minutes" if args.weight == "minutes" else "m"
     what = f"{args.measure} index within {t:g} {unit}" if np.isfinite(t) else f"{args.measure} index, unbounded"
-    write_layers(args.output, {"access_index": layer, "hub_catchments": hub_layer}, overwrite=args.overwrite,
-                 descriptions={"access_index": f"{what} (settlement to hub). {CAUTION}",
-                               "hub_catchments": f"hub capacity, settlements within reach and supply-to-demand "
-                                                 f"ratio ({args.measure}). {CAUTION}"})
-    if args.csv:
-        with atomic_path(args.csv, suffix=".csv") as tmp:
-            layer.drop(columns="geometry").to_csv(tmp, index=False)
+    with OutputSet([args.output, args.csv]) as out:
+        write_layers(out.path(args.output), {"access_index": layer, "hub_catchments": hub_layer},
+                     descriptions={"access_index": f"{what} (settlement to hub). {CAUTION}",
+                                   "hub_catchments": f"hub capacity, settlements within reach and supply-to-demand "
+                                                     f"ratio ({args.measure}). {CAUTION}"})
+        if args.csv:
+            from ..export.tables import write_csv
+
+            write_csv(out.path(args.csv), layer.drop(columns="geometry"))   # the caution on line 1
     reached = int((layer["hubs_within"] > 0).sum())
     note(f"indices: {args.measure} for {len(st.ids)} settlements and {len(hubs.ids)} hubs; {reached} of {len(layer)} "
          f"rows reach a hub{' within ' + format(t, 'g') + ' ' + unit if np.isfinite(t) else ''} -> {args.output}"

@@ -4,14 +4,16 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ._routing import add_access, note
+from ._common import add_access, note
+
+__all__ = ["register", "run", "check_options", "candidate_points", "new_hub_ids", "scenario_text", "KEYWORDS"]
 
 #: Candidate sources that are not a layer.
 KEYWORDS = ("nodes", "settlements")
 
 
 def register(sub):
-    from ..analysis.siting import OBJECTIVES
+    from ..analysis.siting.problem import OBJECTIVES
 
     p = sub.add_parser("sites", help="where P new hubs would serve people best",
                        description="Chooses P sites among the candidates so that, with the existing hubs still "
@@ -49,30 +51,16 @@ def register(sub):
     p.set_defaults(func=run)
 
 
-def _input_paths(args) -> list[Path]:
-    from ..ingest.layers import parse_layer_ref
-
+def _inputs(args) -> list:
     refs = [args.network, args.hubs, args.settlements]
     if args.candidates not in KEYWORDS or Path(args.candidates).exists():
         refs.append(args.candidates)
-    return [parse_layer_ref(r).path for r in refs]
-
-
-def check_not_input(out, inputs, what="output"):
-    """Refuse an output path that names one of the inputs (``--overwrite`` must never replace an input)."""
-    from ..errors import OutputError
-
-    o = Path(out).resolve()
-    for p in inputs:
-        if Path(p).resolve() == o:
-            raise OutputError(f"file '{out}': is an input of this command; choose another {what} name")
+    return refs
 
 
 def check_options(args):
+    from ..analysis.siting.problem import OBJECTIVES
     from ..errors import OptionError
-    from ._routing import check_positive
-
-    from ..analysis.siting import OBJECTIVES
 
     if args.objective not in OBJECTIVES:
         raise OptionError(f"--objective '{args.objective}' is not an objective; choose one of {', '.join(OBJECTIVES)}")
@@ -84,7 +72,8 @@ def check_options(args):
         raise OptionError(f"--count {args.count}: give 1 or more sites")
     if args.hub_kind is not None and args.hub_kind_field is None:
         raise OptionError("--hub-kind needs --hub-kind-field (the field holding the hub kinds)")
-    check_positive(args.walk_kmh, "--walk-kmh")
+    if not (args.walk_kmh > 0 and args.walk_kmh < float("inf")):
+        raise OptionError(f"--walk-kmh {args.walk_kmh}: give a positive speed in km/h")
     if not args.max_access_m >= 0:
         raise OptionError(f"--max-access-m {args.max_access_m}: give zero or more metres")
 
@@ -135,7 +124,7 @@ def scenario_text(name, description, gpkg_path, scenario_path, kind) -> str:
     import json
     import os
 
-    from .. import CAUTION
+    from .._meta import CAUTION
 
     rel = os.path.relpath(Path(gpkg_path).resolve(), Path(scenario_path).resolve().parent)
     q = json.dumps   # a JSON string is a valid TOML basic string: the text stays data
@@ -156,24 +145,20 @@ def run(args):
     import pandas as pd
     import shapely
 
-    from .. import CAUTION
+    from .._meta import CAUTION
     from ..analysis.access import kind_name
     from ..analysis.indices.inputs import read_weighted_points
     from ..analysis.siting import choose_sites
     from ..errors import LayerError, OptionError, where
-    from ..export.atomic import atomic_path, check_output
+    from ..export.atomic import OutputSet
     from ..export.gpkg import write_layers
-    from ._common import emit_json
-    from ._routing import clean, load_network, report_excluded
+    from ..export.guard import check_io
+    from ._common import print_json, read_network_arg, report_excluded
 
     check_options(args)
-    inputs = _input_paths(args)
-    check_not_input(args.output, inputs)
-    check_output(args.output, args.overwrite)
-    if args.scenario_file:
-        check_not_input(args.scenario_file, inputs + [Path(args.output)], "scenario file")
-        check_output(args.scenario_file, args.overwrite, "scenario file")
-    net = load_network(args.network, "minutes")
+    check_io(inputs=_inputs(args), files=[(args.output, "GeoPackage"), (args.scenario_file, "scenario file")],
+             overwrite=args.overwrite)
+    net = read_network_arg(args.network, "minutes")
     report_excluded(net, "minutes")
     hubs = read_weighted_points(args.hubs, net.crs, what="hubs", id_field=args.hub_id_field,
                                 id_option="--hub-id-field", kind_field=args.hub_kind_field,
@@ -213,22 +198,22 @@ def run(args):
     t = args.within_minutes
     what = (f"coverage within {t:g} minutes" if args.objective == "coverage"
             else "total person-minutes" + (f" (sites counting within {t:g} minutes)" if t is not None else ""))
-    write_layers(args.output, {"chosen_sites": layer}, overwrite=args.overwrite,
-                 descriptions={"chosen_sites": f"{n} new sites for {what}, in pick order. {CAUTION}"})
-    if args.scenario_file:
-        word = kind_name(kind) if kind is not None else "hub"
-        text = scenario_text(f"new_{word}_sites", f"{n} new {kind if kind is not None else 'hub'} sites chosen by "
-                             f"geo-reach sites for {what}", args.output, args.scenario_file, kind)
-        with atomic_path(args.scenario_file, suffix=".toml") as tmp:
-            tmp.write_text(text, encoding="utf-8")
-    summary = res.summary()
+    with OutputSet([args.output, args.scenario_file]) as out:
+        write_layers(out.path(args.output), {"chosen_sites": layer},
+                     descriptions={"chosen_sites": f"{n} new sites for {what}, in pick order. {CAUTION}"})
+        if args.scenario_file:
+            word = kind_name(kind) if kind is not None else "hub"
+            text = scenario_text(f"new_{word}_sites", f"{n} new {kind if kind is not None else 'hub'} sites "
+                                 f"chosen by geo-reach sites for {what}", args.output, args.scenario_file, kind)
+            out.path(args.scenario_file).write_text(text, encoding="utf-8")
     if args.json:
+        summary = res.summary()
         summary["sites"] = [{"site_id": s, "order": int(o), "people_newly_within": float(a),
                              "person_minutes_saved": float(b)}
                             for s, o, a, b in zip(frame["site_id"].tolist(), frame["order"], frame["people_newly_within"],
                                                   frame["person_minutes_saved"])]
         summary["caution"] = CAUTION
-        emit_json(clean(summary), stdout=True)
+        print_json(summary)
     unit = "people within T" if args.objective == "coverage" else "person-minutes"
     gap = "optimal" if res.optimal else (f"gap {100 * res.gap:.2f} % to the bound" if res.gap is not None else "no bound")
     note(f"sites: {n} of {c_what} chosen ({res.method}, {gap}); {unit} {res.objective_before:,.1f} -> "

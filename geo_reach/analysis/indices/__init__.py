@@ -20,13 +20,40 @@ Results are model estimates; local surveys, codes and licensed professional
 practice decide.
 """
 
-from .inputs import WeightedPoints, read_weighted_points
-from .layer import AccessIndex, access_index, catchment_bound, index_layer
-from .measures import (DECAYS, E2SFCA_WEIGHTS, E2SFCA_ZONE_FRACTIONS, MEASURES, balanced, cumulative,
-                       decay_weight, enhanced_two_step, gravity, two_step)
-from .trips import TripCosts, trip_costs
+#: Public name -> the module that defines it (imported on first use, so start-up stays fast).
+_API = {
+    "WeightedPoints": ".inputs",
+    "read_weighted_points": ".inputs",
+    "AccessIndex": ".layer",
+    "access_index": ".layer",
+    "catchment_bound": ".layer",
+    "index_layer": ".layer",
+    "DECAYS": ".measures",
+    "E2SFCA_WEIGHTS": ".measures",
+    "E2SFCA_ZONE_FRACTIONS": ".measures",
+    "MEASURES": ".measures",
+    "balanced": ".measures",
+    "cumulative": ".measures",
+    "decay_weight": ".measures",
+    "enhanced_two_step": ".measures",
+    "gravity": ".measures",
+    "two_step": ".measures",
+    "TripCosts": ".trips",
+    "trip_costs": ".trips",
+}
 
-__all__ = ["TripCosts", "trip_costs", "AccessIndex", "access_index", "index_layer", "catchment_bound",
-           "WeightedPoints", "read_weighted_points", "MEASURES", "DECAYS", "E2SFCA_ZONE_FRACTIONS",
-           "E2SFCA_WEIGHTS", "cumulative", "gravity", "two_step", "enhanced_two_step", "balanced",
-           "decay_weight"]
+__all__ = list(_API)
+
+
+def __getattr__(name):
+    if name in _API:
+        import importlib
+
+        value = getattr(importlib.import_module(_API[name], __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_API))

@@ -21,11 +21,36 @@ Results are model estimates; local surveys, codes and licensed professional
 practice decide.
 """
 
-from .exact import MilpOutcome, model_size, solve_milp
-from .heuristic import greedy, multi_start, vertex_substitution
-from .problem import OBJECTIVES, SitingProblem, build_problem
-from .solver import METHODS, SitingResult, choose_sites, site_gains, solve
+#: Public name -> the module that defines it (imported on first use, so start-up stays fast).
+_API = {
+    "MilpOutcome": ".exact",
+    "model_size": ".exact",
+    "solve_milp": ".exact",
+    "greedy": ".heuristic",
+    "multi_start": ".heuristic",
+    "vertex_substitution": ".heuristic",
+    "OBJECTIVES": ".problem",
+    "SitingProblem": ".problem",
+    "build_problem": ".problem",
+    "METHODS": ".solver",
+    "SitingResult": ".solver",
+    "choose_sites": ".solver",
+    "site_gains": ".solver",
+    "solve": ".solver",
+}
 
-__all__ = ["OBJECTIVES", "METHODS", "SitingProblem", "build_problem", "SitingResult", "solve", "site_gains",
-           "choose_sites", "solve_milp", "MilpOutcome", "model_size", "greedy", "vertex_substitution",
-           "multi_start"]
+__all__ = list(_API)
+
+
+def __getattr__(name):
+    if name in _API:
+        import importlib
+
+        value = getattr(importlib.import_module(_API[name], __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_API))

@@ -113,8 +113,8 @@ class SitingResult:
                 "objective_before": self.objective_before, "optimal": self.optimal, "bound": self.bound,
                 "gap": self.gap, "method": self.method, "heuristic_starts": self.starts,
                 "unreached_cost": None if not np.isfinite(self.unreached_cost) else self.unreached_cost,
-                "people_unreachable": self.people_unreachable, "seconds": round(self.seconds, 3),
-                "notes": list(self.notes)}
+                "people_unreachable": self.people_unreachable, "notes": list(self.notes),
+                "timing": {"seconds": round(self.seconds, 3)}}
 
 
 def _gap(problem: SitingProblem, f: float, f_bound: float):
