@@ -1,0 +1,198 @@
+"""Exact seeds: points joined to nearby cell centres (own cell and the eight around) by straight walks.
+
+The reference here measures each walk with shapely (the length of the segment inside every cell box),
+interpolates the point's elevation with scipy's RegularGridInterpolator and applies Tobler's function
+written out from the paper (Tobler 1993, "Three presentations on geographical analysis and modeling",
+NCGIA Technical Report 93-1).
+"""
+
+import math
+
+import numpy as np
+import pytest
+import shapely
+from hypothesis import given, settings, strategies as st
+from hypothesis.extra import numpy as hnp
+
+from geo_reach.analysis.accumulate import minutes_at_points, seed_points
+from geo_reach.errors import OptionError
+
+
+def _tobler_ratio(slope):
+    """T(0) / T(s): how much longer than on the flat a metre takes at slope s (Tobler 1993)."""
+    return math.exp(-3.5 * 0.05) / math.exp(-3.5 * abs(slope + 0.05))
+
+
+def _walks_reference(kmh, cell_m, x, y, elev, to_point, slope_limit=1.0):
+    """(cell, minutes) pairs a point joins, computed from scratch."""
+    rows, cols = kmh.shape
+    if not (0 <= x < cols and 0 <= y < rows):
+        return []
+    own = (int(math.floor(y)), int(math.floor(x)))
+    if not kmh[own] > 0:
+        return [(own, 0.0)]
+    corners = [(own[0] + a, own[1] + b) for a in (-1, 0, 1) for b in (-1, 0, 1)
+               if 0 <= own[0] + a < rows and 0 <= own[1] + b < cols]
+    zp = math.nan
+    if elev is not None:
+        r0, c0 = math.floor(y - 0.5), math.floor(x - 0.5)
+        if r0 >= 0 and c0 >= 0 and r0 + 1 < rows and c0 + 1 < cols:
+            from scipy.interpolate import RegularGridInterpolator
+
+            f = RegularGridInterpolator((np.arange(rows) + 0.5, np.arange(cols) + 0.5), elev, method="linear")
+            zp = float(f([[y, x]])[0])
+        if not math.isfinite(zp):
+            zp = elev[own]
+    out = []
+    for r, c in corners:
+        seg = shapely.LineString([(x, y), (c + 0.5, r + 0.5)])
+        minutes = 0.0
+        ok = True
+        for rr in range(rows):
+            for cc in range(cols):
+                inside = shapely.box(cc, rr, cc + 1, rr + 1).intersection(seg).length if seg.length else 0.0
+                if inside > 1e-9:
+                    if not kmh[rr, cc] > 0:
+                        ok = False
+                    else:
+                        minutes += inside * cell_m * 60.0 / (1000.0 * kmh[rr, cc])
+        if not ok:
+            continue
+        d = seg.length * cell_m
+        if elev is not None and d > 0 and math.isfinite(zp) and math.isfinite(elev[r, c]):
+            rise = (zp - elev[r, c]) if to_point else (elev[r, c] - zp)
+            minutes *= _tobler_ratio(max(-slope_limit, min(slope_limit, rise / d)))
+        out.append(((r, c), minutes))
+    return out
+
+
+@st.composite
+def _case(draw):
+    rows = draw(st.integers(1, 6))
+    cols = draw(st.integers(1, 6))
+    kmh = draw(hnp.arrays(np.float64, (rows, cols), elements=st.sampled_from([0.0, 1.0, 3.0, 5.0, 6.0])))
+    n = draw(st.integers(1, 6))
+    coord = st.one_of(st.floats(-0.5, 7.0), st.sampled_from([0.0, 0.5, 1.0, 1.5, 2.0, 2.5]))
+    xs = draw(hnp.arrays(np.float64, n, elements=coord))
+    ys = draw(hnp.arrays(np.float64, n, elements=coord))
+    minutes = draw(hnp.arrays(np.float64, n, elements=st.one_of(st.floats(0, 20), st.just(np.inf))))
+    elev = draw(st.one_of(st.none(), hnp.arrays(np.float64, (rows, cols),
+                                                 elements=st.one_of(st.floats(-50, 80), st.just(np.nan)))))
+    direction = draw(st.sampled_from(["to-hub", "from-hub"]))
+    return kmh, xs, ys, minutes, elev, direction
+
+
+@settings(max_examples=70, deadline=None)
+@given(_case())
+def test_seed_points_against_reference(case):
+    kmh, xs, ys, minutes, elev, direction = case
+    cell = 40.0
+    got = seed_points(kmh, cell, xs, ys, minutes, elevation=elev, direction=direction)
+    want = np.full(kmh.shape, np.inf)
+    for i in range(len(xs)):
+        if not np.isfinite(minutes[i]):
+            continue
+        for rc, w in _walks_reference(kmh, cell, xs[i], ys[i], elev, to_point=direction == "to-hub"):
+            want[rc] = min(want[rc], minutes[i] + w)
+    np.testing.assert_allclose(got.minutes, want, rtol=1e-12, atol=1e-12)
+    # the point named is one that gives the cell's minutes
+    for (r, c), p in np.ndenumerate(got.point):
+        if p < 0:
+            assert not np.isfinite(got.minutes[r, c])
+            continue
+        ways = dict(_walks_reference(kmh, cell, xs[p], ys[p], elev, to_point=direction == "to-hub"))
+        assert minutes[p] + ways[(r, c)] == pytest.approx(got.minutes[r, c], rel=1e-12, abs=1e-12)
+
+
+@settings(max_examples=50, deadline=None)
+@given(_case())
+def test_minutes_at_points_against_reference(case):
+    kmh, xs, ys, _, elev, direction = case
+    cell = 40.0
+    surf = np.arange(kmh.size, dtype=np.float64).reshape(kmh.shape) * 0.7
+    surf[0, 0] = np.nan
+    got, cell_of = minutes_at_points(surf, kmh, cell, xs, ys, elevation=elev, direction=direction)
+    for i in range(len(xs)):
+        # to-hub: the trip walks from the point to the centre; from-hub: from the centre to the point
+        ways = _walks_reference(kmh, cell, xs[i], ys[i], elev, to_point=direction == "from-hub")
+        vals = [surf[rc] + w for rc, w in ways if np.isfinite(surf[rc])]
+        if not vals:
+            assert np.isnan(got[i]) and cell_of[i] == -1
+        else:
+            assert got[i] == pytest.approx(min(vals), rel=1e-12, abs=1e-12)
+            assert cell_of[i] >= 0
+
+
+def test_point_joins_its_cell_and_the_eight_around():
+    # 6 km/h = 0.01 min/m; 100 m cells.  A point at x = 1.3, y = 0.8 (cell units) lies in cell (0, 1):
+    # it joins the centres of rows 0..1 (no row -1), columns 0..2, each by the straight walk.
+    kmh = np.full((3, 4), 6.0)
+    s = seed_points(kmh, 100.0, [1.3], [0.8], [2.0])
+    for r in (0, 1):
+        for c in (0, 1, 2):
+            assert s.minutes[r, c] == pytest.approx(2.0 + math.hypot(c + 0.5 - 1.3, r + 0.5 - 0.8), rel=1e-13)
+    assert np.isinf(s.minutes[2, :]).all() and np.isinf(s.minutes[:, 3]).all()
+    assert (s.point[:2, :3] == 0).all() and (s.point[2, :] == -1).all()
+
+
+def test_own_cell_at_most_half_a_diagonal():
+    # Wherever a point lies in its cell, its own cell costs it at most the walk of half a cell diagonal.
+    rng = np.random.default_rng(4)
+    kmh = np.full((4, 4), 5.0)
+    cell = 100.0
+    half_diag_min = math.sqrt(2) / 2 * cell * 60 / 5000
+    for _ in range(300):
+        x, y = rng.uniform(0, 4, 2)
+        s = seed_points(kmh, cell, [x], [y], [0.0])
+        own = s.minutes[int(y), int(x)]
+        assert own <= half_diag_min + 1e-12
+        assert own == pytest.approx(math.hypot(x % 1 - 0.5, y % 1 - 0.5) * cell * 60 / 5000, rel=1e-12)
+    corner = seed_points(kmh, cell, [1.0], [1.0], [0.0])       # at a corner: the four cells meeting there
+    np.testing.assert_allclose(corner.minutes[0:2, 0:2], half_diag_min, rtol=1e-13)
+    # on a cell edge, the cells on both sides get the same walk (no side is favoured)
+    edge = seed_points(kmh, cell, [1.5], [2.0], [0.0])
+    assert edge.minutes[1, 1] == edge.minutes[2, 1] == pytest.approx(0.5 * cell * 60 / 5000, rel=1e-13)
+    assert edge.minutes[1, 0] == pytest.approx(edge.minutes[2, 2], rel=1e-13)
+
+
+def test_walk_blocked_by_impassable_cells_and_inside_one():
+    kmh = np.full((2, 2), 6.0)
+    kmh[0, 1] = 0.0
+    # from (0.9, 0.9) in cell (0, 0): the walk to the centre of (0, 1) ends in the impassable cell (none);
+    # to the centre of (1, 1) the segment (0.9, 0.9) -> (1.5, 1.5) passes (0, 1) only at its corner (1, 1)
+    s = seed_points(kmh, 100.0, [0.9], [0.9], [1.0])
+    assert np.isinf(s.minutes[0, 1])
+    assert s.minutes[1, 1] == pytest.approx(1.0 + math.hypot(0.6, 0.6), rel=1e-13)
+    # from x = 0.9, y = 0.6: to the centre of (1, 1) at (1.5, 1.5) the segment meets column 1 at
+    # y = 0.6 + 0.1 * 0.9 / 0.6 = 0.75 < 1, so it crosses the impassable (0, 1): no walk
+    s = seed_points(kmh, 100.0, [0.9], [0.6], [1.0])
+    assert np.isinf(s.minutes[1, 1]) and np.isfinite(s.minutes[1, 0])
+    # a point inside the impassable cell (a road on a bridge) seeds that cell alone, at its own cost
+    s = seed_points(kmh, 100.0, [1.5], [0.2], [3.0])
+    assert s.minutes[0, 1] == 3.0 and np.isinf(s.minutes[[0, 1, 1], [0, 0, 1]]).all()
+
+
+def test_slope_of_the_walk_from_interpolated_elevation():
+    # A plane rising 0.1 per metre eastward (10 m per 100 m cell): bilinear interpolation is exact on a
+    # plane, so the walk from a point to a centre has the plane's grade along it.  from-hub: travelled
+    # from the point; to the centre east of it: uphill.
+    cell = 100.0
+    cols = np.arange(4)
+    z = np.tile((cols + 0.5) * 10.0, (4, 1))
+    x, y = 1.7, 1.5                       # cell (1, 1); corners (1..2, 1..2); centre (1, 2) is 0.8 cells east
+    s = seed_points(np.full((4, 4), 6.0), cell, [x], [y], [0.0], elevation=z, direction="from-hub")
+    d = 0.8 * cell
+    assert s.minutes[1, 2] == pytest.approx(d * 0.01 * _tobler_ratio(0.1), rel=1e-12)
+    d = 0.2 * cell                        # centre (1, 1) is 0.2 cells west: downhill at -0.1
+    assert s.minutes[1, 1] == pytest.approx(d * 0.01 * _tobler_ratio(-0.1), rel=1e-12)
+    t = seed_points(np.full((4, 4), 6.0), cell, [x], [y], [0.0], elevation=z, direction="to-hub")
+    assert t.minutes[1, 2] == pytest.approx(0.8 * cell * 0.01 * _tobler_ratio(-0.1), rel=1e-12)
+
+
+def test_bad_point_arguments():
+    with pytest.raises(OptionError, match="differ in length"):
+        seed_points(np.ones((2, 2)), 1.0, [0.5, 1.0], [0.5], [0.0, 0.0])
+    with pytest.raises(OptionError, match="zero or more"):
+        seed_points(np.ones((2, 2)), 1.0, [0.5], [0.5], [-1.0])
+    with pytest.raises(OptionError, match="shape"):
+        minutes_at_points(np.ones((2, 3)), np.ones((2, 2)), 1.0, [0.5], [0.5])
