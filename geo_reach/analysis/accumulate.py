@@ -491,7 +491,7 @@ def _check(flat_kmh, seed_minutes, cell_m, seed_label, elevation, direction, slo
         labels = np.asarray(seed_label)
         if labels.shape != flat.shape:
             raise OptionError(f"seed label raster has shape {labels.shape}, speed raster {flat.shape}")
-        labels = labels.astype(np.int64)
+        labels = labels.astype(np.int64, copy=False)
     _check_common(cell_m, direction, slope_limit, neighbours)
     elevation = _check_elevation(elevation, flat.shape)
     return flat, seeds, labels, elevation
@@ -581,7 +581,7 @@ def accumulate(flat_kmh, seed_minutes, cell_m: float, seed_label=None, elevation
     n = nrows * ncols
     pace = _pace(flat)
     dist = np.where(np.isfinite(seeds), seeds, np.inf).ravel()
-    lab = np.where(np.isfinite(seeds), labels, 0).ravel().astype(np.int64)
+    lab = np.where(np.isfinite(seeds), labels, 0).ravel().astype(np.int64, copy=False)
     idx = np.int32 if n < 2**31 - 1 else np.int64
     hk = np.empty(n, dtype=np.float64)
     hi = np.empty(n, dtype=idx)

@@ -304,14 +304,17 @@ def entry_points(network, node_cost, spacing_m: float, direction: str = "to-hub"
         k = len(ok)
         parts.append((hxy[ok, 0], hxy[ok, 1], np.zeros(k), np.full(k, -1), np.full(k, -2), ok))
     cols = [np.concatenate([p[i] for p in parts]) for i in range(6)]
-    return EntryPoints(x=cols[0].astype(np.float64), y=cols[1].astype(np.float64),
-                       minutes=cols[2].astype(np.float64), via_node=cols[3].astype(np.int64),
-                       edge=cols[4].astype(np.int64), hub=cols[5].astype(np.int64))
+    return EntryPoints(x=cols[0].astype(np.float64, copy=False), y=cols[1].astype(np.float64, copy=False),
+                       minutes=cols[2].astype(np.float64, copy=False), via_node=cols[3].astype(np.int64, copy=False),
+                       edge=cols[4].astype(np.int64, copy=False), hub=cols[5].astype(np.int64, copy=False))
 
 
 def _along_hub_edges(e, f, m, oneway, pmin, via, hub, legs: HubLegs, direction):
     """Samples on an edge a hub joins: also costed through the join point (cheaper wins; ties keep the node)."""
-    order = np.argsort(e, kind="stable")          # samples are in edge order already; be safe
+    if e.size < 2 or (e[1:] >= e[:-1]).all():     # samples come in edge order: no sort needed
+        order = np.arange(e.size)
+    else:
+        order = np.argsort(e, kind="stable")
     es = e[order]
     lo = np.searchsorted(es, legs.edge, side="left")
     hi = np.searchsorted(es, legs.edge, side="right")

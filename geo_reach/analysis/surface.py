@@ -244,7 +244,7 @@ def compute_surface(network, node_cost, node_hub, grid, walk_kmh: float = 5.0, t
     clipped = 0 if elev is None else count_steep_moves(elev, grid.cell_m, slope_limit, passable=fr.kmh > 0,
                                                        neighbours=neighbours)
     return SurfaceResult(
-        grid=grid, minutes=acc.minutes, nearest_hub=nearest, entry_node=entry.astype(np.int64),
+        grid=grid, minutes=acc.minutes, nearest_hub=nearest, entry_node=entry.astype(np.int64, copy=False),
         flat_kmh=fr.kmh, direction=direction, clipped_slopes=clipped,
         seed_cells=int(np.isfinite(seeds.minutes).sum()), impassable_cells=fr.impassable_cells,
         landcover_nodata_cells=fr.landcover_nodata_cells,
