@@ -114,3 +114,9 @@ def test_count_steep_moves_against_loop(neighbours):
     assert count_steep_moves(z, cell, 1.0, neighbours=16) > count_steep_moves(z, cell, 1.0, neighbours=8)
     with pytest.raises(OptionError, match="neighbours"):
         count_steep_moves(z, cell, 1.0, neighbours=12)
+
+
+def test_count_steep_moves_limit_is_exclusive():
+    # A move exactly at the limit is costed as it is (not clipped), so it is not counted; just past it is.
+    assert count_steep_moves(np.array([[0.0, 100.0]]), 100.0, 1.0) == 0
+    assert count_steep_moves(np.array([[0.0, 100.001]]), 100.0, 1.0) == 1

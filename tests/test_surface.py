@@ -8,6 +8,7 @@ import shapely
 from pyproj import CRS
 
 from geo_reach.analysis.accumulate import accumulate_reference
+from geo_reach.analysis.friction import count_steep_moves
 from geo_reach.analysis.seeding import (cable_access_nodes, cable_connection_m, entry_points, sample_lines,
                                         seed_cells, seed_raster)
 from geo_reach.analysis.surface import compute_surface
@@ -72,6 +73,11 @@ def test_entry_points_modes():
     on_cable = (p.x > 2000 + 1e-9)
     assert not on_cable.any()                                   # never along a cable
     assert cable_access_nodes(net).tolist() == [4]
+    # given the hub behind each node, a station's point names it
+    q = entry_points(net, np.zeros(6), 250.0, node_hub=np.array([3, 1, 2, 0, -1, 0]))
+    st = q.edge == -1
+    assert dict(zip(q.via_node[st].tolist(), q.hub[st].tolist())) == {1: 1, 2: 2}
+    assert (q.hub[~st] >= 0).all()
 
 
 def test_cable_connection_distance():
@@ -154,6 +160,7 @@ def test_surface_with_terrain_and_barrier_matches_reference():
                                    neighbours=neighbours)
         np.testing.assert_allclose(res.minutes, ref.minutes, rtol=1e-12)
         assert res.impassable_cells > 0 and res.clipped_slopes > 0
+        assert res.clipped_slopes == count_steep_moves(z, 50.0, passable=res.flat_kmh > 0, neighbours=neighbours)
         assert ((res.nearest_hub == 1) == np.isfinite(res.minutes)).all()
 
 
@@ -168,6 +175,8 @@ def test_surface_refusals():
         compute_surface(net, np.zeros(2), np.zeros(2, int), g, terrain=np.zeros((2, 2)))
     with pytest.raises(OptionError, match="neighbours"):
         compute_surface(net, np.zeros(2), np.zeros(2, int), g, neighbours=4)
+    with pytest.raises(OptionError, match="half the cell size"):
+        compute_surface(net, np.zeros(2), np.zeros(2, int), g, spacing_m=60.0)
     with pytest.raises(OptionError, match="hub_xy"):
         compute_surface(net, np.zeros(2), np.zeros(2, int), g, hub_xy=np.zeros((3, 3)))
     with pytest.raises(OptionError, match="names hub 1"):

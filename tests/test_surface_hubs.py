@@ -160,6 +160,9 @@ def test_samples_along_the_hubs_edge(direction, oneway):
     assert (p.hub[np.isfinite(want)] == 0).all()
     inner = (f > 1e-9) & (f < 1 - 1e-9) & np.isfinite(want)
     assert (p.via_node[inner] == -1).all()
+    if not oneway:
+        # at the edge's ends the trip through the join point costs the same as the node's own: the node is kept
+        assert p.via_node[0] == 0 and p.via_node[-1] == 1
     # without the legs, samples are costed through the end nodes only (the old model)
     q = entry_points(net, node_cost, 100.0, direction)
     assert (np.nan_to_num(q.minutes, nan=np.inf) >= np.nan_to_num(p.minutes, nan=np.inf) - 1e-12).all()
@@ -192,6 +195,21 @@ def test_hubs_of_another_kind_are_not_seeds_and_given_legs_agree():
     np.testing.assert_array_equal(both.minutes, given.minutes)
     r, c = g.index(2000.0, 2500.0)
     assert both.minutes[r, c] < 1.0 and both.nearest_hub[r, c] == 2
+    # hub 1 masked out (another kind), numbering kept: hub 2 is still hub 2, and nothing leads to hub 1,
+    # whether the legs are attached here or given as the routing's attachment of both hubs
+    only2 = np.where(np.arange(2)[:, None] == 1, hxy, np.nan)
+    a2 = attach_points(net, hxy[1:], "minutes", walk_kmh=WALK)
+    c2, h2 = nearest_hub(net, a2, "minutes", "to-hub")
+    h2 = np.where(h2 >= 0, h2 + 1, -1)
+    for legs in (None, att):
+        two = compute_surface(net, c2, h2, g, walk_kmh=WALK, hub_xy=only2, hub_legs=legs)
+        assert (two.nearest_hub[np.isfinite(two.minutes)] == 2).all()
+        assert two.minutes[r, c] < 1.0
+        r1, c1 = g.index(5010.0, 1555.0)
+        assert two.minutes[r1, c1] > 5.0
+        # the same surface as for hub 2 alone, numbered 0 (its legs and seeds carried over)
+        alone = compute_surface(net, c2, h2 - 1 * (h2 >= 0), g, walk_kmh=WALK, hub_xy=hxy[1:])
+        np.testing.assert_array_equal(two.minutes, alone.minutes)
     # hub 2 masked out (another kind): its cell walks to the road instead
     only1 = np.where(np.arange(2)[:, None] == 0, hxy, np.nan)
     a1 = attach_points(net, hxy[:1], "minutes", walk_kmh=WALK)
@@ -199,3 +217,18 @@ def test_hubs_of_another_kind_are_not_seeds_and_given_legs_agree():
     one = compute_surface(net, c1, h1, g, walk_kmh=WALK, hub_xy=only1)
     assert one.minutes[r, c] > 5.0 and one.nearest_hub[r, c] == 1
     assert (one.nearest_hub[np.isfinite(one.minutes)] == 1).all()
+
+
+def test_hub_legs_at_the_surfaces_walking_speed():
+    # At 3 km/h the default legs are attached at 3 km/h (as the routing attaches them): the 30 m leg costs
+    # 0.6 minutes, and the samples along the hub's edge carry it.
+    hub = (5010.0, 1555.0)
+    net = net_from_edges([(0.0, 1525.0), (10000.0, 1525.0)], [(0, 1)], minutes=[10.0])
+    g = grid(120, 30, cell_m=100.0, x0=-1000.0)
+    att = attach_points(net, [hub], "minutes", walk_kmh=3.0)
+    cost, node_hub = nearest_hub(net, att, "minutes", "to-hub")
+    res = compute_surface(net, cost, node_hub, g, walk_kmh=3.0, hub_xy=[hub])
+    given = compute_surface(net, cost, node_hub, g, walk_kmh=3.0, hub_xy=[hub], hub_legs=att)
+    np.testing.assert_array_equal(res.minutes, given.minutes)
+    r1, c1 = g.index(6050.0, 1550.0)
+    assert res.minutes[r1, c1] == pytest.approx((25 + 30) * 60 / 3000 + 1040 * P_ROAD, rel=1e-12)

@@ -189,6 +189,48 @@ def test_slope_of_the_walk_from_interpolated_elevation():
     assert t.minutes[1, 2] == pytest.approx(0.8 * cell * 0.01 * _tobler_ratio(-0.1), rel=1e-12)
 
 
+def test_walk_through_a_corner_between_two_impassable_cells():
+    # Walks from points on a diagonal through a cell corner to the centre beyond touch the two side cells
+    # only at that corner; both are impassable, and the walk is still made (as a diagonal move is).  Far
+    # from the origin, rounding cuts pieces of about 1e-16 cells inside a side cell: they are ignored.
+    rng = np.random.default_rng(8)
+    kmh0 = np.full((50, 50), 6.0)
+    for _ in range(60):
+        r, c = rng.integers(2, 48, 2)
+        sr, sc = rng.choice([-1, 1], 2)                 # the corner (c + 0.5 + sc/2, r + 0.5 + sr/2)
+        kmh = kmh0.copy()
+        kmh[r + sr, c] = kmh[r, c + sc] = 0.0            # the side cells at that corner
+        a = rng.uniform(0.01, 0.99)
+        kx, ky = c + 0.5 + sc / 2, r + 0.5 + sr / 2
+        x, y = kx + sc * a / 2, ky + sr * a / 2         # inside cell (r + sr, c + sc), on the diagonal
+        s = seed_points(kmh, 100.0, [x], [y], [0.0])
+        assert s.minutes[r, c] == pytest.approx(math.hypot(c + 0.5 - x, r + 0.5 - y), rel=1e-12)
+
+
+def test_first_point_among_equals_and_the_cheapest_wins():
+    kmh = np.full((2, 2), 6.0)
+    s = seed_points(kmh, 100.0, [0.5, 0.5, 0.5], [0.5, 0.5, 0.5], [2.0, 2.0, 1.0])
+    assert s.point[0, 0] == 2 and s.minutes[0, 0] == 1.0
+    s = seed_points(kmh, 100.0, [0.5, 0.5], [0.5, 0.5], [2.0, 2.0])
+    assert (s.point == 0).all()
+
+
+def test_reading_a_surface_walks_the_right_way_uphill():
+    # A plane rising 10 m per 100 m cell eastward; the surface is 0 at the centre of cell (1, 2) and NaN
+    # elsewhere.  A point 0.8 cells west of that centre: to-hub walks from the point east to the centre,
+    # uphill (+0.1); from-hub walks from the centre west to the point, downhill (-0.1).
+    cell = 100.0
+    z = np.tile((np.arange(4) + 0.5) * 10.0, (4, 1))
+    surf = np.full((4, 4), np.nan)
+    surf[1, 2] = 0.0
+    kmh = np.full((4, 4), 6.0)
+    up, c_up = minutes_at_points(surf, kmh, cell, [1.7], [1.5], elevation=z, direction="to-hub")
+    down, _ = minutes_at_points(surf, kmh, cell, [1.7], [1.5], elevation=z, direction="from-hub")
+    assert up[0] == pytest.approx(0.8 * cell * 0.01 * _tobler_ratio(0.1), rel=1e-12)
+    assert down[0] == pytest.approx(0.8 * cell * 0.01 * _tobler_ratio(-0.1), rel=1e-12)
+    assert c_up[0] == 1 * 4 + 2
+
+
 def test_bad_point_arguments():
     with pytest.raises(OptionError, match="differ in length"):
         seed_points(np.ones((2, 2)), 1.0, [0.5, 1.0], [0.5], [0.0, 0.0])
