@@ -17,7 +17,7 @@ from scipy.sparse.csgraph import dijkstra
 from geo_reach.analysis.attach import attach_points
 from geo_reach.analysis.routing import nearest_hub
 from geo_reach.analysis.seeding import HubLegs, entry_points
-from geo_reach.analysis.surface import compute_surface
+from geo_reach.analysis.surface import compute_surface, minutes_at_points
 from tests.helpers.surface_nets import grid, net_from_edges
 
 WALK = 5.0                         # km/h
@@ -232,3 +232,30 @@ def test_hub_legs_at_the_surfaces_walking_speed():
     np.testing.assert_array_equal(res.minutes, given.minutes)
     r1, c1 = g.index(6050.0, 1550.0)
     assert res.minutes[r1, c1] == pytest.approx((25 + 30) * 60 / 3000 + 1040 * P_ROAD, rel=1e-12)
+
+
+def test_minutes_at_exact_points_beside_the_road():
+    # Points up to 140 m either side of the road, and the hub itself, read at their own positions: the walk
+    # straight to where it meets the road (or to the hub), then the ride and the hub's leg.  Against the
+    # continuous cheapest trip (road points every 0.5 m, so the reference may be up to 0.25 m of walking
+    # too dear): never below it, and above it by at most what entering square to the road costs against
+    # entering at the best angle (sin a = walking speed / road speed = 1/12; at 140 m: 0.0059 minutes).
+    hub = (5010.0, 1555.0)
+    net, g, hxy, cost, node_hub = _road_case(hub)
+    res = compute_surface(net, cost, node_hub, g, walk_kmh=WALK, hub_xy=hxy)
+    rng = np.random.default_rng(1)
+    x = np.append(rng.uniform(200, 9800, 150), hub[0])
+    y = np.append(1525 + rng.uniform(-140, 140, 150), hub[1])
+    m, h, node = minutes_at_points(res, x, y)
+    rx = np.arange(0.0, 10000.0 + 0.25, 0.5)
+    true = np.array([min(math.hypot(px - hub[0], py - hub[1]) * P_WALK,
+                         (np.hypot(px - rx, py - 1525.0) * P_WALK + np.abs(rx - hub[0]) * P_ROAD).min() + 30 * P_WALK)
+                     for px, py in zip(x, y)])
+    square = 140 * P_WALK * (1 - math.sqrt(1 - (P_ROAD / P_WALK) ** 2))
+    assert (m >= true - 0.25 * P_WALK - 1e-12).all()
+    assert (m <= true + square + 1e-9).all()
+    assert m[-1] == 0.0 and h[-1] == 1 and node[-1] == -1
+    assert (h == 1).all()
+    # the cell values (for the cell centres) differ from the points' own by up to several tenths of a minute
+    cells = res.minutes[g.index(x, y)]
+    assert np.abs(cells - m).max() > 0.3

@@ -14,7 +14,7 @@ import shapely
 from hypothesis import given, settings, strategies as st
 from hypothesis.extra import numpy as hnp
 
-from geo_reach.analysis.accumulate import minutes_at_points, seed_points
+from geo_reach.analysis.accumulate import accumulate, minutes_at_points, seed_points
 from geo_reach.errors import OptionError
 
 
@@ -23,46 +23,69 @@ def _tobler_ratio(slope):
     return math.exp(-3.5 * 0.05) / math.exp(-3.5 * abs(slope + 0.05))
 
 
-def _walks_reference(kmh, cell_m, x, y, elev, to_point, slope_limit=1.0):
-    """(cell, minutes) pairs a point joins, computed from scratch."""
+def _z_reference(elev, x, y):
+    """Elevation at a point: bilinear between the four centres around it (scipy), else its own cell's."""
+    if elev is None:
+        return math.nan
+    rows, cols = elev.shape
+    z = math.nan
+    r0, c0 = math.floor(y - 0.5), math.floor(x - 0.5)
+    if r0 >= 0 and c0 >= 0 and r0 + 1 < rows and c0 + 1 < cols:
+        from scipy.interpolate import RegularGridInterpolator
+
+        f = RegularGridInterpolator((np.arange(rows) + 0.5, np.arange(cols) + 0.5), elev, method="linear")
+        z = float(f([[y, x]])[0])
+    return z if math.isfinite(z) else float(elev[int(math.floor(y)), int(math.floor(x))])
+
+
+def _walk_reference(kmh, cell_m, a, b, za, zb, slope_limit=1.0):
+    """Minutes of the straight walk from a to b (cell units), None if it crosses an impassable cell: the
+    length inside every cell box measured with shapely, at that cell's pace, then Tobler on the rise."""
+    rows, cols = kmh.shape
+    seg = shapely.LineString([a, b])
+    minutes = 0.0
+    for rr in range(rows):
+        for cc in range(cols):
+            inside = shapely.box(cc, rr, cc + 1, rr + 1).intersection(seg).length if seg.length else 0.0
+            if inside > 1e-9:
+                if not kmh[rr, cc] > 0:
+                    return None
+                minutes += inside * cell_m * 60.0 / (1000.0 * kmh[rr, cc])
+    d = seg.length * cell_m
+    if d > 0 and math.isfinite(za) and math.isfinite(zb):
+        minutes *= _tobler_ratio(max(-slope_limit, min(slope_limit, (zb - za) / d)))
+    return minutes
+
+
+def _block(kmh, x, y, reach=1):
+    """The cells a point joins: its own and those up to ``reach`` rows and columns away (None outside)."""
     rows, cols = kmh.shape
     if not (0 <= x < cols and 0 <= y < rows):
-        return []
+        return None
     own = (int(math.floor(y)), int(math.floor(x)))
+    span = range(-reach, reach + 1)
+    return own, [(own[0] + a, own[1] + b) for a in span for b in span
+                 if 0 <= own[0] + a < rows and 0 <= own[1] + b < cols]
+
+
+def _walks_reference(kmh, cell_m, x, y, elev, to_point, slope_limit=1.0, reach=1):
+    """(cell, minutes) pairs a point joins, computed from scratch (seeds: reach 1; read points: 2)."""
+    blk = _block(kmh, x, y, reach)
+    if blk is None:
+        return []
+    own, cells = blk
     if not kmh[own] > 0:
         return [(own, 0.0)]
-    corners = [(own[0] + a, own[1] + b) for a in (-1, 0, 1) for b in (-1, 0, 1)
-               if 0 <= own[0] + a < rows and 0 <= own[1] + b < cols]
-    zp = math.nan
-    if elev is not None:
-        r0, c0 = math.floor(y - 0.5), math.floor(x - 0.5)
-        if r0 >= 0 and c0 >= 0 and r0 + 1 < rows and c0 + 1 < cols:
-            from scipy.interpolate import RegularGridInterpolator
-
-            f = RegularGridInterpolator((np.arange(rows) + 0.5, np.arange(cols) + 0.5), elev, method="linear")
-            zp = float(f([[y, x]])[0])
-        if not math.isfinite(zp):
-            zp = elev[own]
+    zp = _z_reference(elev, x, y)
     out = []
-    for r, c in corners:
-        seg = shapely.LineString([(x, y), (c + 0.5, r + 0.5)])
-        minutes = 0.0
-        ok = True
-        for rr in range(rows):
-            for cc in range(cols):
-                inside = shapely.box(cc, rr, cc + 1, rr + 1).intersection(seg).length if seg.length else 0.0
-                if inside > 1e-9:
-                    if not kmh[rr, cc] > 0:
-                        ok = False
-                    else:
-                        minutes += inside * cell_m * 60.0 / (1000.0 * kmh[rr, cc])
-        if not ok:
-            continue
-        d = seg.length * cell_m
-        if elev is not None and d > 0 and math.isfinite(zp) and math.isfinite(elev[r, c]):
-            rise = (zp - elev[r, c]) if to_point else (elev[r, c] - zp)
-            minutes *= _tobler_ratio(max(-slope_limit, min(slope_limit, rise / d)))
-        out.append(((r, c), minutes))
+    for r, c in cells:
+        zc = math.nan if elev is None else float(elev[r, c])
+        if to_point:
+            w = _walk_reference(kmh, cell_m, (c + 0.5, r + 0.5), (x, y), zc, zp, slope_limit)
+        else:
+            w = _walk_reference(kmh, cell_m, (x, y), (c + 0.5, r + 0.5), zp, zc, slope_limit)
+        if w is not None:
+            out.append(((r, c), w))
     return out
 
 
@@ -105,22 +128,54 @@ def test_seed_points_against_reference(case):
 
 
 @settings(max_examples=50, deadline=None)
-@given(_case())
-def test_minutes_at_points_against_reference(case):
-    kmh, xs, ys, _, elev, direction = case
+@given(_case(), st.booleans())
+def test_minutes_at_points_against_reference(case, with_seeds):
+    kmh, xs, ys, seed_m, elev, direction = case
     cell = 40.0
     surf = np.arange(kmh.size, dtype=np.float64).reshape(kmh.shape) * 0.7
     surf[0, 0] = np.nan
-    got, cell_of = minutes_at_points(surf, kmh, cell, xs, ys, elevation=elev, direction=direction)
-    for i in range(len(xs)):
-        # to-hub: the trip walks from the point to the centre; from-hub: from the centre to the point
-        ways = _walks_reference(kmh, cell, xs[i], ys[i], elev, to_point=direction == "from-hub")
+    # query points: the seed points themselves, shifted a little, and a few fixed places
+    qx = np.concatenate([xs + 0.13, [0.5, 1.2, 2.9]])
+    qy = np.concatenate([ys - 0.21, [0.5, 0.7, 1.1]])
+    kw = dict(seed_col=xs, seed_row=ys, seed_minutes=seed_m) if with_seeds else {}
+    got, cell_of, seed_of = minutes_at_points(surf, kmh, cell, qx, qy, elevation=elev, direction=direction, **kw)
+    for i in range(len(qx)):
+        # to-hub: the trip walks from the point to the centre (or seed); from-hub: from there to the point
+        ways = _walks_reference(kmh, cell, qx[i], qy[i], elev, to_point=direction == "from-hub", reach=2)
         vals = [surf[rc] + w for rc, w in ways if np.isfinite(surf[rc])]
+        blk = _block(kmh, qx[i], qy[i], reach=2)
+        if with_seeds and blk is not None and kmh[blk[0]] > 0:
+            zq = _z_reference(elev, qx[i], qy[i])
+            for j in range(len(xs)):
+                sb = _block(kmh, xs[j], ys[j])
+                if sb is None or sb[0] not in blk[1] or not np.isfinite(seed_m[j]):
+                    continue
+                zs = _z_reference(elev, xs[j], ys[j])
+                if direction == "to-hub":
+                    w = _walk_reference(kmh, cell, (qx[i], qy[i]), (xs[j], ys[j]), zq, zs)
+                else:
+                    w = _walk_reference(kmh, cell, (xs[j], ys[j]), (qx[i], qy[i]), zs, zq)
+                if w is not None:
+                    vals.append(seed_m[j] + w)
         if not vals:
-            assert np.isnan(got[i]) and cell_of[i] == -1
+            assert np.isnan(got[i]) and cell_of[i] == -1 and seed_of[i] == -1
         else:
             assert got[i] == pytest.approx(min(vals), rel=1e-12, abs=1e-12)
-            assert cell_of[i] >= 0
+            assert (cell_of[i] >= 0) != (seed_of[i] >= 0)
+
+
+def test_reading_at_a_seed_point_gives_its_own_cost():
+    kmh = np.full((5, 5), 5.0)
+    pts = (np.array([1.3, 3.7]), np.array([2.2, 0.4]), np.array([1.0, 0.0]))   # 3 cells (3.6 min) apart
+    s = seed_points(kmh, 100.0, *pts)
+    acc = accumulate(kmh, s.minutes, 100.0, seed_label=s.point + 1)
+    m, _, seed = minutes_at_points(acc.minutes, kmh, 100.0, *pts[:2], seed_col=pts[0], seed_row=pts[1],
+                                   seed_minutes=pts[2])
+    np.testing.assert_allclose(m, pts[2], atol=1e-12)
+    assert seed.tolist() == [0, 1]
+    # without the seeds the point reads through a cell centre: twice its walk to its own centre, or more
+    m2, cell_of, _ = minutes_at_points(acc.minutes, kmh, 100.0, *pts[:2])
+    assert (m2 > m + 0.1).all() and (cell_of >= 0).all()
 
 
 def test_point_joins_its_cell_and_the_eight_around():
@@ -224,8 +279,8 @@ def test_reading_a_surface_walks_the_right_way_uphill():
     surf = np.full((4, 4), np.nan)
     surf[1, 2] = 0.0
     kmh = np.full((4, 4), 6.0)
-    up, c_up = minutes_at_points(surf, kmh, cell, [1.7], [1.5], elevation=z, direction="to-hub")
-    down, _ = minutes_at_points(surf, kmh, cell, [1.7], [1.5], elevation=z, direction="from-hub")
+    up, c_up, _ = minutes_at_points(surf, kmh, cell, [1.7], [1.5], elevation=z, direction="to-hub")
+    down, _, _ = minutes_at_points(surf, kmh, cell, [1.7], [1.5], elevation=z, direction="from-hub")
     assert up[0] == pytest.approx(0.8 * cell * 0.01 * _tobler_ratio(0.1), rel=1e-12)
     assert down[0] == pytest.approx(0.8 * cell * 0.01 * _tobler_ratio(-0.1), rel=1e-12)
     assert c_up[0] == 1 * 4 + 2

@@ -60,8 +60,10 @@ own cell and of the eight cells around it with its cost plus the straight
 walk to each, costed as a move is (pieces at their cells' paces, Tobler on
 the rise from the point's elevation, bilinear between the four centres
 around it, to the centre's).  :func:`minutes_at_points` reads a surface at
-exact positions the same way (the cheapest of those nine centres plus the
-walk to it).  A point inside an impassable cell joins that cell alone, at no
+exact positions with the same walks, a little farther: the cheapest of the
+centres of the 25 cells up to two rows and columns away plus the walk to it,
+or, given the seed points, a straight walk to one of those lying in the same
+25 cells.  A point inside an impassable cell joins that cell alone, at no
 walking cost (a road on a bridge seeds the bridge cell with the road's cost).
 
 Contract for callers (walk legs off the network).  ``accumulate`` takes
@@ -108,6 +110,10 @@ KNIGHT_MOVES = ((-2, -1), (-2, 1), (-1, -2), (-1, 2), (1, -2), (1, 2), (2, -1), 
 #: Pieces of a walk shorter than this (cell sides) are ignored: a segment through a cell corner
 #: touches the cells meeting there, it does not cross them.
 _TOUCH = 1e-9
+#: Cells (rows and columns away) a point being read joins: its own and those up to 2 away (25 cells).
+#: Seeds join only their own and the 8 around (millions of them); a read point (thousands) walks
+#: straight a little farther, which cuts the detour through a cell centre.
+READ_REACH = 2
 
 
 def moves(neighbours: int = 16) -> tuple:
@@ -365,15 +371,59 @@ def _segment_pace(pace, nrows, ncols, x0, y0, x1, y1):
 
 
 @numba.njit(cache=True, nogil=True)
+def _point_z(elev, use_elev, nrows, ncols, x, y):
+    """Elevation at a point (cell units): bilinear between the four centres around it, else its own cell's."""
+    if not use_elev:
+        return np.nan
+    zp = np.nan
+    cl = int(math.floor(x - 0.5))
+    rl = int(math.floor(y - 0.5))
+    if cl >= 0 and rl >= 0 and cl + 1 < ncols and rl + 1 < nrows:
+        z00 = elev[rl * ncols + cl]
+        z01 = elev[rl * ncols + cl + 1]
+        z10 = elev[(rl + 1) * ncols + cl]
+        z11 = elev[(rl + 1) * ncols + cl + 1]
+        fx = x - (cl + 0.5)
+        fy = y - (rl + 0.5)
+        zp = (z00 * (1 - fx) + z01 * fx) * (1 - fy) + (z10 * (1 - fx) + z11 * fx) * fy
+    if not (zp == zp):
+        zp = elev[int(math.floor(y)) * ncols + int(math.floor(x))]
+    return zp
+
+
+@numba.njit(cache=True, nogil=True)
+def _walk_between(pace, nrows, ncols, cell_m, x0, y0, z0, x1, y1, z1, slope_limit, best_slope, decay):
+    """Minutes of the straight walk travelled from (x0, y0) to (x1, y1) (cell units), inf if blocked.
+
+    Each piece at its cell's pace, divided by Tobler's slope factor for the
+    rise ``z1 - z0`` over the walk's length (flat when either is unknown).
+    """
+    flat = _segment_pace(pace, nrows, ncols, x0, y0, x1, y1)
+    if not (flat < np.inf):
+        return np.inf
+    minutes = flat * cell_m
+    d = math.sqrt((x1 - x0) ** 2 + (y1 - y0) ** 2) * cell_m
+    if d > 0.0 and z0 == z0 and z1 == z1:
+        s = (z1 - z0) / d
+        if s > slope_limit:
+            s = slope_limit
+        elif s < -slope_limit:
+            s = -slope_limit
+        minutes *= math.exp(decay * (abs(s - best_slope) - abs(best_slope)))
+    return minutes
+
+
+@numba.njit(cache=True, nogil=True)
 def _near_walks(pace, elev, use_elev, nrows, ncols, cell_m, x, y, to_point, slope_limit, best_slope, decay,
-                cells, walk):
+                cells, walk, reach):
     """The cells a point at (x, y) (cell units) joins and the walk to each, minutes.
 
-    Fills ``cells`` (9 slots, -1 = unused) and ``walk``: the point's own cell
-    and its eight neighbours.  ``to_point``: the walk is travelled from the
+    Fills ``cells`` (``(2 reach + 1)^2`` slots, -1 = unused) and ``walk``:
+    the point's own cell and the cells up to ``reach`` rows and columns away
+    (1: the eight neighbours).  ``to_point``: the walk is travelled from the
     cell centre to the point (else the other way).
     """
-    for k in range(9):
+    for k in range(cells.shape[0]):
         cells[k] = -1
         walk[k] = np.inf
     if not (x >= 0.0 and x < ncols and y >= 0.0 and y < nrows):
@@ -385,46 +435,24 @@ def _near_walks(pace, elev, use_elev, nrows, ncols, cell_m, x, y, to_point, slop
         cells[0] = own       # inside an impassable cell: that cell alone, no walk
         walk[0] = 0.0
         return
-    zp = np.nan
-    if use_elev:
-        # bilinear between the four centres around the point (the square of centres holding it)
-        cl = int(math.floor(x - 0.5))
-        rl = int(math.floor(y - 0.5))
-        if cl >= 0 and rl >= 0 and cl + 1 < ncols and rl + 1 < nrows:
-            z00 = elev[rl * ncols + cl]
-            z01 = elev[rl * ncols + cl + 1]
-            z10 = elev[(rl + 1) * ncols + cl]
-            z11 = elev[(rl + 1) * ncols + cl + 1]
-            fx = x - (cl + 0.5)
-            fy = y - (rl + 0.5)
-            zp = (z00 * (1 - fx) + z01 * fx) * (1 - fy) + (z10 * (1 - fx) + z11 * fx) * fy
-        if not (zp == zp):
-            zp = elev[own]
-    off_best = abs(best_slope)
+    zp = _point_z(elev, use_elev, nrows, ncols, x, y)
     k = 0
-    for a in range(-1, 2):
+    for a in range(-reach, reach + 1):
         r = r0 + a
-        for b in range(-1, 2):
+        for b in range(-reach, reach + 1):
             c = c0 + b
             if r < 0 or r >= nrows or c < 0 or c >= ncols:
                 continue
-            cx = c + 0.5
-            cy = r + 0.5
-            flat = _segment_pace(pace, nrows, ncols, x, y, cx, cy)
-            if not (flat < np.inf):
-                continue
-            minutes = flat * cell_m
             cell = r * ncols + c
-            if use_elev:
-                zc = elev[cell]
-                d = math.sqrt((cx - x) ** 2 + (cy - y) ** 2) * cell_m
-                if d > 0.0 and zc == zc and zp == zp:
-                    s = (zp - zc) / d if to_point else (zc - zp) / d
-                    if s > slope_limit:
-                        s = slope_limit
-                    elif s < -slope_limit:
-                        s = -slope_limit
-                    minutes *= math.exp(decay * (abs(s - best_slope) - off_best))
+            zc = elev[cell] if use_elev else np.nan
+            if to_point:
+                minutes = _walk_between(pace, nrows, ncols, cell_m, c + 0.5, r + 0.5, zc, x, y, zp, slope_limit,
+                                        best_slope, decay)
+            else:
+                minutes = _walk_between(pace, nrows, ncols, cell_m, x, y, zp, c + 0.5, r + 0.5, zc, slope_limit,
+                                        best_slope, decay)
+            if not (minutes < np.inf):
+                continue
             cells[k] = cell
             walk[k] = minutes
             k += 1
@@ -441,7 +469,7 @@ def _seed_points(pace, elev, use_elev, nrows, ncols, cell_m, xs, ys, minutes, to
         if not (m < np.inf):
             continue
         _near_walks(pace, elev, use_elev, nrows, ncols, cell_m, xs[i], ys[i], to_point, slope_limit,
-                      best_slope, decay, cells, walk)
+                    best_slope, decay, cells, walk, 1)
         for k in range(9):
             c = cells[k]
             if c < 0:
@@ -454,16 +482,22 @@ def _seed_points(pace, elev, use_elev, nrows, ncols, cell_m, xs, ys, minutes, to
 
 @numba.njit(cache=True, nogil=True)
 def _read_points(pace, elev, use_elev, nrows, ncols, cell_m, xs, ys, raster, to_point, slope_limit,
-                 best_slope, decay, out_m, out_c):
-    """Per point: the cheapest of raster[cell] + walk over the cells it joins."""
-    cells = np.empty(9, np.int64)
-    walk = np.empty(9, np.float64)
+                 best_slope, decay, sx, sy, sm, scell, sorder, out_m, out_c, out_s):
+    """Per point: the cheapest of raster[cell] + walk over the cells it joins, and of seed + straight walk
+    over the seeds (``sx``, ``sy``, ``sm``) lying in those cells (``scell`` sorted, ``sorder`` the seeds in
+    that order)."""
+    cells = np.empty((2 * READ_REACH + 1) ** 2, np.int64)
+    walk = np.empty((2 * READ_REACH + 1) ** 2, np.float64)
+    ns = scell.shape[0]
     for i in range(xs.shape[0]):
-        _near_walks(pace, elev, use_elev, nrows, ncols, cell_m, xs[i], ys[i], to_point, slope_limit,
-                      best_slope, decay, cells, walk)
+        x = xs[i]
+        y = ys[i]
+        _near_walks(pace, elev, use_elev, nrows, ncols, cell_m, x, y, to_point, slope_limit,
+                    best_slope, decay, cells, walk, READ_REACH)
         best = np.inf
         bc = -1
-        for k in range(9):
+        bs = -1
+        for k in range(cells.shape[0]):
             c = cells[k]
             if c < 0:
                 continue
@@ -471,8 +505,39 @@ def _read_points(pace, elev, use_elev, nrows, ncols, cell_m, xs, ys, raster, to_
             if v < best:
                 best = v
                 bc = c
+        if ns > 0 and x >= 0.0 and x < ncols and y >= 0.0 and y < nrows:
+            r0 = int(math.floor(y))
+            c0 = int(math.floor(x))
+            if pace[r0 * ncols + c0] < np.inf:
+                zq = _point_z(elev, use_elev, nrows, ncols, x, y)
+                for a in range(-READ_REACH, READ_REACH + 1):
+                    r = r0 + a
+                    for b in range(-READ_REACH, READ_REACH + 1):
+                        c = c0 + b
+                        if r < 0 or r >= nrows or c < 0 or c >= ncols:
+                            continue
+                        cell = r * ncols + c
+                        j = np.searchsorted(scell, cell)
+                        while j < ns and scell[j] == cell:
+                            q = sorder[j]
+                            j += 1
+                            m = sm[q]
+                            if not (m < np.inf):
+                                continue
+                            zs = _point_z(elev, use_elev, nrows, ncols, sx[q], sy[q])
+                            if to_point:   # travelled from the seed to the point
+                                w = _walk_between(pace, nrows, ncols, cell_m, sx[q], sy[q], zs, x, y, zq,
+                                                  slope_limit, best_slope, decay)
+                            else:
+                                w = _walk_between(pace, nrows, ncols, cell_m, x, y, zq, sx[q], sy[q], zs,
+                                                  slope_limit, best_slope, decay)
+                            if m + w < best:
+                                best = m + w
+                                bc = -1
+                                bs = q
         out_m[i] = best
         out_c[i] = bc
+        out_s[i] = bs
 
 
 # ------------------------------------------------------------------ validation
@@ -676,12 +741,17 @@ def seed_points(flat_kmh, cell_m: float, col, row, minutes, elevation=None, dire
 
 
 def minutes_at_points(minutes, flat_kmh, cell_m: float, col, row, elevation=None, direction: str = "to-hub",
-                      slope_limit: float = SLOPE_LIMIT):
+                      slope_limit: float = SLOPE_LIMIT, seed_col=None, seed_row=None, seed_minutes=None):
     """Read an accumulated surface at exact points: the cheapest nearby cell centre plus the walk to it.
 
-    The mirror of :func:`seed_points` (same cells, same walks): ``to-hub``
-    walks from the point to the centre and goes on with the cell's trip;
-    ``from-hub`` arrives at the centre and walks on to the point.
+    The mirror of :func:`seed_points` (the same walks, to the centres of the
+    point's own cell and the 24 cells up to two rows and columns away, see
+    :data:`READ_REACH`): ``to-hub`` walks from the point to the centre and
+    goes on with the cell's trip; ``from-hub`` arrives at the centre and
+    walks on to the point.  Given the seed points the surface was made from,
+    a point also walks straight to any of them lying in those cells, so that
+    next to a road or a hub the value is that of the point itself (at a seed
+    point's own position, its own cost).
 
     Parameters
     ----------
@@ -689,13 +759,19 @@ def minutes_at_points(minutes, flat_kmh, cell_m: float, col, row, elevation=None
         A surface, as :func:`accumulate` gives (NaN = unreachable).
     flat_kmh, cell_m, col, row, elevation, direction, slope_limit
         As for :func:`seed_points`.
+    seed_col, seed_row, seed_minutes : array_like of float, shape (k,), optional
+        The exact seed points (cell units) and their costs, as given to
+        :func:`seed_points`.
 
     Returns
     -------
     point_minutes : ndarray of float64, shape (n,)
-        NaN where no cell around the point is reachable (or it lies outside).
+        NaN where nothing around the point is reachable (or it lies outside).
     cell : ndarray of int64, shape (n,)
-        Flat (row-major) index of the cell used; -1 = none.
+        Flat (row-major) index of the cell the trip goes through; -1 = none
+        (or a seed point reached straight).
+    seed : ndarray of int64, shape (n,)
+        The seed point reached straight; -1 = none (through a cell).
     """
     flat = np.asarray(flat_kmh, dtype=np.float64)
     surf = np.asarray(minutes, dtype=np.float64)
@@ -705,14 +781,26 @@ def minutes_at_points(minutes, flat_kmh, cell_m: float, col, row, elevation=None
     elevation = _check_elevation(elevation, flat.shape)
     col, row = _points(col, row, flat.shape)
     nrows, ncols = flat.shape
+    if seed_col is None:
+        sx = sy = sm = np.zeros(0)
+    else:
+        sm = np.ascontiguousarray(seed_minutes, dtype=np.float64).ravel()
+        sx, sy = _points(seed_col, seed_row, flat.shape, sm)
+        sm = np.where(np.isfinite(sm), sm, np.inf)
+    inside = (sx >= 0) & (sx < ncols) & (sy >= 0) & (sy < nrows)
+    scell = np.where(inside, np.floor(np.where(inside, sy, 0)).astype(np.int64) * ncols
+                     + np.floor(np.where(inside, sx, 0)).astype(np.int64), -1)
+    sorder = np.argsort(scell, kind="stable")
     out_m = np.empty(col.shape[0])
     out_c = np.empty(col.shape[0], dtype=np.int64)
+    out_s = np.empty(col.shape[0], dtype=np.int64)
     use_elev = elevation is not None
     _read_points(_pace(flat), elevation.ravel() if use_elev else np.zeros(1), use_elev, nrows, ncols,
                  float(cell_m), col, row, np.where(np.isfinite(surf), surf, np.inf).ravel(),
-                 direction == "from-hub", float(slope_limit), TOBLER_BEST_SLOPE, TOBLER_DECAY, out_m, out_c)
+                 direction == "from-hub", float(slope_limit), TOBLER_BEST_SLOPE, TOBLER_DECAY,
+                 sx, sy, sm, scell[sorder], sorder.astype(np.int64), out_m, out_c, out_s)
     out_m[~np.isfinite(out_m)] = np.nan
-    return out_m, out_c
+    return out_m, out_c, out_s
 
 
 def _reference_moves(neighbours: int):

@@ -47,7 +47,7 @@ import numpy as np
 from ..errors import InputError, OptionError
 from .friction import SLOPE_LIMIT
 
-__all__ = ["EntryPoints", "Seeds", "HubLegs", "entry_points", "seed_cells", "seed_raster", "rail_stations",
+__all__ = ["EntryPoints", "Seeds", "HubLegs", "entry_points", "nearest_edge_points", "seed_cells", "seed_raster", "rail_stations",
            "cable_access_nodes", "cable_connection_m", "sample_lines", "grid_coordinates"]
 
 
@@ -263,12 +263,40 @@ def entry_points(network, node_cost, spacing_m: float, direction: str = "to-hub"
         if node_hub.shape != (network.n_nodes,):
             raise OptionError(f"node_hub has shape {node_hub.shape}; expected one value per node ({network.n_nodes})")
         node_hub = np.where(node_hub >= 0, node_hub, -1).astype(np.int64)
-    mode = np.asarray(network.edge_mode).astype(str)
-    minutes = np.asarray(network.edge_minutes, dtype=np.float64)
-    road = np.nonzero((mode == "road") & np.isfinite(minutes))[0]
-    geoms = _edge_geoms(network, road)
-    line, f, x, y = sample_lines(geoms, spacing_m)
+    road = _road_edges(network)
+    line, f, x, y = sample_lines(_edge_geoms(network, road), spacing_m)
     e = road[line]
+    pmin, via, hub = _cost_on_edges(network, cost, e, f, direction, node_hub, hub_legs)
+
+    stations = rail_stations(network)
+    sx, sy = network.node_x[stations], network.node_y[stations]
+    sc = cost[stations]
+    svia = np.where(np.isnan(sc), -1, stations).astype(np.int64)
+    shub = np.where(svia >= 0, node_hub[stations], -1) if node_hub is not None else np.full(len(stations), -1)
+    parts = [(x, y, pmin, via, e.astype(np.int64), hub), (sx, sy, sc, svia, np.full(stations.size, -1), shub)]
+    if hub_xy is not None:
+        hxy = np.asarray(hub_xy, dtype=np.float64).reshape(-1, 2)
+        ok = np.nonzero(np.isfinite(hxy).all(axis=1))[0]
+        k = len(ok)
+        parts.append((hxy[ok, 0], hxy[ok, 1], np.zeros(k), np.full(k, -1), np.full(k, -2), ok))
+    cols = [np.concatenate([p[i] for p in parts]) for i in range(6)]
+    return EntryPoints(x=cols[0].astype(np.float64, copy=False), y=cols[1].astype(np.float64, copy=False),
+                       minutes=cols[2].astype(np.float64, copy=False), via_node=cols[3].astype(np.int64, copy=False),
+                       edge=cols[4].astype(np.int64, copy=False), hub=cols[5].astype(np.int64, copy=False))
+
+
+def _road_edges(network) -> np.ndarray:
+    """Edges a trip on foot may join anywhere: roads with a minutes cost."""
+    mode = np.asarray(network.edge_mode).astype(str)
+    return np.nonzero((mode == "road") & np.isfinite(np.asarray(network.edge_minutes, dtype=np.float64)))[0]
+
+
+def _cost_on_edges(network, cost, e, f, direction, node_hub, hub_legs):
+    """Minutes, via node and hub of points at fractions ``f`` along edges ``e`` (module notes' formulas).
+
+    ``cost`` holds NaN for nodes with no hub.  Unreachable points get NaN, -1, -1.
+    """
+    minutes = np.asarray(network.edge_minutes, dtype=np.float64)
     u, v, m = network.edge_from[e], network.edge_to[e], minutes[e]
     oneway = np.asarray(network.edge_oneway, dtype=bool)[e]
     cu = np.where(np.isnan(cost[u]), np.inf, cost[u])
@@ -288,25 +316,56 @@ def entry_points(network, node_cost, spacing_m: float, direction: str = "to-hub"
     if hub_legs is not None and len(hub_legs.hub) and len(e):
         pmin, via, hub = _along_hub_edges(e, f, m, oneway, pmin, via, hub, hub_legs, direction)
     unreachable = ~np.isfinite(pmin)
-    pmin = np.where(unreachable, np.nan, pmin)
-    via = np.where(unreachable, -1, via)
-    hub = np.where(unreachable, -1, hub)
+    return (np.where(unreachable, np.nan, pmin), np.where(unreachable, -1, via).astype(np.int64),
+            np.where(unreachable, -1, hub).astype(np.int64))
 
-    stations = rail_stations(network)
-    sx, sy = network.node_x[stations], network.node_y[stations]
-    sc = cost[stations]
-    svia = np.where(np.isnan(sc), -1, stations).astype(np.int64)
-    shub = np.where(svia >= 0, node_hub[stations], -1) if node_hub is not None else np.full(len(stations), -1)
-    parts = [(x, y, pmin, via, e.astype(np.int64), hub), (sx, sy, sc, svia, np.full(stations.size, -1), shub)]
-    if hub_xy is not None:
-        hxy = np.asarray(hub_xy, dtype=np.float64).reshape(-1, 2)
-        ok = np.nonzero(np.isfinite(hxy).all(axis=1))[0]
-        k = len(ok)
-        parts.append((hxy[ok, 0], hxy[ok, 1], np.zeros(k), np.full(k, -1), np.full(k, -2), ok))
-    cols = [np.concatenate([p[i] for p in parts]) for i in range(6)]
-    return EntryPoints(x=cols[0].astype(np.float64, copy=False), y=cols[1].astype(np.float64, copy=False),
-                       minutes=cols[2].astype(np.float64, copy=False), via_node=cols[3].astype(np.int64, copy=False),
-                       edge=cols[4].astype(np.int64, copy=False), hub=cols[5].astype(np.int64, copy=False))
+
+def nearest_edge_points(network, node_cost, xy, within_m: float, direction: str = "to-hub", *, node_hub=None,
+                        hub_legs: HubLegs | None = None) -> EntryPoints:
+    """The nearest point of every road edge within ``within_m`` of each of ``xy``, costed as samples are.
+
+    Where :func:`entry_points` samples the roads at a spacing, this places an
+    entry point exactly where a straight walk from each given point meets
+    each nearby road (the foot of the perpendicular, or the edge's nearer
+    end), with the same cost formulas (node costs, one-way rules, travel
+    along a hub's own edge).  Used to read a surface at exact points.
+
+    Parameters
+    ----------
+    network, node_cost, direction, node_hub, hub_legs
+        As for :func:`entry_points`.
+    xy : array_like of float, shape (n, 2)
+        Working CRS, metres.
+    within_m : float
+        Search distance, metres.
+
+    Returns
+    -------
+    EntryPoints
+        One point per (given point, edge within reach) pair; no stations or hubs.
+    """
+    import shapely
+
+    cost = _check_node_array(network, node_cost, "node_cost")
+    cost = np.where(np.isfinite(cost), cost, np.nan)
+    if node_hub is not None:
+        node_hub = np.where(np.asarray(node_hub) >= 0, np.asarray(node_hub), -1).astype(np.int64)
+    xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
+    road = _road_edges(network)
+    geoms = _edge_geoms(network, road)
+    empty = np.zeros(0)
+    if not len(road) or not len(xy):
+        return EntryPoints(empty, empty, empty, np.zeros(0, np.int64), np.zeros(0, np.int64))
+    pts = shapely.points(xy[:, 0], xy[:, 1])
+    qi, ti = shapely.STRtree(geoms).query(pts, predicate="dwithin", distance=float(within_m))
+    order = np.lexsort((ti, qi))                       # deterministic: by point, then edge
+    qi, ti = qi[order], ti[order]
+    e = road[ti]
+    f = np.clip(np.nan_to_num(shapely.line_locate_point(geoms[ti], pts[qi], normalized=True), nan=0.0), 0.0, 1.0)
+    at = shapely.get_coordinates(shapely.line_interpolate_point(geoms[ti], f, normalized=True))
+    pmin, via, hub = _cost_on_edges(network, cost, e, f, direction, node_hub, hub_legs)
+    return EntryPoints(x=at[:, 0].copy(), y=at[:, 1].copy(), minutes=pmin, via_node=via, edge=e.astype(np.int64),
+                       hub=hub)
 
 
 def _along_hub_edges(e, f, m, oneway, pmin, via, hub, legs: HubLegs, direction):

@@ -25,14 +25,14 @@ practice decide.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from ..errors import CRSError, OptionError
-from .accumulate import DIRECTIONS, accumulate, minutes_at_points as _read_at
+from .accumulate import DIRECTIONS, READ_REACH, accumulate, minutes_at_points as _read_at
 from .friction import SLOPE_LIMIT, count_steep_moves, flat_speed_kmh
-from .seeding import HubLegs, entry_points, grid_coordinates, seed_cells
+from .seeding import EntryPoints, HubLegs, entry_points, grid_coordinates, nearest_edge_points, seed_cells
 
 __all__ = ["SurfaceResult", "compute_surface", "hub_of_entry", "minutes_at_points"]
 
@@ -75,6 +75,10 @@ class SurfaceResult:
     terrain : ndarray of float64 or None
         The elevation used (for :func:`minutes_at_points`).
     slope_limit : float
+    entry_args : dict or None
+        What the entry points were made from (network, node costs, spacing,
+        hubs and legs), so :func:`minutes_at_points` can rebuild them instead
+        of the result holding millions of points.
     """
 
     grid: object
@@ -92,6 +96,7 @@ class SurfaceResult:
     hub_cells: int = 0
     terrain: np.ndarray | None = None
     slope_limit: float = SLOPE_LIMIT
+    entry_args: dict | None = field(default=None, repr=False, compare=False)
 
 
 def hub_of_entry(entry_node: np.ndarray, node_hub: np.ndarray) -> np.ndarray:
@@ -251,33 +256,65 @@ def compute_surface(network, node_cost, node_hub, grid, walk_kmh: float = 5.0, t
         terrain_missing_cells=0 if elev is None else int(np.isnan(elev).sum()),
         neighbours=int(neighbours), hub_cells=int((has & (entry < 0) & (hub >= 0)).sum()),
         terrain=elev, slope_limit=float(slope_limit),
+        entry_args=dict(network=network, node_cost=node_cost, spacing_m=spacing, direction=direction,
+                        node_hub=node_hub, hub_xy=hub_xy, hub_legs=hub_legs),
     )
 
 
 def minutes_at_points(surface: SurfaceResult, x, y):
-    """Minutes and nearest hub at exact points, read from a surface.
+    """Minutes and nearest hub at exact points (settlements, say), in the surface's own model.
 
-    Each point takes the cheapest of its own cell centre and the eight
-    around it plus the walk between the point and that centre, on the surface's own
-    friction and terrain (:func:`~.accumulate.minutes_at_points`): the same
-    walk the seeds use.
+    A point's trip is the cheapest of: walking straight to a nearby cell
+    centre (its own cell's or one of the 24 up to two rows and columns
+    away) and going on with that cell's trip; or walking straight to an
+    entry point lying in one of those cells and going on over the network
+    from there: the road samples, stations and hubs the surface was seeded
+    from, and the nearest point of every road near the point (where a
+    straight walk meets it), costed by the same formulas.  The walks are costed as the seeds' walks are, on the
+    surface's friction and terrain (:func:`~.accumulate.minutes_at_points`),
+    so a point at a hub reads 0 and a point on a road reads the road's cost.
 
     Parameters
     ----------
     surface : SurfaceResult
+        From :func:`compute_surface` (its ``entry_args`` rebuild the entry
+        points: a second or two on a network of 300,000 edges).
     x, y : array_like of float, shape (n,)
         Working CRS, metres.
 
     Returns
     -------
     minutes : ndarray of float64, shape (n,)
-        NaN where no cell around the point reaches a hub, or outside the grid.
+        NaN where nothing around the point reaches a hub, or outside the grid.
     nearest_hub : ndarray of int32, shape (n,)
         1-based hub number; 0 = none.
+    entry_node : ndarray of int64, shape (n,)
+        The node the trip passes through first (-1 = none, or none passed).
     """
     g = surface.grid
     col, row = grid_coordinates(g, x, y)
-    m, cell = _read_at(surface.minutes, surface.flat_kmh, g.cell_m, col, row, elevation=surface.terrain,
-                       direction=surface.direction, slope_limit=surface.slope_limit)
-    hub = np.where(cell >= 0, surface.nearest_hub.ravel()[np.maximum(cell, 0)], 0).astype(np.int32)
-    return m, np.where(np.isfinite(m), hub, 0).astype(np.int32)
+    if surface.entry_args is not None:
+        a = surface.entry_args
+        kw = dict(node_hub=a["node_hub"], hub_legs=a["hub_legs"])
+        sampled = entry_points(a["network"], a["node_cost"], a["spacing_m"], a["direction"], hub_xy=a["hub_xy"], **kw)
+        xy = np.column_stack([np.ravel(x), np.ravel(y)]).astype(np.float64)
+        near = nearest_edge_points(a["network"], a["node_cost"], xy[np.isfinite(xy).all(axis=1)],
+                                   (READ_REACH + 1) * g.cell_m * np.sqrt(2.0), a["direction"], **kw)
+        pts = EntryPoints(*(np.concatenate([getattr(sampled, k), getattr(near, k)])
+                            for k in ("x", "y", "minutes", "via_node", "edge", "hub")))
+        scol, srow = grid_coordinates(g, pts.x, pts.y)
+        seeds = dict(seed_col=scol, seed_row=srow, seed_minutes=pts.minutes)
+    else:
+        pts, seeds = None, {}
+    m, cell, seed = _read_at(surface.minutes, surface.flat_kmh, g.cell_m, col, row, elevation=surface.terrain,
+                             direction=surface.direction, slope_limit=surface.slope_limit, **seeds)
+    c = np.maximum(cell, 0)
+    hub = np.where(cell >= 0, surface.nearest_hub.ravel()[c], 0).astype(np.int32)
+    node = np.where(cell >= 0, surface.entry_node.ravel()[c], -1).astype(np.int64)
+    if pts is not None:
+        direct = seed >= 0
+        q = seed[direct]
+        hub[direct] = np.where(pts.hub[q] >= 0, pts.hub[q] + 1, 0)
+        node[direct] = pts.via_node[q]
+    ok = np.isfinite(m)
+    return m, np.where(ok, hub, 0).astype(np.int32), np.where(ok, node, -1).astype(np.int64)
