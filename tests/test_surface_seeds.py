@@ -286,6 +286,21 @@ def test_reading_a_surface_walks_the_right_way_uphill():
     assert c_up[0] == 1 * 4 + 2
 
 
+def test_reading_walks_straight_to_a_seed_the_right_way_uphill():
+    # Same ramp; no cell reached (all NaN), one seed point 0.8 cells east of the point read: to-hub walks
+    # from the point east to the seed, uphill; from-hub from the seed west to the point, downhill.
+    cell = 100.0
+    z = np.tile((np.arange(4) + 0.5) * 10.0, (4, 1))
+    surf = np.full((4, 4), np.nan)
+    kmh = np.full((4, 4), 6.0)
+    kw = dict(elevation=z, seed_col=[2.5], seed_row=[1.5], seed_minutes=[1.0])
+    up, cell_up, seed_up = minutes_at_points(surf, kmh, cell, [1.7], [1.5], direction="to-hub", **kw)
+    down, _, _ = minutes_at_points(surf, kmh, cell, [1.7], [1.5], direction="from-hub", **kw)
+    assert up[0] == pytest.approx(1.0 + 0.8 * cell * 0.01 * _tobler_ratio(0.1), rel=1e-12)
+    assert down[0] == pytest.approx(1.0 + 0.8 * cell * 0.01 * _tobler_ratio(-0.1), rel=1e-12)
+    assert cell_up[0] == -1 and seed_up[0] == 0
+
+
 def test_bad_point_arguments():
     with pytest.raises(OptionError, match="differ in length"):
         seed_points(np.ones((2, 2)), 1.0, [0.5, 1.0], [0.5], [0.0, 0.0])
