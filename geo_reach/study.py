@@ -71,7 +71,7 @@ SCHEMA: dict = {
     "surface": {"cell_m": float, "margin_m": float, "extent": ("list", float), "terrain": _FILE,
                 "landcover": _FILE, "landcover_speeds": ("map", float), "barriers": _FILE,
                 "barriers_layer": str, "population": _FILE, "bands": ("list", float),
-                "weak_minutes": float},
+                "weak_minutes": float, "neighbours": int},
     "settlements": {"path": _FILE, "layer": str, "id_field": str, "name_field": str,
                     "population_field": str},
     "zones": {"path": _FILE, "layer": str, "id_field": str, "name_field": str},
@@ -140,7 +140,7 @@ DOTTED_KEYS = {
     **{k: f"routing.{k}" for k in ("weight", "direction", "max_access_m", "walk_kmh")},
     **{k: f"metrics.{k}" for k in ("samples", "seed", "exact", "profile_sources", "node_figures")},
     **{k: f"surface.{k}" for k in ("cell_m", "margin_m", "bands", "weak_minutes", "extent", "terrain",
-                                   "landcover", "landcover_speeds", "barriers", "population")},
+                                   "landcover", "landcover_speeds", "barriers", "population", "neighbours")},
     "hub_id_field": "hubs.id_field", "hub_kind_field": "hubs.kind_field", "hub_name_field": "hubs.name_field",
     "population_field": "settlements.population_field", "zone_id_field": "zones.id_field",
 }

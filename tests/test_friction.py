@@ -75,19 +75,48 @@ def test_barrier_classes_and_table():
         flat_speed_kmh(g, 0.0)
 
 
-def test_count_steep_moves_against_loop():
+@pytest.mark.parametrize("neighbours", [8, 16])
+def test_count_steep_moves_against_loop(neighbours):
+    # Every move of the set, each pair of cells once, counted by a plain loop: slope over the move's own
+    # length (1, sqrt 2, sqrt 5 cells); a knight move is only made when the two cells it passes through
+    # (for +1 row, +2 columns from (r, c): (r, c+1) and (r+1, c+1)) are passable.
     rng = np.random.default_rng(3)
     z = rng.normal(0, 80, (9, 11))
     z[2, 3] = np.nan
+    passable = rng.random(z.shape) > 0.15
     cell = 50.0
-    n = 0
-    rows, cols = z.shape
-    for r in range(rows):
-        for c in range(cols):
-            for dr, dc in ((0, 1), (1, 0), (1, 1), (1, -1)):
-                r2, c2 = r + dr, c + dc
-                if 0 <= r2 < rows and 0 <= c2 < cols and np.isfinite(z[r, c]) and np.isfinite(z[r2, c2]):
+    steps = [(0, 1), (1, 0), (1, 1), (1, -1)]
+    if neighbours == 16:
+        steps += [(1, 2), (2, 1), (1, -2), (2, -1)]
+    for mask in (None, passable):
+        n = 0
+        rows, cols = z.shape
+        for r in range(rows):
+            for c in range(cols):
+                for dr, dc in steps:
+                    r2, c2 = r + dr, c + dc
+                    if not (0 <= r2 < rows and 0 <= c2 < cols):
+                        continue
+                    if not (np.isfinite(z[r, c]) and np.isfinite(z[r2, c2])):
+                        continue
+                    if mask is not None:
+                        cells = [(r, c), (r2, c2)]
+                        if abs(dc) == 2:
+                            cells += [(r, c + dc // 2), (r2, c + dc // 2)]
+                        if abs(dr) == 2:
+                            cells += [(r + 1, c), (r + 1, c2)]
+                        if not all(mask[rc] for rc in cells):
+                            continue
                     d = cell * np.hypot(dr, dc)
                     n += abs(z[r2, c2] - z[r, c]) / d > 1.0
-    got = count_steep_moves(z, cell, 1.0)
-    assert got == n and n > 0
+        got = count_steep_moves(z, cell, 1.0, passable=mask, neighbours=neighbours)
+        assert got == n and n > 0
+    assert count_steep_moves(z, cell, 1.0, neighbours=16) > count_steep_moves(z, cell, 1.0, neighbours=8)
+    with pytest.raises(OptionError, match="neighbours"):
+        count_steep_moves(z, cell, 1.0, neighbours=12)
+
+
+def test_count_steep_moves_limit_is_exclusive():
+    # A move exactly at the limit is costed as it is (not clipped), so it is not counted; just past it is.
+    assert count_steep_moves(np.array([[0.0, 100.0]]), 100.0, 1.0) == 0
+    assert count_steep_moves(np.array([[0.0, 100.001]]), 100.0, 1.0) == 1

@@ -8,8 +8,9 @@ import shapely
 from pyproj import CRS
 
 from geo_reach.analysis.accumulate import accumulate_reference
+from geo_reach.analysis.friction import count_steep_moves
 from geo_reach.analysis.seeding import (cable_access_nodes, cable_connection_m, entry_points, sample_lines,
-                                        seed_raster)
+                                        seed_cells, seed_raster)
 from geo_reach.analysis.surface import compute_surface
 from geo_reach.errors import CRSError, InputError, OptionError
 from tests.helpers.surface_nets import grid, net_from_edges
@@ -72,6 +73,11 @@ def test_entry_points_modes():
     on_cable = (p.x > 2000 + 1e-9)
     assert not on_cable.any()                                   # never along a cable
     assert cable_access_nodes(net).tolist() == [4]
+    # given the hub behind each node, a station's point names it
+    q = entry_points(net, np.zeros(6), 250.0, node_hub=np.array([3, 1, 2, 0, -1, 0]))
+    st = q.edge == -1
+    assert dict(zip(q.via_node[st].tolist(), q.hub[st].tolist())) == {1: 1, 2: 2}
+    assert (q.hub[~st] >= 0).all()
 
 
 def test_cable_connection_distance():
@@ -93,43 +99,51 @@ def test_seed_raster_keeps_cheapest():
 
 
 def test_hand_worked_one_hub():
-    # Grid 10 x 3 of 100 m cells; a two-way road along the middle row from node 0 (50, 150) to node 1
-    # (950, 150), 4.5 minutes long; the hub is node 0 (cost 0; node 1 costs 4.5). Walking 6 km/h on the
-    # flat = 1 minute per 100 m.
-    # Samples every 50 m at x = 50, 100, ..., 950 cost min(4.5 + (1-f) 4.5, 0 + f 4.5) = (x - 50) / 200.
-    # Middle row: cell c holds x = 100c (c >= 1) and 100c + 50, so seed = 0.5c - 0.25 (cell 0: 0).
-    # Neighbouring seeds differ by <= 0.5 min < 1 min of walking, so the middle row is its seeds.
-    # Outer rows: straight over, seed(c) + 1, or diagonal from c - 1, seed(c-1) + sqrt 2:
-    #   c = 0: 1;  c = 1: min(0.25 + 1, 0 + 1.414) = 1.25;  c >= 2: seed(c) + 1 = seed(c-1) + 1.5 > seed(c-1)
-    #   + 1.414, so 0.5(c-1) - 0.25 + sqrt 2.
+    # Grid 10 x 3 of 100 m cells; a two-way road along the middle row's centre line from node 0 (50, 150)
+    # to node 1 (950, 150), 4.5 minutes long; the hub is node 0 (cost 0; node 1 costs 4.5). Walking
+    # 6 km/h on the flat = 1 minute per 100 m (per cell side).
+    # Samples every 50 m at x = 50, 100, ..., 950 cost min(4.5 + (1-f) 4.5, 0 + f 4.5) = (x - 50) / 200,
+    # i.e. (u - 0.5) / 2 at u = x / 100 cell sides; each seeds its own cell and the eight around it with
+    # the straight walk added.
+    # Middle row, cell c (centre u = c + 0.5): the sample at the centre costs c / 2; a sample t cells
+    # nearer the hub saves t / 2 and walks t: no better.  So c / 2 exactly.
+    # Outer rows (centre one cell off the road): a sample t cells back costs c/2 - t/2 + sqrt(t^2 + 1),
+    # least over t in {0, 0.5, 1, 1.5} at t = 0.5: c/2 + sqrt(1.25) - 0.25 (c >= 1; c = 0 has no sample
+    # behind it: t = 0 gives 1).  Moves from the middle row cost more (straight over: +1; diagonal from
+    # c - 1: +0.914; knight from c - 2: +1.236).
     g = grid(10, 3)
     net = net_from_edges([(50, 150), (950, 150)], [(0, 1)], minutes=[4.5])
     res = compute_surface(net, np.array([0.0, 4.5]), np.array([0, 0]), g, walk_kmh=6.0)
     c = np.arange(10)
-    mid = np.where(c == 0, 0.0, 0.5 * c - 0.25)
-    outer = np.where(c == 0, 1.0, np.where(c == 1, 1.25, 0.5 * (c - 1) - 0.25 + SQRT2))
+    mid = 0.5 * c
+    outer = np.where(c == 0, 1.0, 0.5 * c + math.sqrt(1.25) - 0.25)
     np.testing.assert_allclose(res.minutes[1], mid, atol=1e-12)
     np.testing.assert_allclose(res.minutes[0], outer, atol=1e-12)
     np.testing.assert_allclose(res.minutes[2], outer, atol=1e-12)
-    assert (res.nearest_hub == 1).all() and (res.entry_node == 0).all()
-    assert res.seed_cells == 10 and res.clipped_slopes == 0
+    assert (res.nearest_hub == 1).all() and (res.entry_node[:, :9] == 0).all()
+    # the sample at node 1 ties: carry on to node 1 (4.5 + 0) or go back to node 0 (0 + 4.5)
+    assert res.entry_node[1, 9] in (0, 1)
+    assert res.seed_cells == 30 and res.clipped_slopes == 0 and res.neighbours == 16
+    # 8 neighbours: the same here (every value comes straight from a seed walk)
+    res8 = compute_surface(net, np.array([0.0, 4.5]), np.array([0, 0]), g, walk_kmh=6.0, neighbours=8)
+    np.testing.assert_allclose(res8.minutes, res.minutes, atol=1e-12)
 
 
 def test_hand_worked_two_hubs():
     # Same road, hubs at both ends (node 0 = hub 1, node 1 = hub 2, both cost 0). A sample at x costs
-    # min((x - 50)/200 via node 0, (950 - x)/200 via node 1). Cells 0..4 reach hub 1 (cell 4: 1.75 < 2.5),
-    # cells 5..9 hub 2 (cell 5: 2.25 > 2.0). Cell 9 holds x = 950: 0 minutes.
+    # min((x - 50)/200 via node 0, (950 - x)/200 via node 1). Middle row, cell c: the sample at its
+    # centre: min(c / 2, (9 - c) / 2): cells 0..4 reach hub 1 (cell 4: 2 < 2.5), cells 5..9 hub 2.
     g = grid(10, 3)
     net = net_from_edges([(50, 150), (950, 150)], [(0, 1)], minutes=[4.5])
     res = compute_surface(net, np.array([0.0, 0.0]), np.array([0, 1]), g, walk_kmh=6.0)
     assert res.nearest_hub[1].tolist() == [1] * 5 + [2] * 5
     c = np.arange(10)
-    expect = np.minimum(np.where(c == 0, 0.0, 0.5 * c - 0.25), 4.5 - 0.5 * c)
-    np.testing.assert_allclose(res.minutes[1], expect, atol=1e-12)
+    np.testing.assert_allclose(res.minutes[1], np.minimum(0.5 * c, 4.5 - 0.5 * c), atol=1e-12)
     assert res.entry_node[1].tolist() == [0] * 5 + [1] * 5
 
 
 def test_surface_with_terrain_and_barrier_matches_reference():
+    # The whole surface against its slow pieces: entry points -> exact seeds -> the pure-Python accumulation.
     rng = np.random.default_rng(11)
     g = grid(14, 12, cell_m=50.0)
     xy = rng.uniform(0, 600, (6, 2))
@@ -137,13 +151,17 @@ def test_surface_with_terrain_and_barrier_matches_reference():
     node_cost = np.array([0.0, 3.0, 5.0, 9.0, np.inf, np.inf])
     z = rng.normal(0, 40, g.shape).cumsum(axis=0)
     wall = shapely.box(0, 290, 400, 310)
-    res = compute_surface(net, node_cost, np.array([0, 0, 0, 0, -1, -1]), g, walk_kmh=4.0, terrain=z,
-                          barriers=[wall], direction="from-hub")
-    seeds = seed_raster(entry_points(net, node_cost, 25.0, "from-hub"), g)
-    ref = accumulate_reference(res.flat_kmh, seeds.minutes, 50.0, elevation=z, direction="from-hub")
-    np.testing.assert_allclose(res.minutes, ref.minutes, rtol=1e-12)
-    assert res.impassable_cells > 0 and res.clipped_slopes > 0
-    assert ((res.nearest_hub == 1) == np.isfinite(res.minutes)).all()
+    for neighbours in (8, 16):
+        res = compute_surface(net, node_cost, np.array([0, 0, 0, 0, -1, -1]), g, walk_kmh=4.0, terrain=z,
+                              barriers=[wall], direction="from-hub", neighbours=neighbours)
+        pts = entry_points(net, node_cost, 25.0, "from-hub")
+        seeds = seed_cells(pts, g, res.flat_kmh, elevation=z, direction="from-hub")
+        ref = accumulate_reference(res.flat_kmh, seeds.minutes, 50.0, elevation=z, direction="from-hub",
+                                   neighbours=neighbours)
+        np.testing.assert_allclose(res.minutes, ref.minutes, rtol=1e-12)
+        assert res.impassable_cells > 0 and res.clipped_slopes > 0
+        assert res.clipped_slopes == count_steep_moves(z, 50.0, passable=res.flat_kmh > 0, neighbours=neighbours)
+        assert ((res.nearest_hub == 1) == np.isfinite(res.minutes)).all()
 
 
 def test_surface_refusals():
@@ -155,6 +173,14 @@ def test_surface_refusals():
         compute_surface(net, np.zeros(2), np.zeros(3, int), g)
     with pytest.raises(OptionError, match="terrain raster has shape"):
         compute_surface(net, np.zeros(2), np.zeros(2, int), g, terrain=np.zeros((2, 2)))
+    with pytest.raises(OptionError, match="neighbours"):
+        compute_surface(net, np.zeros(2), np.zeros(2, int), g, neighbours=4)
+    with pytest.raises(OptionError, match="half the cell size"):
+        compute_surface(net, np.zeros(2), np.zeros(2, int), g, spacing_m=60.0)
+    with pytest.raises(OptionError, match="hub_xy"):
+        compute_surface(net, np.zeros(2), np.zeros(2, int), g, hub_xy=np.zeros((3, 3)))
+    with pytest.raises(OptionError, match="names hub 1"):
+        compute_surface(net, np.zeros(2), np.array([0, 1]), g, hub_xy=np.zeros((1, 2)))
     from geo_reach.ingest.rasters import Grid
     other = Grid(g.transform, 3, 3, CRS.from_epsg(32632), 100.0)
     with pytest.raises(CRSError, match="differs"):

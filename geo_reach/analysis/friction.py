@@ -247,21 +247,52 @@ def flat_speed_kmh(grid, walk_kmh: float = 5.0, landcover=None, landcover_speeds
 
 
 def count_steep_moves(elevation: np.ndarray, cell_m: float, limit: float = SLOPE_LIMIT,
-                      passable: np.ndarray | None = None) -> int:
-    """Neighbour pairs (8-neighbourhood, each pair once) whose slope exceeds ``limit``.
+                      passable: np.ndarray | None = None, neighbours: int = 16) -> int:
+    """Moves (each pair of cells once) whose slope exceeds ``limit``, for the move set used.
 
-    The slope of a pair is the elevation difference over the horizontal
-    distance between the cell centres (``cell_m`` or ``cell_m * sqrt 2``).
-    Pairs with a missing elevation or an impassable cell are not counted.
+    The slope of a move is the elevation difference over the horizontal
+    distance between the cell centres (``cell_m`` times 1, sqrt 2 or, for
+    the knight moves of the 16-neighbour set, sqrt 5).  Moves with a missing
+    elevation at an end are not counted, nor moves the accumulation does not
+    make (an impassable end, or a knight move through an impassable cell;
+    see :mod:`.accumulate`).
+
+    Parameters
+    ----------
+    elevation : ndarray of float, shape (rows, cols)
+        Metres (NaN = unknown).
+    cell_m : float
+        Cell side, metres.
+    limit : float
+        Slope (rise/run) beyond which a move is counted.
+    passable : ndarray of bool, shape (rows, cols), optional
+    neighbours : {16, 8}
     """
     z = np.asarray(elevation, dtype=np.float64)
-    ok = np.isfinite(z) if passable is None else (np.isfinite(z) & passable)
+    h, w = z.shape
+    known = np.isfinite(z)
+    ok = known if passable is None else (known & np.asarray(passable, dtype=bool))
+    through = np.ones(z.shape, bool) if passable is None else np.asarray(passable, dtype=bool)
+    half = [(0, 1), (1, 0), (1, 1), (1, -1)]
+    if neighbours == 16:
+        half += [(1, 2), (2, 1), (1, -2), (2, -1)]
+    elif neighbours != 8:
+        raise OptionError(f"neighbours {neighbours!r}: choose 8 or 16", key="neighbours")
     n = 0
-    for dr, dc, dist in ((0, 1, cell_m), (1, 0, cell_m), (1, 1, cell_m * np.sqrt(2)),
-                         (1, -1, cell_m * np.sqrt(2))):
-        a = (slice(0, z.shape[0] - dr), slice(max(0, -dc), z.shape[1] - max(0, dc)))
-        b = (slice(dr, z.shape[0]), slice(max(0, dc), z.shape[1] - max(0, -dc)))
-        both = ok[a] & ok[b]
+    for dr, dc in half:
+        r1, c0, c1 = h - dr, max(0, -dc), w - max(0, dc)
+        if r1 <= 0 or c1 <= c0:
+            continue
+
+        def at(oy, ox, arr):
+            return arr[oy:r1 + oy, c0 + ox:c1 + ox]
+
+        both = at(0, 0, ok) & at(dr, dc, ok)
+        if abs(dr) + abs(dc) == 3:   # a knight move passes through two more cells
+            sr, sc = (dr // 2, 0) if abs(dr) == 2 else (0, dc // 2)
+            tr, tc = (dr // 2, dc) if abs(dr) == 2 else (dr, dc // 2)
+            both &= at(sr, sc, through) & at(tr, tc, through)
+        dist = cell_m * np.hypot(dr, dc)
         with np.errstate(invalid="ignore"):
-            n += int((both & (np.abs(z[b] - z[a]) > limit * dist)).sum())
+            n += int((both & (np.abs(at(dr, dc, z) - at(0, 0, z)) > limit * dist)).sum())
     return n

@@ -3,10 +3,15 @@
 A traveller on foot may join a road anywhere along it, a railway only at a
 station, and never a cable or a transfer link.  :func:`entry_points` samples
 every road edge at most ``spacing_m`` apart and adds every rail station; each
-point carries the network cost from (or to) it to the nearest hub.
-:func:`seed_raster` puts the points on a grid (a cell's seed is the cheapest
-point inside it).  :func:`cable_connection_m` is the distance raster for
-cable layers, which carry no travellers.
+point carries the network cost from (or to) it to the nearest hub.  Given the
+hubs, it adds each hub itself (cost 0: walking straight to the hub needs no
+network) and costs the samples on the edges a hub joins through the hub's
+join point as well (travel along the hub's own edge).  :func:`seed_cells`
+puts the points on a grid at their exact positions, adding the walk from
+each to the nearby cell centres (:func:`~.accumulate.seed_points`);
+:func:`seed_raster` is the older placement at cell level, without the walk.
+:func:`cable_connection_m` is the distance raster for cable layers, which
+carry no travellers.
 
 The cost of a point a fraction ``f`` along an edge ``u -> v`` of ``m``
 minutes, for the trip *to* the hub, is::
@@ -19,8 +24,17 @@ and for the trip *from* the hub (``cost`` then being hub-to-node)::
     min(cost[u] + f m         (u -> v allowed),
         cost[v] + (1 - f) m   (v -> u allowed)).
 
-Each point also records the node its trip passes through (``via_node``),
-which is how regions find the side of a single link a cell depends on.
+A hub that joins the edge at fraction ``g`` with a walk leg of ``w`` minutes
+offers, to the hub, ``(g - f) m + w`` for ``f <= g`` (travelled u -> v) and
+``(f - g) m + w`` for ``f > g`` (two-way edges only); from the hub,
+``(f - g) m + w`` for ``f >= g`` and ``(g - f) m + w`` for ``f < g`` (two-way
+only).  These are the costs :meth:`~.attach.Attachment.arcs` gives the
+routing for the same legs, cut at the sample instead of the edge's end.
+
+Each point also records the node its trip passes through (``via_node``; -1
+when the trip reaches the hub without passing a node: the hub itself and
+samples costed along the hub's own edge), which is how regions find the
+side of a single link a cell depends on, and the hub it reaches (``hub``).
 """
 
 from __future__ import annotations
@@ -31,9 +45,10 @@ import numba
 import numpy as np
 
 from ..errors import InputError, OptionError
+from .friction import SLOPE_LIMIT
 
-__all__ = ["EntryPoints", "Seeds", "entry_points", "seed_raster", "rail_stations", "cable_access_nodes",
-           "cable_connection_m", "sample_lines"]
+__all__ = ["EntryPoints", "Seeds", "HubLegs", "entry_points", "nearest_edge_points", "seed_cells", "seed_raster", "rail_stations",
+           "cable_access_nodes", "cable_connection_m", "sample_lines", "grid_coordinates"]
 
 
 @dataclass(frozen=True)
@@ -50,7 +65,10 @@ class EntryPoints:
     via_node : ndarray of int64, shape (n,)
         The node the cheapest trip passes through (-1 where no hub reachable).
     edge : ndarray of int64, shape (n,)
-        The road edge the point lies on; -1 for stations.
+        The road edge the point lies on; -1 for stations, -2 for a hub itself.
+    hub : ndarray of int64, shape (n,)
+        0-based hub the point's trip reaches (``node_hub`` of ``via_node``, or
+        the hub itself); -1 = unknown (no ``node_hub`` given) or none.
     """
 
     x: np.ndarray
@@ -58,6 +76,11 @@ class EntryPoints:
     minutes: np.ndarray
     via_node: np.ndarray
     edge: np.ndarray
+    hub: np.ndarray | None = None
+
+    def __post_init__(self):
+        if self.hub is None:
+            object.__setattr__(self, "hub", np.full(len(self.x), -1, np.int64))
 
     def __len__(self) -> int:
         return len(self.x)
@@ -72,11 +95,56 @@ class Seeds:
     minutes : ndarray of float64, shape ``grid.shape``
         Cheapest point in each cell, minutes; inf = no seed.
     via_node : ndarray of int64, shape ``grid.shape``
-        Node behind that cheapest point; -1 = none.
+        Node behind that cheapest point; -1 = none (or the point's trip passes no node).
+    point : ndarray of int64, shape ``grid.shape``, optional
+        Index of that point in the :class:`EntryPoints`; -1 = none
+        (:func:`seed_cells` only).
     """
 
     minutes: np.ndarray
     via_node: np.ndarray
+    point: np.ndarray | None = None
+
+
+@dataclass(frozen=True)
+class HubLegs:
+    """Where hubs join road edges part-way, and what the walk between costs.
+
+    Attributes
+    ----------
+    hub : ndarray of int64, shape (k,)
+        0-based hub number (the numbering of ``node_hub``).
+    edge : ndarray of int64, shape (k,)
+        The edge joined.
+    fraction : ndarray of float64, shape (k,)
+        Position of the join point along the edge from its ``from`` node (0..1).
+    minutes : ndarray of float64, shape (k,)
+        The walk between the hub and the join point, minutes.
+    """
+
+    hub: np.ndarray
+    edge: np.ndarray
+    fraction: np.ndarray
+    minutes: np.ndarray
+
+    @classmethod
+    def from_attachment(cls, att, hub_index=None) -> "HubLegs":
+        """The edge legs of an :class:`~.attach.Attachment` of the hubs (on the ``minutes`` weight).
+
+        The walk is costed as :meth:`~.attach.Attachment.arcs` costs it for
+        the routing (``att.weight.walk_cost``), so the surface and the
+        routing price a hub's leg the same.  ``hub_index`` maps the
+        attachment's points to hub numbers (default: the same numbers).
+        """
+        if att.weight.name != "minutes":
+            raise OptionError(f"hub legs are on the '{att.weight.name}' weight; the surface needs them "
+                              "in minutes (attach the hubs with weight 'minutes')")
+        on_edge = att.leg_edge >= 0
+        pts = att.leg_point[on_edge]
+        hub = pts if hub_index is None else np.asarray(hub_index, dtype=np.int64)[pts]
+        walk = np.asarray(att.weight.walk_cost(att.leg_walk_m, att.walk_kmh), dtype=np.float64)[on_edge]
+        return cls(hub.astype(np.int64), att.leg_edge[on_edge].astype(np.int64),
+                   att.leg_fraction[on_edge].astype(np.float64), walk)
 
 
 def sample_lines(geoms, spacing_m: float):
@@ -150,8 +218,9 @@ def _check_node_array(network, arr, name):
     return a
 
 
-def entry_points(network, node_cost, spacing_m: float, direction: str = "to-hub") -> EntryPoints:
-    """Sample the places a trip on foot can join the network.
+def entry_points(network, node_cost, spacing_m: float, direction: str = "to-hub", *, node_hub=None,
+                 hub_xy=None, hub_legs: HubLegs | None = None) -> EntryPoints:
+    """Sample the places a trip on foot can join the network (and, given them, the hubs).
 
     Parameters
     ----------
@@ -163,16 +232,25 @@ def entry_points(network, node_cost, spacing_m: float, direction: str = "to-hub"
         Largest gap between samples along a road, metres (use half the cell
         size or less so every cell a road crosses gets a sample).
     direction : {"to-hub", "from-hub"}
+    node_hub : ndarray of int, shape (n_nodes,), optional
+        The 0-based hub behind each node's cost (negative = none): fills
+        :attr:`EntryPoints.hub`.
+    hub_xy : ndarray of float, shape (n_hubs, 2), optional
+        Hub positions (working CRS, metres), numbered as ``node_hub``; rows
+        with NaN are skipped.  Each hub is added as a point of cost 0.
+    hub_legs : HubLegs, optional
+        Where the hubs join road edges part-way: samples on those edges are
+        also costed through the join point (see the module notes).
 
     Returns
     -------
     EntryPoints
-        Road samples first (edge order), then rail stations.
+        Road samples first (edge order), then rail stations, then the hubs.
 
     Raises
     ------
     OptionError
-        Bad ``spacing_m``, ``direction`` or ``node_cost`` shape.
+        Bad ``spacing_m``, ``direction`` or array shapes.
     """
     if direction not in ("to-hub", "from-hub"):
         raise OptionError(f"unknown direction '{direction}'; choose one of to-hub, from-hub")
@@ -180,12 +258,45 @@ def entry_points(network, node_cost, spacing_m: float, direction: str = "to-hub"
         raise OptionError(f"sample spacing {spacing_m!r} m must be a positive number")
     cost = _check_node_array(network, node_cost, "node_cost")
     cost = np.where(np.isfinite(cost), cost, np.nan)  # inf (as routing gives) and NaN: no hub
-    mode = np.asarray(network.edge_mode).astype(str)
-    minutes = np.asarray(network.edge_minutes, dtype=np.float64)
-    road = np.nonzero((mode == "road") & np.isfinite(minutes))[0]
-    geoms = _edge_geoms(network, road)
-    line, f, x, y = sample_lines(geoms, spacing_m)
+    if node_hub is not None:
+        node_hub = np.asarray(node_hub)
+        if node_hub.shape != (network.n_nodes,):
+            raise OptionError(f"node_hub has shape {node_hub.shape}; expected one value per node ({network.n_nodes})")
+        node_hub = np.where(node_hub >= 0, node_hub, -1).astype(np.int64)
+    road = _road_edges(network)
+    line, f, x, y = sample_lines(_edge_geoms(network, road), spacing_m)
     e = road[line]
+    pmin, via, hub = _cost_on_edges(network, cost, e, f, direction, node_hub, hub_legs)
+
+    stations = rail_stations(network)
+    sx, sy = network.node_x[stations], network.node_y[stations]
+    sc = cost[stations]
+    svia = np.where(np.isnan(sc), -1, stations).astype(np.int64)
+    shub = np.where(svia >= 0, node_hub[stations], -1) if node_hub is not None else np.full(len(stations), -1)
+    parts = [(x, y, pmin, via, e.astype(np.int64), hub), (sx, sy, sc, svia, np.full(stations.size, -1), shub)]
+    if hub_xy is not None:
+        hxy = np.asarray(hub_xy, dtype=np.float64).reshape(-1, 2)
+        ok = np.nonzero(np.isfinite(hxy).all(axis=1))[0]
+        k = len(ok)
+        parts.append((hxy[ok, 0], hxy[ok, 1], np.zeros(k), np.full(k, -1), np.full(k, -2), ok))
+    cols = [np.concatenate([p[i] for p in parts]) for i in range(6)]
+    return EntryPoints(x=cols[0].astype(np.float64, copy=False), y=cols[1].astype(np.float64, copy=False),
+                       minutes=cols[2].astype(np.float64, copy=False), via_node=cols[3].astype(np.int64, copy=False),
+                       edge=cols[4].astype(np.int64, copy=False), hub=cols[5].astype(np.int64, copy=False))
+
+
+def _road_edges(network) -> np.ndarray:
+    """Edges a trip on foot may join anywhere: roads with a minutes cost."""
+    mode = np.asarray(network.edge_mode).astype(str)
+    return np.nonzero((mode == "road") & np.isfinite(np.asarray(network.edge_minutes, dtype=np.float64)))[0]
+
+
+def _cost_on_edges(network, cost, e, f, direction, node_hub, hub_legs):
+    """Minutes, via node and hub of points at fractions ``f`` along edges ``e`` (module notes' formulas).
+
+    ``cost`` holds NaN for nodes with no hub.  Unreachable points get NaN, -1, -1.
+    """
+    minutes = np.asarray(network.edge_minutes, dtype=np.float64)
     u, v, m = network.edge_from[e], network.edge_to[e], minutes[e]
     oneway = np.asarray(network.edge_oneway, dtype=bool)[e]
     cu = np.where(np.isnan(cost[u]), np.inf, cost[u])
@@ -201,19 +312,98 @@ def entry_points(network, node_cost, spacing_m: float, direction: str = "to-hub"
     take_back = back < forward
     pmin = np.where(take_back, back, forward)
     via = np.where(take_back, back_node, fwd_node).astype(np.int64)
+    hub = node_hub[via] if node_hub is not None else np.full(len(via), -1, np.int64)
+    if hub_legs is not None and len(hub_legs.hub) and len(e):
+        pmin, via, hub = _along_hub_edges(e, f, m, oneway, pmin, via, hub, hub_legs, direction)
     unreachable = ~np.isfinite(pmin)
-    pmin = np.where(unreachable, np.nan, pmin)
-    via = np.where(unreachable, -1, via)
+    return (np.where(unreachable, np.nan, pmin), np.where(unreachable, -1, via).astype(np.int64),
+            np.where(unreachable, -1, hub).astype(np.int64))
 
-    stations = rail_stations(network)
-    sx, sy = network.node_x[stations], network.node_y[stations]
-    sc = cost[stations]
-    svia = np.where(np.isnan(sc), -1, stations).astype(np.int64)
-    return EntryPoints(
-        x=np.concatenate([x, sx]), y=np.concatenate([y, sy]),
-        minutes=np.concatenate([pmin, sc]), via_node=np.concatenate([via, svia]),
-        edge=np.concatenate([e.astype(np.int64), np.full(stations.size, -1, np.int64)]),
-    )
+
+def nearest_edge_points(network, node_cost, xy, within_m: float, direction: str = "to-hub", *, node_hub=None,
+                        hub_legs: HubLegs | None = None) -> EntryPoints:
+    """The nearest point of every road edge within ``within_m`` of each of ``xy``, costed as samples are.
+
+    Where :func:`entry_points` samples the roads at a spacing, this places an
+    entry point exactly where a straight walk from each given point meets
+    each nearby road (the foot of the perpendicular, or the edge's nearer
+    end), with the same cost formulas (node costs, one-way rules, travel
+    along a hub's own edge).  Used to read a surface at exact points.
+
+    Parameters
+    ----------
+    network, node_cost, direction, node_hub, hub_legs
+        As for :func:`entry_points`.
+    xy : array_like of float, shape (n, 2)
+        Working CRS, metres.
+    within_m : float
+        Search distance, metres.
+
+    Returns
+    -------
+    EntryPoints
+        One point per (given point, edge within reach) pair; no stations or hubs.
+    """
+    import shapely
+
+    cost = _check_node_array(network, node_cost, "node_cost")
+    cost = np.where(np.isfinite(cost), cost, np.nan)
+    if node_hub is not None:
+        node_hub = np.where(np.asarray(node_hub) >= 0, np.asarray(node_hub), -1).astype(np.int64)
+    xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
+    road = _road_edges(network)
+    geoms = _edge_geoms(network, road)
+    empty = np.zeros(0)
+    if not len(road) or not len(xy):
+        return EntryPoints(empty, empty, empty, np.zeros(0, np.int64), np.zeros(0, np.int64))
+    pts = shapely.points(xy[:, 0], xy[:, 1])
+    qi, ti = shapely.STRtree(geoms).query(pts, predicate="dwithin", distance=float(within_m))
+    order = np.lexsort((ti, qi))                       # deterministic: by point, then edge
+    qi, ti = qi[order], ti[order]
+    e = road[ti]
+    f = np.clip(np.nan_to_num(shapely.line_locate_point(geoms[ti], pts[qi], normalized=True), nan=0.0), 0.0, 1.0)
+    at = shapely.get_coordinates(shapely.line_interpolate_point(geoms[ti], f, normalized=True))
+    pmin, via, hub = _cost_on_edges(network, cost, e, f, direction, node_hub, hub_legs)
+    return EntryPoints(x=at[:, 0].copy(), y=at[:, 1].copy(), minutes=pmin, via_node=via, edge=e.astype(np.int64),
+                       hub=hub)
+
+
+def _along_hub_edges(e, f, m, oneway, pmin, via, hub, legs: HubLegs, direction):
+    """Samples on an edge a hub joins: also costed through the join point (cheaper wins; ties keep the node)."""
+    if e.size < 2 or (e[1:] >= e[:-1]).all():     # samples come in edge order: no sort needed
+        order = np.arange(e.size)
+    else:
+        order = np.argsort(e, kind="stable")
+    es = e[order]
+    lo = np.searchsorted(es, legs.edge, side="left")
+    hi = np.searchsorted(es, legs.edge, side="right")
+    counts = hi - lo
+    if counts.sum() == 0:
+        return pmin, via, hub
+    leg = np.repeat(np.arange(len(legs.edge)), counts)
+    first = np.cumsum(counts) - counts
+    sample = order[np.repeat(lo, counts) + (np.arange(leg.size) - np.repeat(first, counts))]
+    fs, g, w = f[sample], legs.fraction[leg], legs.minutes[leg]
+    mm, one = m[sample], oneway[sample]
+    if direction == "to-hub":
+        fwd = fs <= g       # travelled from the sample on towards the edge's end: the join point lies ahead
+    else:
+        fwd = fs >= g       # travelled from the join point on to the sample
+    along = np.abs(g - fs) * mm + w
+    cand = np.where(fwd | ~one, along, np.inf)
+    # the cheapest leg per sample (lowest leg number among equals)
+    pick = np.lexsort((leg, cand, sample))
+    sample, cand, leg = sample[pick], cand[pick], leg[pick]
+    head = np.ones(sample.size, bool)
+    head[1:] = sample[1:] != sample[:-1]
+    sample, cand, leg = sample[head], cand[head], leg[head]
+    better = cand < pmin[sample]
+    s = sample[better]
+    pmin, via, hub = pmin.copy(), via.copy(), hub.copy()
+    pmin[s] = cand[better]
+    via[s] = -1
+    hub[s] = legs.hub[leg[better]]
+    return pmin, via, hub
 
 
 def _edge_geoms(network, edges):
@@ -251,9 +441,12 @@ def cable_access_nodes(network) -> np.ndarray:
 
 
 def seed_raster(points: EntryPoints, grid) -> Seeds:
-    """Put entry points on ``grid``: each cell keeps its cheapest point.
+    """Put entry points on ``grid`` at cell level: each cell keeps its cheapest point, no walk added.
 
-    Points outside the grid and points with no hub reachable are dropped.
+    The placement before exact seeds (kept for comparisons and the
+    benchmark); :func:`compute_surface <.surface.compute_surface>` uses
+    :func:`seed_cells`.  Points outside the grid and points with no hub
+    reachable are dropped.
     """
     rows, cols = grid.index(points.x, points.y)
     ok = (rows >= 0) & np.isfinite(points.minutes)
@@ -262,6 +455,50 @@ def seed_raster(points: EntryPoints, grid) -> Seeds:
     out_v = np.full(grid.width * grid.height, -1, dtype=np.int64)
     _scatter_min(cell, points.minutes[ok], points.via_node[ok].astype(np.int64), out_m, out_v)
     return Seeds(out_m.reshape(grid.shape), out_v.reshape(grid.shape))
+
+
+def grid_coordinates(grid, x, y):
+    """Positions in cell units on ``grid`` (column, row; cell ``(r, c)`` covers ``[c, c+1) x [r, r+1)``)."""
+    col = (np.asarray(x, dtype=np.float64) - grid.transform.c) / grid.cell_m
+    row = (grid.transform.f - np.asarray(y, dtype=np.float64)) / grid.cell_m
+    return col, row
+
+
+def seed_cells(points: EntryPoints, grid, flat_kmh, elevation=None, direction: str = "to-hub",
+               slope_limit: float = SLOPE_LIMIT) -> Seeds:
+    """Put entry points on ``grid`` at their exact positions, with the walk to the cell centres.
+
+    Each point seeds the centres of its own cell and the eight around it
+    with its cost plus the walk between the point and the centre on the
+    friction surface (:func:`~.accumulate.seed_points`); each cell keeps its
+    cheapest.  A
+    point's own cell so costs at most its cost plus the walk of half a cell
+    diagonal.  Points outside the grid and points with no hub reachable
+    are dropped.
+
+    Parameters
+    ----------
+    points : EntryPoints
+    grid : Grid
+    flat_kmh : ndarray of float, shape ``grid.shape``
+        Flat-ground speed, km/h (0 = impassable).
+    elevation : ndarray of float, shape ``grid.shape``, optional
+    direction : {"to-hub", "from-hub"}
+    slope_limit : float
+
+    Returns
+    -------
+    Seeds
+        ``minutes`` (inf = no seed), ``via_node`` and ``point`` of the cheapest point.
+    """
+    from .accumulate import seed_points
+
+    col, row = grid_coordinates(grid, points.x, points.y)
+    ps = seed_points(flat_kmh, grid.cell_m, col, row, points.minutes, elevation=elevation, direction=direction,
+                     slope_limit=slope_limit)
+    via = np.where(ps.point >= 0, points.via_node[np.maximum(ps.point, 0)], -1) if len(points) \
+        else np.full(grid.shape, -1, np.int64)
+    return Seeds(ps.minutes, via.astype(np.int64), ps.point)
 
 
 @numba.njit(cache=True, nogil=True)

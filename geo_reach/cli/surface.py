@@ -31,6 +31,9 @@ def register(sub):
     p.add_argument("--margin-m", type=float, default=_S.margin_m,
                    help=f"margin around the study area, metres (default {_S.margin_m:g})")
     p.add_argument("--extent", metavar="XMIN,YMIN,XMAX,YMAX", help="grid extent in the network's CRS")
+    p.add_argument("--neighbours", type=int, choices=(8, 16), default=_S.neighbours,
+                   help=f"moves of the walk across the grid: 16 (also knight moves, within 2.75 %% of straight "
+                        f"walking) or 8 (within 8.24 %%) (default {_S.neighbours})")
     add_access(p, "hubs")
     add_direction(p)
     p.add_argument("--terrain", metavar="DEM.tif", help="elevation raster (slopes by Tobler's hiking function)")
@@ -103,7 +106,7 @@ def study_from_args(args):
         hubs["id_field"] = args.hub_id_field
     if args.hub_kind_field:
         hubs["kind_field"] = args.hub_kind_field
-    surface = {"cell_m": args.cell_m, "margin_m": args.margin_m, "bands": bands}
+    surface = {"cell_m": args.cell_m, "margin_m": args.margin_m, "bands": bands, "neighbours": args.neighbours}
     if args.extent:
         try:
             surface["extent"] = [float(v) for v in args.extent.split(",")]

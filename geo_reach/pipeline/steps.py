@@ -169,7 +169,8 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
     out.notes += list(rasters.get("notes", []))
     kw = dict(walk_kmh=routing.walk_kmh, terrain=rasters.get("terrain"), landcover=rasters.get("landcover"),
               landcover_speeds={int(k): float(v) for k, v in files.get("landcover_speeds", {}).items()} or None,
-              barriers=rasters.get("barriers"), direction=routing.direction)
+              barriers=rasters.get("barriers"), direction=routing.direction, neighbours=s.neighbours,
+              max_access_m=routing.max_access_m)
     if routing.weight.name != "minutes":
         out.notes.append(f"the travel-time surface is in minutes whatever the routing weight "
                          f"({routing.weight.name}) is")
@@ -183,7 +184,7 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
         minutes_acc = _minutes_access(study, net, hubs)
         node_cost, node_hub, kind_costs = minutes_acc.node_cost, minutes_acc.node_hub, minutes_acc.kind_costs
     try:
-        surf = compute_surface(net, node_cost, node_hub, grid, **kw)
+        surf = compute_surface(net, node_cost, node_hub, grid, hub_xy=hubs.xy, **kw)
     except InputError as err:
         if "landcover" in files and not str(err).startswith("file "):
             raise err.with_message(f"file '{study.resolve(files['landcover'])}': {err}") from err
@@ -199,7 +200,10 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
     if pop is not None:
         out.pop_stats = population_stats(surf.minutes, pop, bands_txt)
     for kind, (kc, kh) in kind_costs.items():
-        ks = compute_surface(net, kc, kh, grid, **kw)
+        from ..analysis.access import kind_name
+
+        mine = np.array([kind_name(k) == kind for k in hubs.kinds], dtype=bool)   # this kind's hubs are seeds
+        ks = compute_surface(net, kc, kh, grid, hub_xy=np.where(mine[:, None], hubs.xy, np.nan), **kw)
         out.kind_surfaces[kind] = ks
         if pop is not None:
             out.kind_pop_stats[kind] = population_stats(ks.minutes, pop, bands_txt)
