@@ -215,23 +215,30 @@ class TravelModel:
             return place
         return self.attach(network, place, roles=(role,))
 
+    def _direct_between(self, a: Attachment, b: Attachment) -> DirectWalks:
+        """Direct walks from the places of ``a`` to those of ``b``, both joined (a place left out stays out)."""
+        ia, ib = np.nonzero(a.attached)[0], np.nonzero(b.attached)[0]
+        d = self.direct(a.point_xy[ia], b.point_xy[ib])
+        return DirectWalks(ia[d.src], ib[d.dst], d.cost, d.walk_m)
+
     def route(self, network: Network, origin, destination) -> Route:
         """The cheapest trip between two places (coordinates, or one-point attachments from :meth:`attach`)."""
         o = self._attached(network, np.asarray(origin, np.float64).reshape(1, 2)
                            if not isinstance(origin, Attachment) else origin, "leave")
         d = self._attached(network, np.asarray(destination, np.float64).reshape(1, 2)
                            if not isinstance(destination, Attachment) else destination, "arrive")
-        return shortest_path(network, o, d, self.weight, direct=self.direct(o.point_xy, d.point_xy))
+        return shortest_path(network, o, d, self.weight, direct=self._direct_between(o, d))
 
     def od(self, network: Network, origins, destinations, *, batch: int | None = None) -> ODMatrix:
         """Cost and length of the cheapest trip from every origin to every destination.
 
         ``origins`` and ``destinations`` are coordinates (n, 2) or
-        attachments made by :meth:`attach`; places left out get ``inf``.
+        attachments made by :meth:`attach`; places left out (not joined to
+        the network) get ``inf``, also for a trip to themselves.
         """
         o = self._attached(network, origins, "leave")
         d = self._attached(network, destinations, "arrive")
-        return od_matrix(network, o, d, self.weight, batch=batch, direct=self.direct(o.point_xy, d.point_xy))
+        return od_matrix(network, o, d, self.weight, batch=batch, direct=self._direct_between(o, d))
 
     def nearest_hub(self, network: Network, hubs) -> NearestHub:
         """Every node's nearest hub and the cost of the trip (in the model's direction).
@@ -261,8 +268,7 @@ class TravelModel:
         to_hub = self.options.reverse
         p_att = self._attached(network, places, "leave" if to_hub else "arrive")
         h_att = self._attached(network, hubs, "arrive" if to_hub else "leave")
-        direct = self.direct(p_att.point_xy, h_att.point_xy) if to_hub else \
-            self.direct(h_att.point_xy, p_att.point_xy)
+        direct = self._direct_between(p_att, h_att) if to_hub else self._direct_between(h_att, p_att)
         out = {None: nearest_hub_trips(network, p_att, h_att, self.weight, self.direction, direct=direct)}
         for name, members in (groups or {}).items():
             members = np.asarray(members, np.int64)

@@ -1,0 +1,301 @@
+"""The travel model: one walk rule for every off-network leg, checked against closed forms and references.
+
+References used here (each written out in the test, never calling the library's walk pricing):
+* Straight walking: time = distance / speed (km/h -> m/min: kmh * 1000 / 60); common practice.
+* Tobler, W. (1993). Three presentations on geographical analysis and modeling. NCGIA Technical
+  Report 93-1: W = 6 exp(-3.5 |S + 0.05|) km/h; the model scales it so flat ground walks at
+  the given speed (speed = walk_kmh * W(S) / W(0)).
+* The grid walk against scipy.sparse.csgraph on the same friction grid (tests/helpers/walk_reference.py).
+* The 8-neighbour grid metric's largest overstatement of a straight line, derived from the move
+  geometry: a walk of dx >= dy >= 0 cells costs dx - dy + sqrt(2) dy, and the ratio to
+  sqrt(dx^2 + dy^2) is largest at dy/dx = sqrt(2) - 1, where it is sqrt(4 - 2 sqrt(2)) = 1.0824
+  (a 16-neighbour set only lowers it).
+* Hand-computed values on tiny networks, written beside each check.
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pytest
+import shapely
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from pyproj import CRS
+
+sys.path.insert(0, str(Path(__file__).parent))
+from helpers.routing_nets import make_network  # noqa: E402
+from helpers.walk_reference import grid_lengths, kernel_moves, tobler_kmh, walk_length  # noqa: E402
+
+from geo_reach.analysis.attach import DirectWalks  # noqa: E402
+from geo_reach.analysis.options import RoutingOptions  # noqa: E402
+from geo_reach.analysis.travel import TravelModel  # noqa: E402
+from geo_reach.errors import OptionError  # noqa: E402
+from geo_reach.ingest.rasters import Grid  # noqa: E402
+
+UTM = CRS.from_epsg(32633)
+BOUND_8 = math.sqrt(4.0 - 2.0 * math.sqrt(2.0))   # derived in the module notes: 1.0824
+
+
+def minutes(metres, kmh):
+    """The test's own price of a walk on flat open ground: metres / (km/h in metres per minute)."""
+    return metres / (kmh * 1000.0 / 60.0)
+
+
+def net_utm(edges, xy, **kw):
+    net = make_network(edges, xy, **kw)
+    object.__setattr__(net, "crs", UTM)
+    return net
+
+
+def grid_6km():
+    return Grid.from_bounds((0, 0, 6000, 6000), 100, 0, crs=UTM)
+
+
+# ---------------------------------------------------------------- closed-form legs at two speeds
+@pytest.mark.parametrize("kmh", [5.0, 3.0])
+def test_straight_leg_closed_form_at_two_walking_speeds(kmh):
+    """A road 0 -> 1 along y = 0, 10 km in 10 minutes; a place at (3000, 400) walks 400 m to it.
+
+    At 5 km/h: 400 m = 4.8 min, at 3 km/h: 8.0 min (the test's own arithmetic); node 0 is 3 km
+    (3 min) along the road from the entry.  Every view prices the same trip."""
+    net = net_utm([(0, 1)], [[0, 0], [10000, 0]], minutes=[10.0])
+    model = TravelModel(RoutingOptions(weight="minutes", walk_kmh=kmh))
+    walk = minutes(400.0, kmh)
+    assert walk == pytest.approx({5.0: 4.8, 3.0: 8.0}[kmh])
+    cost, hub = model.nearest_hub(net, [[3000.0, 400.0]])                     # access: node costs
+    assert cost[0] == pytest.approx(walk + 3.0) and cost[1] == pytest.approx(walk + 7.0)
+    r = model.route(net, [3000.0, 400.0], [0.0, 0.0])                         # route to node 0's place
+    assert r.cost == pytest.approx(walk + 3.0) and r.access_m == pytest.approx(400.0)
+    od = model.od(net, [[3000.0, 400.0]], [[0.0, 0.0], [10000.0, 0.0]])
+    assert od.cost[0].tolist() == pytest.approx([walk + 3.0, walk + 7.0])
+    t = model.hub_trips(net, [[3000.0, 400.0]], [[0.0, 0.0]])[None]           # settlements
+    assert t.cost[0] == pytest.approx(walk + 3.0) and t.network_m[0] == pytest.approx(3000.0)
+
+
+@pytest.mark.parametrize("kmh", [5.0, 3.6])
+def test_grid_leg_closed_form_at_two_walking_speeds(kmh):
+    """On a flat friction grid (100 m cells) a place at the centre (1050, 1050) walks straight south
+    along a column of cells to a road along y = 350: 700 m exactly (7 moves between centres, the
+    entry at a centre), so 8.4 min at 5 km/h and 11.67 min at 3.6 km/h."""
+    g = grid_6km()
+    net = net_utm([(0, 1)], [[50, 350], [5950, 350]], minutes=[59.0])      # 5.9 km at 6 km/h: 1 min per 100 m
+    model = TravelModel.build(RoutingOptions(weight="minutes", walk_kmh=kmh), g, terrain=np.zeros(g.shape))
+    assert model.on_grid
+    walk = minutes(700.0, kmh)
+    cost, _ = model.nearest_hub(net, [[1050.0, 1050.0]])
+    assert cost[0] == pytest.approx(walk + 10.0, rel=1e-9)                  # 1000 m of road to node 0
+    assert model.walk([[1050.0, 1050.0]], [[1050.0, 350.0]])[0][0] == pytest.approx(walk, rel=1e-12)
+    # the walked length is the length of the walk, not the cost
+    att = model.attach(net, [[1050.0, 1050.0]])
+    best = int(np.argmin(att.leg_leave_cost))
+    assert att.leg_walk_m[best] == pytest.approx(700.0)
+
+
+@pytest.mark.parametrize("g_rise", [0.1, 0.25])
+def test_tobler_leg_closed_form_both_ways(g_rise):
+    """A plane rising northwards by ``g_rise`` (rise over run); a place at (1050, 1050) and the road point
+    (1050, 350) 700 m due south.  Walking down (place -> road) every move has slope -g_rise, walking up
+    +g_rise; Tobler's speed scaled to 5 km/h on the flat gives the closed form."""
+    g = grid_6km()
+    _, y = g.cell_centres()
+    terrain = np.repeat((g_rise * y)[:, None], g.width, axis=1)
+    model = TravelModel.build(RoutingOptions(weight="minutes", walk_kmh=5.0), g, terrain=terrain)
+    down_kmh = 5.0 * tobler_kmh(-g_rise) / tobler_kmh(0.0)
+    up_kmh = 5.0 * tobler_kmh(g_rise) / tobler_kmh(0.0)
+    p, t = np.array([[1050.0, 1050.0]]), np.array([[1050.0, 350.0]])
+    assert model.walk(p, t)[0][0] == pytest.approx(minutes(700.0, down_kmh), rel=1e-9)
+    assert model.walk(t, p)[0][0] == pytest.approx(minutes(700.0, up_kmh), rel=1e-9)
+    # an attached place prices each role the right way round
+    net = net_utm([(0, 1)], [[50, 350], [5950, 350]], minutes=[59.0])
+    att = model.attach(net, p)
+    k = int(np.argmin(att.leg_leave_cost))
+    assert att.leg_leave_cost[k] == pytest.approx(minutes(700.0, down_kmh), rel=1e-9)
+    assert att.leg_arrive_cost[k] == pytest.approx(minutes(700.0, up_kmh), rel=1e-9)
+    # flat ground walks at the given speed: Tobler's factor is 1 at slope 0
+    flat = TravelModel.build(RoutingOptions(weight="minutes", walk_kmh=5.0), g, terrain=np.zeros(g.shape))
+    assert flat.walk(p, t)[0][0] == pytest.approx(minutes(700.0, 5.0), rel=1e-12)
+
+
+def test_network_length_counts_the_edge_the_place_sits_on():
+    """Hand-worked: a village 50 m off the middle of a 10 km edge A-B, then 7 km on B-C to a hub 10 m off C.
+    The network part of its trip is 5 km + 7 km = 12 km (the partial edge it sits on included),
+    not the 7 km from the node where it joins."""
+    xy = [[0, 0], [10000, 0], [17000, 0]]
+    net = net_utm([(0, 1), (1, 2)], xy, minutes=[10.0, 7.0])
+    model = TravelModel(RoutingOptions(weight="minutes"))
+    t = model.hub_trips(net, [[5000.0, 50.0]], [[17000.0, 10.0]])[None]
+    assert t.network_m[0] == pytest.approx(12000.0)
+    assert t.cost[0] == pytest.approx(minutes(50, 5) + 5.0 + 7.0 + minutes(10, 5))
+    r = model.route(net, [5000.0, 50.0], [17000.0, 10.0])
+    assert r.length_m - r.access_m == pytest.approx(12000.0) and r.cost == pytest.approx(t.cost[0])
+
+
+def test_a_place_to_itself_costs_nothing_and_near_places_walk_straight():
+    """route P -> P is 0 on every weight; two places 300 m apart, 2 km from a road, walk straight
+    (3.6 min at 5 km/h) rather than 2 x 2 km to the road and back."""
+    net = net_utm([(0, 1)], [[0, 0], [10000, 0]], minutes=[10.0])
+    for w in ("minutes", "length_m", "hops"):
+        model = TravelModel(RoutingOptions(weight=w))
+        assert model.route(net, [500.0, 2000.0], [500.0, 2000.0]).cost == 0.0
+    model = TravelModel(RoutingOptions(weight="minutes"))
+    r = model.route(net, [500.0, 2000.0], [800.0, 2000.0])
+    assert r.cost == pytest.approx(minutes(300, 5)) and len(r.edges) == 0 and r.length_m == pytest.approx(300)
+    # on hops the walk is free: only a place to itself walks; others ride (0.03 links along the edge)
+    hops = TravelModel(RoutingOptions(weight="hops"))
+    assert hops.route(net, [500.0, 2000.0], [800.0, 2000.0]).cost == pytest.approx(0.03)
+    d = hops.direct([[500.0, 2000.0], [800.0, 2000.0]], [[800.0, 2000.0]])
+    assert d.src.tolist() == [1] and d.cost.tolist() == [0.0]
+
+
+# ---------------------------------------------------------------- the friction grid
+@settings(max_examples=25, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1))
+def test_flat_grid_walk_lies_between_the_straight_line_and_the_grid_bound(seed):
+    """Every walk is a chain of straight pieces, so never shorter than the straight line; the
+    grid part overstates it by at most BOUND_8, and the start and end pieces add at most about
+    three cells (half a diagonal each end, and a diagonal between the end cells' centres)."""
+    rng = np.random.default_rng(seed)
+    g = grid_6km()
+    model = TravelModel.build(RoutingOptions(weight="minutes", walk_kmh=4.0), g, terrain=np.zeros(g.shape))
+    a = rng.uniform(300, 5700, (20, 2))
+    b = np.clip(a + rng.uniform(-3000, 3000, (20, 2)), 1, 5999)
+    d = np.hypot(*(b - a).T)
+    got, walked = model.walk(a, b)
+    straight = minutes(d, 4.0)
+    ok = d <= 5000
+    assert np.all(np.isinf(got[~ok]))
+    assert np.all(got[ok] >= straight[ok] * (1 - 1e-12))
+    assert np.all(got[ok] <= BOUND_8 * straight[ok] + minutes(3 * 100 * math.sqrt(2), 4.0))
+    # on uniform ground the walked length is the cost at the walking pace, and both ways cost the same
+    assert walked[ok] == pytest.approx(got[ok] * 4.0 * 1000 / 60, rel=1e-9)
+    back, _ = model.walk(b, a)
+    assert back[ok] == pytest.approx(got[ok], rel=1e-9)
+
+
+def _river_case():
+    """A 100 m grid over 4 x 3 km; a river 260 m wide (x 2020..2280) that cells 20..22 touch."""
+    g = Grid.from_bounds((0, 0, 4000, 3000), 100, 0, crs=UTM)
+    river = shapely.box(2020, -100, 2280, 3100)
+    return g, river
+
+
+@settings(max_examples=15, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1))
+def test_grid_walk_matches_csgraph_reference_with_a_river(seed):
+    """Places at cell centres, targets anywhere: the model's walk equals the reference's walk
+    (scipy csgraph over the passable cells, then the documented straight end piece), at the
+    walking pace; a target across the river is reached only round it (here: never)."""
+    rng = np.random.default_rng(seed)
+    g, river = _river_case()
+    model = TravelModel.build(RoutingOptions(weight="minutes", walk_kmh=5.0), g,
+                              barriers=gpd.GeoDataFrame(geometry=[river], crs=UTM))
+    moves = kernel_moves()
+    from helpers.walk_reference import barrier_cells
+
+    x0, y1 = g.bounds[0], g.bounds[3]
+    passable = ~barrier_cells(g.shape, x0, y1, 100.0, river)
+    for _ in range(3):
+        r, c = int(rng.integers(0, g.height)), int(rng.integers(0, g.width))
+        if not passable[r, c]:
+            continue
+        p = (x0 + (c + 0.5) * 100, y1 - (r + 0.5) * 100)
+        lengths = grid_lengths(passable, 100.0, (r, c), moves)
+        ts = rng.uniform([0, 0], [4000, 3000], (8, 2))
+        ts[0] = (2010.0, p[1] + 3)                        # just west of the river
+        ts[1] = (2290.0, p[1] - 7)                        # just east of it
+        got, _ = model.walk(np.repeat([p], len(ts), axis=0), ts)
+        for t, v in zip(ts, got):
+            ref = walk_length(p, t, lengths, x0, y1, 100.0, river)
+            ref = minutes(ref, 5.0) if math.hypot(t[0] - p[0], t[1] - p[1]) <= 5000 else math.inf
+            assert v == pytest.approx(ref, rel=1e-9), (p, t)
+            if (t[0] < 2020 < p[0]) or (p[0] < 2020 and t[0] > 2280):
+                assert math.isinf(v)                      # the river runs the whole grid: never crossed
+
+
+def test_a_river_inside_one_cell_is_not_walked_across():
+    """A 10 m wide river between a place and a road 40 m away, both in neighbouring cells: the
+    straight 40 m is refused, and the river runs the whole grid, so the place cannot join."""
+    g = Grid.from_bounds((0, 0, 2000, 2000), 100, 0, crs=UTM)
+    river = gpd.GeoDataFrame(geometry=[shapely.box(1015, -50, 1025, 2050)], crs=UTM)
+    net = net_utm([(0, 1)], [[1040, 0], [1040, 2000]], minutes=[20.0])
+    model = TravelModel.build(RoutingOptions(weight="minutes"), g, barriers=river)
+    att = model.attach(net, [[1000.0, 1000.0]])
+    assert not att.attached[0] and att.blocked[0] and att.access_m[0] == pytest.approx(40.0)
+    # the same place without the river walks the 40 m straight (both in one block of nine cells)
+    free = TravelModel.build(RoutingOptions(weight="minutes"), g, terrain=np.zeros(g.shape))
+    att = free.attach(net, [[1000.0, 1000.0]])
+    assert att.leg_leave_cost.min() == pytest.approx(minutes(40, 5))
+
+
+def test_a_place_in_a_cell_the_river_touches_still_walks_out_and_a_hub_on_a_bridge_reaches_it():
+    """A village 30 m west of the river bank (its cell touched by the river) walks west to a road
+    300 m away; a hub standing on the bridge (inside the river polygon) joins the bridge road."""
+    g = Grid.from_bounds((0, 0, 2000, 2000), 100, 0, crs=UTM)
+    river = gpd.GeoDataFrame(geometry=[shapely.box(1120, -50, 1180, 2050)], crs=UTM)
+    xy = [[800, 0], [800, 2000], [800, 1500], [1500, 1500]]
+    net = net_utm([(0, 1), (2, 3)], xy, minutes=[20.0, 7.0])   # a N-S road and a bridge road to the east
+    model = TravelModel.build(RoutingOptions(weight="minutes"), g, barriers=river)
+    att = model.attach(net, [[1090.0, 1000.0]])
+    assert att.attached[0] and np.isfinite(att.leg_leave_cost).all()
+    best = att.leg_leave_cost.min()
+    assert minutes(290, 5) <= best <= minutes(290, 5) * BOUND_8 + minutes(150, 5)
+    hub = model.attach(net, [[1150.0, 1500.0]])
+    k = int(np.argmin(hub.leg_arrive_cost))
+    assert hub.leg_edge[k] == 1 and hub.leg_arrive_cost[k] == pytest.approx(0.0, abs=1e-12)
+
+
+def test_length_weight_walks_the_shortest_passable_walk():
+    """On length_m a walk costs its metres, round the river: place (1950, 1450) to a road point east
+    of a river that stops at y = 2000: the reference walks round its end."""
+    g = Grid.from_bounds((0, 0, 4000, 3000), 100, 0, crs=UTM)
+    river = shapely.box(2020, -100, 2280, 2000)
+    model = TravelModel.build(RoutingOptions(weight="length_m", max_access_m=5000), g,
+                              barriers=gpd.GeoDataFrame(geometry=[river], crs=UTM))
+    from helpers.walk_reference import barrier_cells
+
+    x0, y1 = g.bounds[0], g.bounds[3]
+    passable = ~barrier_cells(g.shape, x0, y1, 100.0, river)
+    lengths = grid_lengths(passable, 100.0, (15, 19), kernel_moves())   # (1950, 1450)
+    ref = walk_length((1950.0, 1450.0), (2450.0, 1450.0), lengths, x0, y1, 100.0, river)
+    got, walked = model.walk([[1950.0, 1450.0]], [[2450.0, 1450.0]])
+    assert got[0] == pytest.approx(ref, rel=1e-12) and walked[0] == pytest.approx(ref, rel=1e-12)
+    assert got[0] > 2 * 550   # round the river's end at y = 2000, not the 500 m across
+
+
+def test_settlements_far_from_the_network_join_all_the_same_when_asked():
+    """always_join: a place 6 km from the only road (beyond max_access_m 5000) joins its nearest entry."""
+    net = net_utm([(0, 1)], [[0, 0], [10000, 0]], minutes=[10.0])
+    model = TravelModel(RoutingOptions(weight="minutes", max_access_m=5000))
+    assert not model.attach(net, [[5000.0, 6000.0]]).attached[0]
+    att = model.attach(net, [[5000.0, 6000.0]], always_join=True)
+    assert att.attached[0] and att.access_m[0] == pytest.approx(6000.0)
+    k = int(np.argmin(att.leg_leave_cost))
+    assert att.leg_leave_cost[k] == pytest.approx(minutes(6000, 5))
+
+
+def test_options_are_checked_once_and_a_grid_needs_its_speed():
+    g = grid_6km()
+    with pytest.raises(OptionError, match="friction inputs need a grid"):
+        TravelModel.build(RoutingOptions(), None, terrain=np.zeros(g.shape))
+    from geo_reach.analysis.walkgrid import GridWalk, WalkGrid
+
+    wg = WalkGrid.build(g, 5.0, terrain=np.zeros(g.shape))
+    with pytest.raises(OptionError, match="made for walking at 5 km/h"):
+        GridWalk(wg, RoutingOptions().weight, 4.0, 5000.0)
+    net = net_utm([(0, 1)], [[0, 0], [10000, 0]], minutes=[10.0])
+    att = TravelModel(RoutingOptions()).attach(net, [[0.0, 10.0]], roles=("leave",))
+    with pytest.raises(OptionError, match="without pricing the 'arrive' walk"):
+        att.arcs(net, "arrive")
+
+
+def test_direct_walks_subset_renumbers():
+    d = DirectWalks(np.array([0, 1, 2]), np.array([2, 0, 1]), np.array([1.0, 2.0, 3.0]), np.array([10.0, 20, 30]))
+    s = d.subset(dst=[1, 2])
+    assert s.src.tolist() == [0, 2] and s.dst.tolist() == [1, 0] and s.cost.tolist() == [1.0, 3.0]
+    s = d.subset(src=[2], dst=[1])
+    assert s.src.tolist() == [0] and s.dst.tolist() == [0] and s.walk_m.tolist() == [30.0]
