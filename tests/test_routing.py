@@ -191,15 +191,19 @@ def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs
         if not dist or min(dist.values()) > max_access_m:
             continue
         pnode[i] = base + i
-        # offered: every edge up to EXTRA_WALK_M farther than the nearest, and the nearest edge of the
-        # largest component (the attach rule, written out); the search picks the cheapest entry
+        # offered: every edge up to EXTRA_WALK_M farther than the nearest, the nearest edge of the
+        # largest component and the edges faster than every nearer one (the attach rule, written out);
+        # the search picks the cheapest entry
         from geo_reach.analysis.attach import EXTRA_WALK_M
 
         near = min(dist.values())
         main = {e: d for e, d in dist.items() if net.component[net.edge_from[e]] == 0}
         near_main = min(main.values()) if main else np.inf
+        pace = {e: c[e] / max(net.edge_length_m[e], 1e-9) for e in dist}   # cost per metre of road
         for e, d in dist.items():
-            offered = d <= near + EXTRA_WALK_M or (e in main and d <= near_main + 1e-6)
+            # and every edge faster than every edge that is cheaper to walk to (the documented front)
+            faster = all(pace[e] < pace[f] for f, df in dist.items() if df < d and df <= max_access_m)
+            offered = d <= near + EXTRA_WALK_M or (e in main and d <= near_main + 1e-6) or faster
             if d <= max_access_m and offered:
                 f = net.edge_geometry[e].line_locate_point(p, normalized=True)
                 cuts.setdefault(e, []).append((f, i, d))
@@ -458,6 +462,14 @@ def test_travel_model_trips_match_split_edge_reference_with_direct_walks(seed, w
     for i, j in [(0, 1), (3, 4), (4, 3), (2, 2)]:
         r = model.route(net, pts[i], pts[j])
         assert r.cost == pytest.approx(ref[i, j], rel=1e-9, abs=1e-9)
-    # each place's nearest "hub" among the others: the minimum of its od row
+    # each place's nearest "hub" among the others: the minimum of its od row (to-hub), of its od column
+    # (from-hub: the trip from the hub), with the hub that gives it
     trips = model.hub_trips(net, pts[:3], pts[3:])[None]
     np.testing.assert_allclose(trips.cost, ref[:3, 3:].min(axis=1), rtol=1e-9, atol=1e-9)
+    back = model.for_direction("from-hub").hub_trips(net, pts[:3], pts[3:])[None]
+    np.testing.assert_allclose(back.cost, ref[3:, :3].min(axis=0), rtol=1e-9, atol=1e-9)
+    for i in range(3):
+        if np.isfinite(back.cost[i]):
+            assert ref[3 + back.hub[i], i] == pytest.approx(back.cost[i], rel=1e-9, abs=1e-9)
+        if np.isfinite(trips.cost[i]):
+            assert ref[i, 3 + trips.hub[i]] == pytest.approx(trips.cost[i], rel=1e-9, abs=1e-9)

@@ -299,3 +299,35 @@ def test_direct_walks_subset_renumbers():
     assert s.src.tolist() == [0, 2] and s.dst.tolist() == [1, 0] and s.cost.tolist() == [1.0, 3.0]
     s = d.subset(src=[2], dst=[1])
     assert s.src.tolist() == [0] and s.dst.tolist() == [0] and s.walk_m.tolist() == [30.0]
+
+
+def test_a_fast_road_beyond_the_extra_walk_is_still_offered():
+    """Hand-worked: a place 20 m from a 6 km/h track and 1,500 m from a 60 km/h road (beyond the 1 km
+    of extra walking), node 3 km along each.  Via the track: 20 m (0.24 min at 5 km/h) + 30 min =
+    30.24 min; via the road: 1,500 m (18 min) + 3 min = 21 min, the cheaper trip."""
+    xy = [[0, 0], [3000, 0], [0, 1520], [3000, 1520]]
+    net = net_utm([(0, 1), (2, 3)], xy, minutes=np.array([30.0, 3.0]))
+    model = TravelModel(RoutingOptions(weight="minutes", walk_kmh=5.0))
+    cost, _ = model.nearest_hub(net, [[0.0, 20.0]])
+    assert cost[3] == pytest.approx(minutes(1500, 5) + 3.0)
+    assert cost[1] == pytest.approx(minutes(20, 5) + 30.0)
+    # a slower road farther away adds nothing: its leg is not offered
+    xy2 = xy + [[0, 2520], [3000, 2520]]
+    net2 = net_utm([(0, 1), (2, 3), (4, 5)], xy2, minutes=np.array([30.0, 3.0, 20.0]))
+    att = model.attach(net2, [[0.0, 20.0]])
+    assert sorted(att.leg_edge.tolist()) == [0, 1]
+
+
+def test_a_settlement_reaches_the_largest_component_however_far():
+    """A place at (4000, 6000), 300 m from a cut-off track (nodes 2-3) and 6,000 m due north of node 1 of
+    the main road 0-4-1 (beyond max_access_m 5000), the hub 10 m off node 0.  As a settlement it still
+    walks to the main road: 6,000 m (72 min at 5 km/h), 4 min along it, 10 m to the hub (0.12 min)."""
+    xy = [[0, 0], [4000, 0], [3800, 6300], [4300, 6300], [2000, 0]]
+    net = net_utm([(0, 4), (4, 1), (2, 3)], xy, minutes=np.array([2.0, 2.0, 1.0]))   # main road 0-4-1: 3 nodes
+    model = TravelModel(RoutingOptions(weight="minutes", max_access_m=5000.0))
+    place, hub = [[4000.0, 6000.0]], [[0.0, 10.0]]
+    t = model.hub_trips(net, place, hub)[None]
+    assert np.isinf(t.cost[0]) and t.hub[0] == -1          # without: the cut-off track leads nowhere
+    t = model.hub_trips(net, model.attach(net, place, always_join=True), hub)[None]
+    assert t.cost[0] == pytest.approx(minutes(6000, 5) + 4.0 + minutes(10, 5))
+    assert t.network_m[0] == pytest.approx(4000.0)
