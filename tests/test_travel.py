@@ -331,3 +331,39 @@ def test_a_settlement_reaches_the_largest_component_however_far():
     t = model.hub_trips(net, model.attach(net, place, always_join=True), hub)[None]
     assert t.cost[0] == pytest.approx(minutes(6000, 5) + 4.0 + minutes(10, 5))
     assert t.network_m[0] == pytest.approx(4000.0)
+
+
+def test_the_largest_component_is_offered_even_when_slower():
+    """Hand-worked: a hub 30 m from a fast 100 m cut-off track (6 s) and 1,500 m from the slow main road
+    0-1-2 (10 min per km).  Neither within the extra walk nor faster than the track, the main road is
+    still offered (the nearest entry onto the largest component): node 0 is 1,500 m on foot (18 min)
+    plus two 10-minute links = 38 min from the hub; without it no node of the main road reaches it."""
+    xy = [[0, 0], [1000, 0], [2000, 0], [2000, 1530], [2100, 1530]]
+    net = net_utm([(0, 1), (1, 2), (3, 4)], xy, minutes=np.array([10.0, 10.0, 0.1]))
+    cost, _ = TravelModel(RoutingOptions(weight="minutes")).nearest_hub(net, [[2000.0, 1500.0]])
+    assert cost[0] == pytest.approx(minutes(1500, 5) + 20.0)
+
+
+def test_a_settlement_beyond_reach_joins_its_nearest_road_even_off_the_largest_component():
+    """A village 6 km north of a side road 3-4 that carries the hub (a component of its own), 9 km from
+    the main road 0-1-2: as a settlement it walks the 6 km to the side road (72 min at 5 km/h) and on
+    to the hub at node 4 (1 min); the main road leads to no hub."""
+    xy = [[0, 0], [1000, 0], [2000, 0], [0, 3000], [1000, 3000]]
+    net = net_utm([(0, 1), (1, 2), (3, 4)], xy, minutes=np.array([1.0, 1.0, 1.0]))
+    model = TravelModel(RoutingOptions(weight="minutes", max_access_m=5000.0))
+    t = model.hub_trips(net, model.attach(net, [[0.0, 9000.0]], always_join=True), [[1000.0, 3000.0]])[None]
+    assert t.cost[0] == pytest.approx(minutes(6000, 5) + 1.0) and t.network_m[0] == pytest.approx(1000.0)
+
+
+def test_a_settlement_beyond_reach_joins_its_nearest_road_when_the_largest_part_is_rail():
+    """The largest component is a railway (5 nodes, no station within reach) and the hub's side road
+    3 km away is its own part: a village 6 km from that road still walks there (72 min) and rides 1 min."""
+    xy = [[0, 0], [1000, 3000], [20000, 0], [21000, 0], [22000, 0], [23000, 0], [24000, 0]]
+    mode = np.array(["road", "rail", "rail", "rail", "rail"], object)
+    net = net_utm([(1, 0), (2, 3), (3, 4), (4, 5), (5, 6)], xy, minutes=np.ones(5), mode=mode,
+                  entry=np.array([True, True, False, False, False, False, False]))
+    model = TravelModel(RoutingOptions(weight="minutes", max_access_m=5000.0))
+    place = [[1000.0, 9000.0]]
+    assert not model.attach(net, place).attached[0]
+    t = model.hub_trips(net, model.attach(net, place, always_join=True), [[0.0, 0.0]])[None]
+    assert t.cost[0] == pytest.approx(minutes(6000, 5) + 1.0)

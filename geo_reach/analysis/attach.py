@@ -229,12 +229,13 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
     nd = places["kd"].query(xy)[0] if p and places["kd"] is not None else np.full(p, np.inf)
     access = np.minimum(near, nd)   # the straight distance to the nearest place, also beyond reach
     lim = np.full(p, float(max_access_m))
-    if always_join:
-        far = np.isfinite(access) & (access > max_access_m)
-        lim[far] = access[far] + min(extra_walk_m, max_access_m) + TIE_M
-        if p and places["main_tree"] is not None:   # and it reaches the largest component, however far
+    if always_join and p:
+        if places["main_tree"] is not None:   # up to the largest component, however far (the nearest place too)
             (mi, _), dm = places["main_tree"].query_nearest(pts, return_distance=True, all_matches=False)
             lim[mi] = np.maximum(lim[mi], dm + TIE_M)
+        else:                                  # no road on it: up to the nearest place, and the extra walk
+            far = np.isfinite(access) & (access > max_access_m)
+            lim[far] = access[far] + min(extra_walk_m, max_access_m) + TIE_M
     # --- road edges: every edge within reach of the nearest
     if p and places["tree"] is not None:
         ok = near <= lim
@@ -329,13 +330,16 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
 
 
 def _faster_than_every_cheaper(network, weight, leg_point, leg_edge, sel, reach) -> np.ndarray:
-    """Legs onto a road faster (less cost per metre) than every leg of the point that is cheaper to walk to.
+    """Legs onto a road faster (less cost per metre) than every leg of the point strictly cheaper to walk to.
 
     A fast road farther away than a slow track can make the cheaper trip
     however far beyond the cheapest walk it lies; these legs are the
-    point's front of (walk cost, road pace), a handful per point.  Entry
+    point's front of (walk cost, road pace), a handful per point (legs tied
+    on the walk are all kept: they may lead to different places).  Entry
     nodes count as the fastest (stations and access nodes are few).
     """
+    import pandas as pd
+
     out = np.zeros(len(leg_point), bool)
     idx = np.nonzero(reach)[0]
     if not len(idx):
@@ -345,23 +349,18 @@ def _faster_than_every_cheaper(network, weight, leg_point, leg_edge, sel, reach)
     with np.errstate(divide="ignore", invalid="ignore"):
         pace = np.where(e >= 0, cost[np.maximum(e, 0)] / np.maximum(network.edge_length_m[np.maximum(e, 0)], 1e-9),
                         -np.inf)
-    order = np.lexsort((pace, sel[idx], leg_point[idx]))
-    pt, pc = leg_point[idx][order], pace[order]
-    start = np.r_[True, pt[1:] != pt[:-1]]
-    # the least pace among the legs before each one (same point, cheaper or tied walk first)
-    seg = np.cumsum(start) - 1
+    order = np.lexsort((sel[idx], leg_point[idx]))
+    pt, sv, pc = leg_point[idx][order], sel[idx][order], pace[order]
+    new_pt = np.r_[True, pt[1:] != pt[:-1]]
+    # the least pace among the point's legs before each one, then the same for every leg of a walk tie
     shifted = np.r_[np.inf, pc[:-1]]
-    shifted[start] = np.inf
-    best_before = _segment_cummin(shifted, seg)
-    out[idx[order]] = pc < best_before
+    shifted[new_pt] = np.inf
+    before = pd.Series(shifted).groupby(np.cumsum(new_pt)).cummin()
+    same_walk = np.r_[False, np.abs(sv[1:] - sv[:-1]) <= 1e-9 * np.maximum(1.0, np.abs(sv[1:]))]   # rounding
+    tie = np.cumsum(new_pt | ~same_walk)
+    before = before.groupby(tie).transform("first").to_numpy(np.float64)
+    out[idx[order]] = pc < before
     return out
-
-
-def _segment_cummin(values, seg) -> np.ndarray:
-    """Running minimum of ``values`` restarting where ``seg`` changes."""
-    import pandas as pd
-
-    return pd.Series(values).groupby(seg).cummin().to_numpy(np.float64)
 
 
 def _add_main_nearest(places, pts, near, lim, qi, edges, dist, frac, network):
