@@ -223,6 +223,7 @@ def test_table_route_od_and_scenario_give_one_number(tmp_path, capsys, river):
         # per kind: the clinic is the only clinic, the market the only market
         assert row.hub_minutes_clinic == pytest.approx(ref[(s, "C")], rel=1e-6)
         assert row.hub_minutes_market == pytest.approx(ref[(s, "M")], rel=1e-6)
+        assert row.nearest_hub_clinic == "C" and row.nearest_hub_market == "M"
         # the scenario that changes nothing gives the same minutes, before and after
         assert scen.loc[s, "hub_minutes_after"] == pytest.approx(row.hub_minutes, rel=1e-9)
         assert scen.loc[s, "hub_minutes_before"] == pytest.approx(row.hub_minutes, rel=1e-9)

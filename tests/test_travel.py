@@ -367,3 +367,60 @@ def test_a_settlement_beyond_reach_joins_its_nearest_road_when_the_largest_part_
     assert not model.attach(net, place).attached[0]
     t = model.hub_trips(net, model.attach(net, place, always_join=True), [[0.0, 0.0]])[None]
     assert t.cost[0] == pytest.approx(minutes(6000, 5) + 1.0)
+
+
+def test_land_cover_pieces_are_walked_half_at_each_cells_pace():
+    """Hand-worked, the kernel's move rule for straight pieces: a place at the centre of a 2 km/h cell
+    (0.03 min/m) and a target at the centre of the 6 km/h cell east of it (0.01 min/m): 100 m at the
+    mean pace, 2 min.  A target 30 m past that centre: 2 min + 30 m at 0.01 = 2.3 min (straight from
+    the place would be 130 m x 0.02 = 2.6 min)."""
+    g = Grid.from_bounds((0, 0, 1000, 1000), 100, 0, crs=UTM)
+    lc = np.full(g.shape, 2, np.int64)
+    lc[:, 5:] = 6                                   # columns from x = 500 m: class 6
+    model = TravelModel.build(RoutingOptions(weight="minutes", walk_kmh=5.0), g, landcover=lc,
+                              landcover_speeds={2: 2.0, 6: 6.0})
+    cost, _ = model.walk([[450.0, 550.0], [450.0, 550.0]], [[550.0, 550.0], [580.0, 550.0]])
+    assert cost.tolist() == pytest.approx([100 * (0.03 + 0.01) / 2, 2.0 + 30 * 0.01], rel=1e-12)
+    # off the centres: (480, 550) to (520, 550) is a straight 40 m piece across the cells' boundary,
+    # half at each pace: 0.8 min, both ways
+    cost, _ = model.walk([[480.0, 550.0], [520.0, 550.0]], [[520.0, 550.0], [480.0, 550.0]])
+    assert cost.tolist() == pytest.approx([40 * 0.02, 40 * 0.02], rel=1e-12)
+
+
+def test_free_weights_walk_for_nothing_on_the_grid_but_only_where_passable():
+    """hops on a friction grid: a place at the cell centre (450, 1350) walks 350 m due south for 0 links
+    and rides its share of the 1 km edge (0.45 of a link to node 0); a barrier all round still leaves
+    the place out."""
+    g = Grid.from_bounds((0, 0, 2000, 2000), 100, 0, crs=UTM)
+    net = net_utm([(0, 1)], [[0, 1000], [1000, 1000]], minutes=[10.0])
+    model = TravelModel.build(RoutingOptions(weight="hops"), g, terrain=np.zeros(g.shape))
+    cost, _ = model.nearest_hub(net, [[450.0, 1350.0]])
+    assert cost.tolist() == pytest.approx([0.45, 0.55])
+    ring = shapely.box(350, 1250, 550, 1450).difference(shapely.box(410, 1310, 490, 1390))
+    walled = TravelModel.build(RoutingOptions(weight="hops"), g, barriers=gpd.GeoDataFrame(geometry=[ring], crs=UTM))
+    att = walled.attach(net, [[450.0, 1350.0]])
+    assert att.blocked[0] and not att.attached[0]
+
+
+def test_walks_beyond_reach_are_refused_and_a_far_settlement_widens_its_own_window():
+    """A walk longer than max_access_m costs inf (straight and on the grid); a settlement 6 km from the
+    only road still walks there on the grid: 60 cells due south, 72 min at 5 km/h."""
+    straight = TravelModel(RoutingOptions(weight="minutes", max_access_m=1000.0))
+    assert straight.walk([[0.0, 0.0], [0.0, 0.0]], [[0.0, 900.0], [0.0, 1100.0]])[0].tolist() == \
+        pytest.approx([minutes(900, 5), np.inf])
+    g = Grid.from_bounds((0, 0, 3000, 8000), 100, 0, crs=UTM)
+    net = net_utm([(0, 1)], [[50, 1050], [2950, 1050]], minutes=[29.0])
+    model = TravelModel.build(RoutingOptions(weight="minutes", max_access_m=5000.0), g, terrain=np.zeros(g.shape))
+    assert np.isinf(model.walk([[1050.0, 7050.0]], [[1050.0, 1050.0]])[0][0])
+    att = model.attach(net, [[1050.0, 7050.0]], always_join=True)
+    assert att.attached[0] and att.leg_leave_cost.min() == pytest.approx(minutes(6000, 5), rel=1e-12)
+
+
+def test_hub_trips_per_group_name_hubs_of_the_whole_list():
+    """Groups of hubs (kinds): each group's nearest hub is given as an index into all hubs."""
+    net = net_utm([(0, 1)], [[0, 0], [10000, 0]], minutes=[10.0])
+    model = TravelModel(RoutingOptions(weight="minutes"))
+    hubs = [[9000.0, 10.0], [1000.0, 10.0], [5000.0, 10.0]]
+    out = model.hub_trips(net, [[0.0, 10.0]], hubs, {"a": [0, 2], "b": [1]})
+    assert out[None].hub.tolist() == [1] and out["a"].hub.tolist() == [2] and out["b"].hub.tolist() == [1]
+    assert out["a"].cost[0] == pytest.approx(2 * minutes(10, 5) + 5.0)
