@@ -405,7 +405,11 @@ def test_route_and_od_walk_round_barriers_at_the_given_speed(tmp_path, net_path,
     assert route(W) == pytest.approx(7.65, rel=1e-9)                        # straight lines, no friction
     assert route(W, "--barriers", water, "--cell-m", "50") == pytest.approx(8.35, rel=1e-9)
     assert route(E, "--barriers", water, "--cell-m", "50") == pytest.approx(6.15, rel=1e-9)
-    assert route(W, "--terrain", _flat_dem(tmp_path), "--cell-m", "50") == pytest.approx(7.65, rel=1e-9)
+    assert route(W, "--terrain", _dem(tmp_path, 0.0), "--cell-m", "50") == pytest.approx(7.65, rel=1e-9)
+    # ground rising 1 in 10 to the east: walking east uphill (Tobler: speed x exp(-3.5 x 0.15) / exp(-3.5 x
+    # 0.05) = 0.705) costs 475 m / 2.82 km/h = 10.1 min; the flat walk south (columns keep their height)
+    # to the row y = Y0 is cheaper: 8.35 min as with the barrier
+    assert route(W, "--terrain", _dem(tmp_path, 0.1), "--cell-m", "50") == pytest.approx(8.35, rel=1e-9)
     # od prices the same trips
     o = write_points(tmp_path / "o.gpkg", [W, E])
     d = write_points(tmp_path / "d.gpkg", [NODE2])
@@ -416,15 +420,17 @@ def test_route_and_od_walk_round_barriers_at_the_given_speed(tmp_path, net_path,
     assert pairs.trip_cost.tolist() == pytest.approx([8.35, 6.15], rel=1e-9)
 
 
-def _flat_dem(tmp_path):
-    """A flat terrain raster (every cell at 100 m) over the grid network, 50 m cells."""
+def _dem(tmp_path, rise):
+    """A terrain raster rising ``rise`` metres per metre eastwards (50 m cells, centres on the grid's)."""
     import rasterio
     from rasterio.transform import from_origin
 
-    path = tmp_path / "dem.tif"
-    with rasterio.open(path, "w", driver="GTiff", width=240, height=200, count=1, dtype="float32", crs=UTM,
-                       transform=from_origin(X0 - 3000, Y0 + 6000, 50, 50)) as ds:
-        ds.write(np.full((200, 240), 100.0, dtype="float32"), 1)
+    path = tmp_path / f"dem_{rise:g}.tif"
+    x = X0 - 4000 + 25 + 50 * np.arange(240)
+    z = np.repeat((100.0 + rise * (x - X0))[None, :], 240, axis=0)
+    with rasterio.open(path, "w", driver="GTiff", width=240, height=240, count=1, dtype="float64", crs=UTM,
+                       transform=from_origin(X0 - 4000, Y0 + 6000, 50, 50)) as ds:
+        ds.write(z, 1)
     return path
 
 
@@ -459,3 +465,13 @@ def test_friction_options_refused_in_one_line(tmp_path, net_path, capsys, monkey
         shapely.box(X0 + 260, Y0 + 510, X0 + 340, Y0 + 590))], crs=UTM).to_file(ring, layer="ring")
     code, _, err = run(["route", net_path, *frm, "--barriers", f"{ring}:ring", "--cell-m", "20"], capsys, monkeypatch)
     assert_refused(code, err, "no walk from the point reaches a place to join the network")
+    # od keeps the walled-in origin, with a null cost and the reason, and says so
+    o = write_points(tmp_path / "o.gpkg", [(X0 + 300, Y0 + 550), (X0 + 900, Y0 + 550)])
+    code, _, err = run(["od", net_path, "--origins", o, "--destinations", o, "--barriers", f"{ring}:ring",
+                        "--cell-m", "20", "-o", tmp_path / "od.gpkg"], capsys, monkeypatch)
+    assert code == 0, err
+    assert "1 origins cannot walk to any place to join the network" in err
+    pairs = pyogrio.read_dataframe(tmp_path / "od.gpkg", layer="od_pairs")
+    walled = pairs[pairs.origin_id == 1]
+    assert walled.trip_cost.isna().all() and walled.reason.str.startswith("origin walks to no place").all()
+    assert pairs[(pairs.origin_id == 2) & (pairs.destination_id == 2)].trip_cost.tolist() == [0.0]

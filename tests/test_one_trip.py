@@ -260,3 +260,17 @@ def test_the_river_is_never_walked_across(tmp_path, capsys):
     assert wet_part.length == pytest.approx(260.0, abs=0.5)                   # it crosses the river once ...
     assert wet_part.distance(shapely.LineString([(X0, BRIDGE_Y), (X0 + 4000, BRIDGE_Y)])) < 0.01
     assert shapely.get_coordinates(wet_part)[:, 1] == pytest.approx(BRIDGE_Y, abs=0.01)   # ... on the bridge
+
+
+def test_settlement_minutes_stay_minutes_when_the_study_routes_on_length(tmp_path, capsys):
+    """hub_minutes is always minutes (glossary): a study routed on length_m gives its settlements the
+    same minutes as the minutes reference."""
+    study = write_case(tmp_path, river=False)
+    study.write_text(study.read_text().replace("[routing]", '[routing]\nweight = "length_m"'))
+    run_cli(["build", f"{tmp_path / 'towns.gpkg'}:roads", "--speed-field", "speed", "-o", tmp_path / "net.gpkg"],
+            capsys)
+    run_cli(["run", study, "-o", tmp_path / "out", "--quiet"], capsys)
+    table = pyogrio.read_dataframe(tmp_path / "out" / "results.gpkg", layer="settlements").set_index("settlement_id")
+    ref = reference(read_network(tmp_path / "net.gpkg"), river=False)
+    for s in SETTLEMENTS:
+        assert table.loc[s, "hub_minutes"] == pytest.approx(min(ref[(s, h)] for h in HUBS), rel=1e-6)

@@ -424,3 +424,33 @@ def test_hub_trips_per_group_name_hubs_of_the_whole_list():
     out = model.hub_trips(net, [[0.0, 10.0]], hubs, {"a": [0, 2], "b": [1]})
     assert out[None].hub.tolist() == [1] and out["a"].hub.tolist() == [2] and out["b"].hub.tolist() == [1]
     assert out["a"].cost[0] == pytest.approx(2 * minutes(10, 5) + 5.0)
+
+
+def test_hub_access_prices_hub_walks_with_its_options():
+    """hub_access without a model walks at the options' speed: a hub 400 m off a 10-minute road at
+    its middle, 3 km/h: node 0 is 8 min (400 m) + 5 min away."""
+    from geo_reach.analysis.access import hub_access
+
+    net = net_utm([(0, 1)], [[0, 0], [10000, 0]], minutes=[10.0])
+    acc = hub_access(net, np.array([[5000.0, 400.0]]), [1], options=RoutingOptions(walk_kmh=3.0))
+    assert acc.node_cost.tolist() == pytest.approx([minutes(400, 3) + 5.0] * 2)
+
+
+def test_the_study_model_takes_land_cover_with_its_speed_table_and_hubs_join_at_their_cheapest_walk():
+    """The pipeline's model from a study's [surface] land cover: a 2 km/h class doubles a 5 km/h walk;
+    and the node a hub joins (for weak regions) is the end of its cheapest leg."""
+    from geo_reach.pipeline.inputs import Hubs
+    from geo_reach.pipeline.steps import _hub_nodes, travel_model
+    from geo_reach.study import study_from_dict
+
+    g = Grid.from_bounds((0, 0, 2000, 2000), 100, 0, crs=UTM)
+    raw = {"network": {"prebuilt": "n.gpkg"}, "routing": {"walk_kmh": 5.0},
+           "surface": {"cell_m": 100.0, "landcover": "lc.tif", "landcover_speeds": {"1": 2.0}}}
+    study = study_from_dict(raw, Path("."), check_files=False)
+    model = travel_model(study, {"grid": g, "landcover": np.ones(g.shape, np.int64)})
+    assert model.on_grid
+    assert model.walk([[1050.0, 1050.0]], [[1050.0, 350.0]])[0][0] == pytest.approx(minutes(700, 2.0), rel=1e-12)
+    # a hub 10 m from edge 1-2 near node 1 and 300 m from edge 0-3: it joins at edge 1-2
+    net = net_utm([(0, 3), (1, 2)], [[0, 0], [1000, 310], [1900, 310], [1900, 0]], minutes=[1.0, 1.0])
+    hubs = Hubs(np.array([[1000.0, 300.0]]), np.array([1]), None, None)
+    assert _hub_nodes(net, hubs, TravelModel(RoutingOptions())).tolist() == [1]
