@@ -365,3 +365,114 @@ def test_profile_json_and_png(tmp_path, net_path, capsys, monkeypatch):
 def test_profile_refuses_unknown_node(tmp_path, net_path, capsys, monkeypatch):
     code, _, err = run(["profile", net_path, "--from", 999], capsys, monkeypatch)
     assert_refused(code, err, "node id 999 is not in the network")
+
+
+# ====================================================================== one walk model in the commands
+def test_route_from_a_place_to_itself_costs_nothing(tmp_path, net_path, capsys, monkeypatch):
+    """Issue: `route --from P --to P` cost 13.2 minutes (walking to the network and back); a trip to the
+    place one stands on costs 0 on every weight."""
+    for weight in ("minutes", "length_m", "hops"):
+        code, out, err = run(["route", net_path, "--from", f"{X0 + 300},{Y0 + 550}", "--to", f"{X0 + 300},{Y0 + 550}",
+                              "--crs", "EPSG:32633", "--weight", weight], capsys, monkeypatch)
+        assert code == 0, err
+        assert json.loads(out)["properties"]["cost"] == 0.0 and json.loads(out)["properties"]["edge_ids"] == []
+
+
+def _river(tmp_path):
+    """A barrier 40 m wide along x = X0+1560..X0+1600 over the whole grid network (between columns 1 and 2)."""
+    path = tmp_path / "water.gpkg"
+    gpd.GeoDataFrame({"n": [1]}, geometry=[shapely.box(X0 + 1560, Y0 - 6000, X0 + 1600, Y0 + 9000)],
+                     crs=UTM).to_file(path, layer="water")
+    return f"{path}:water"
+
+
+# Hand-worked, walking at 4 km/h (66.67 m per minute) on 50 m cells, whose centres lie at X0 + 25 + 50 k:
+# W = (X0+1525, Y0+525) is 475 m west of column 2 (x = X0+2000), E = (X0+1625, Y0+525) 375 m west of it,
+# with the barrier between them.  Without it, W walks east 475 m (7.125 min) and rides 0.525 link down
+# to node 2 (X0+2000, Y0): 7.65 min.  With it, W walks 525 m south to the row y = Y0 (7.875 min; a column
+# of cell centres, then 25 m to the road) and rides 0.475 link east: 8.35 min.  E: 375 m + 0.525 = 6.15.
+W, E, NODE2 = (X0 + 1525, Y0 + 525), (X0 + 1625, Y0 + 525), (X0 + 2000, Y0)
+
+
+def test_route_and_od_walk_round_barriers_at_the_given_speed(tmp_path, net_path, capsys, monkeypatch):
+    water = _river(tmp_path)
+
+    def route(frm, *extra):
+        code, out, err = run(["route", net_path, "--from", f"{frm[0]},{frm[1]}", "--to", f"{NODE2[0]},{NODE2[1]}",
+                              "--crs", "EPSG:32633", "--walk-kmh", "4", *extra], capsys, monkeypatch)
+        assert code == 0, err
+        return json.loads(out)["properties"]["cost"]
+
+    assert route(W) == pytest.approx(7.65, rel=1e-9)                        # straight lines, no friction
+    assert route(W, "--barriers", water, "--cell-m", "50") == pytest.approx(8.35, rel=1e-9)
+    assert route(E, "--barriers", water, "--cell-m", "50") == pytest.approx(6.15, rel=1e-9)
+    assert route(W, "--terrain", _dem(tmp_path, 0.0), "--cell-m", "50") == pytest.approx(7.65, rel=1e-9)
+    # ground rising 1 in 10 to the east: walking east uphill (Tobler: speed x exp(-3.5 x 0.15) / exp(-3.5 x
+    # 0.05) = 0.705) costs 475 m / 2.82 km/h = 10.1 min; the flat walk south (columns keep their height)
+    # to the row y = Y0 is cheaper: 8.35 min as with the barrier
+    assert route(W, "--terrain", _dem(tmp_path, 0.1), "--cell-m", "50") == pytest.approx(8.35, rel=1e-9)
+    # od prices the same trips
+    o = write_points(tmp_path / "o.gpkg", [W, E])
+    d = write_points(tmp_path / "d.gpkg", [NODE2])
+    code, _, err = run(["od", net_path, "--origins", o, "--destinations", d, "--walk-kmh", "4", "--barriers", water,
+                        "--cell-m", "50", "-o", tmp_path / "od.gpkg"], capsys, monkeypatch)
+    assert code == 0, err
+    pairs = pyogrio.read_dataframe(tmp_path / "od.gpkg", layer="od_pairs").sort_values("origin_id")
+    assert pairs.trip_cost.tolist() == pytest.approx([8.35, 6.15], rel=1e-9)
+
+
+def _dem(tmp_path, rise):
+    """A terrain raster rising ``rise`` metres per metre eastwards (50 m cells, centres on the grid's)."""
+    import rasterio
+    from rasterio.transform import from_origin
+
+    path = tmp_path / f"dem_{rise:g}.tif"
+    x = X0 - 4000 + 25 + 50 * np.arange(240)
+    z = np.repeat((100.0 + rise * (x - X0))[None, :], 240, axis=0)
+    with rasterio.open(path, "w", driver="GTiff", width=240, height=240, count=1, dtype="float64", crs=UTM,
+                       transform=from_origin(X0 - 4000, Y0 + 6000, 50, 50)) as ds:
+        ds.write(z, 1)
+    return path
+
+
+def test_access_prices_hub_walks_with_the_friction_options(tmp_path, net_path, capsys, monkeypatch):
+    """The hub at W (hand-worked above): node 2 is 8.35 min from it with the barrier, 7.65 without;
+    node 1 (X0+1000, Y0) is 0.525 link + 525 m = 8.4 min either way (W lies west of the barrier)."""
+    hubs = write_points(tmp_path / "hubs.gpkg", [W])
+    out = tmp_path / "acc.gpkg"
+    code, _, err = run(["access", net_path, "--hubs", hubs, "--walk-kmh", "4", "--barriers", _river(tmp_path),
+                        "--cell-m", "50", "-o", out], capsys, monkeypatch)
+    assert code == 0, err
+    nodes = pyogrio.read_dataframe(out, layer="nodes")
+    assert nodes.loc[2, "hub_cost"] == pytest.approx(8.35, rel=1e-9)
+    assert nodes.loc[1, "hub_cost"] == pytest.approx(8.4, rel=1e-9)
+    code, _, err = run(["access", net_path, "--hubs", hubs, "--walk-kmh", "4", "-o", out, "--overwrite"],
+                       capsys, monkeypatch)
+    assert code == 0, err
+    assert pyogrio.read_dataframe(out, layer="nodes").loc[2, "hub_cost"] == pytest.approx(7.65, rel=1e-9)
+
+
+def test_friction_options_refused_in_one_line(tmp_path, net_path, capsys, monkeypatch):
+    frm = ["--from", f"{X0 + 300},{Y0 + 550}", "--to", f"{X0 + 900},{Y0 + 550}", "--crs", "EPSG:32633"]
+    code, _, err = run(["route", net_path, *frm, "--landcover", tmp_path / "lc.tif"], capsys, monkeypatch)
+    assert_refused(code, err, "--landcover needs --landcover-speeds")
+    code, _, err = run(["route", net_path, *frm, "--landcover-speeds", "1=5"], capsys, monkeypatch)
+    assert_refused(code, err, "--landcover-speeds needs --landcover")
+    code, _, err = run(["route", net_path, *frm, "--barriers", tmp_path / "nothing.gpkg"], capsys, monkeypatch)
+    assert_refused(code, err, "nothing.gpkg")
+    # a place walled in by barriers is named, not routed
+    ring = tmp_path / "ring.gpkg"
+    gpd.GeoDataFrame({"n": [1]}, geometry=[shapely.box(X0 + 200, Y0 + 450, X0 + 400, Y0 + 650).difference(
+        shapely.box(X0 + 260, Y0 + 510, X0 + 340, Y0 + 590))], crs=UTM).to_file(ring, layer="ring")
+    code, _, err = run(["route", net_path, *frm, "--barriers", f"{ring}:ring", "--cell-m", "20"], capsys, monkeypatch)
+    assert_refused(code, err, "no walk from the point reaches a place to join the network")
+    # od keeps the walled-in origin, with a null cost and the reason, and says so
+    o = write_points(tmp_path / "o.gpkg", [(X0 + 300, Y0 + 550), (X0 + 900, Y0 + 550)])
+    code, _, err = run(["od", net_path, "--origins", o, "--destinations", o, "--barriers", f"{ring}:ring",
+                        "--cell-m", "20", "-o", tmp_path / "od.gpkg"], capsys, monkeypatch)
+    assert code == 0, err
+    assert "1 origins cannot walk to any place to join the network" in err
+    pairs = pyogrio.read_dataframe(tmp_path / "od.gpkg", layer="od_pairs")
+    walled = pairs[pairs.origin_id == 1]
+    assert walled.trip_cost.isna().all() and walled.reason.str.startswith("origin walks to no place").all()
+    assert pairs[(pairs.origin_id == 2) & (pairs.destination_id == 2)].trip_cost.tolist() == [0.0]

@@ -10,7 +10,9 @@ References used here:
   as a real node by splitting its nearest edge (found by brute force over
   every edge) and joined by an access arc, then networkx is run.  This is
   the textbook way to add a point to a network (common practice), so it
-  checks the virtual-node attachment independently.
+  checks the virtual-node attachment independently.  The reference prices
+  each walk itself (distance / speed, written out below), never with the
+  library's walk-cost function, and runs at more than one walking speed.
 * Hand-computed values on tiny networks (written beside each check).
 """
 
@@ -29,8 +31,10 @@ from hypothesis import strategies as st
 sys.path.insert(0, str(Path(__file__).parent))
 from helpers.routing_nets import grid, make_network, random_network, to_networkx  # noqa: E402
 
-from geo_reach.analysis.attach import attach_points, walk_cost  # noqa: E402
+from geo_reach.analysis.attach import attach_points  # noqa: E402
 from geo_reach.analysis import excluded_edges, nearest_hub, od_matrix, one_to_all, shortest_path  # noqa: E402
+from geo_reach.analysis.options import RoutingOptions  # noqa: E402
+from geo_reach.analysis.travel import TravelModel  # noqa: E402
 from geo_reach.errors import InputError, OptionError  # noqa: E402
 
 RTOL = 1e-9
@@ -154,14 +158,25 @@ def test_shortest_path_respects_one_way():
 
 
 # ---------------------------------------------------------------- off-network points
-def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs):
+def own_walk_cost(d_m, weight, walk_kmh):
+    """The reference's own price of a straight walk of ``d_m`` metres: time = distance / speed
+    (km/h -> metres per minute: kmh * 1000 / 60), length = metres, free weights 0."""
+    if weight == "minutes":
+        return d_m / (walk_kmh * 1000.0 / 60.0)
+    if weight == "length_m":
+        return float(d_m)
+    return 0.0
+
+
+def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs, direct=False):
     """Slow reference: split every road edge within ``max_access_m`` of a point at the point's
     projection, and join the point to each cut by a walking leg.
 
     Distances by brute force over all edges (shapely distance per edge).  Several points
     on one edge split it in order of position.  Each point is two nodes: one only left (the
     origin side) and one only arrived at (the destination side), so no trip passes through a
-    point.  Returns the networkx cost for each (i, j) pair.
+    point.  With ``direct``, two points within ``max_access_m`` of each other are also joined by
+    a straight walk (a point to itself: 0).  Returns the networkx cost for each (i, j) pair.
     """
     c = net.cost(weight)
     g = to_networkx(net, weight)
@@ -176,15 +191,19 @@ def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs
         if not dist or min(dist.values()) > max_access_m:
             continue
         pnode[i] = base + i
-        # offered: every edge up to EXTRA_WALK_M farther than the nearest, and the nearest edge of the
-        # largest component (the attach rule, written out); the search picks the cheapest entry
+        # offered: every edge up to EXTRA_WALK_M farther than the nearest, the nearest edge of the
+        # largest component and the edges faster than every nearer one (the attach rule, written out);
+        # the search picks the cheapest entry
         from geo_reach.analysis.attach import EXTRA_WALK_M
 
         near = min(dist.values())
         main = {e: d for e, d in dist.items() if net.component[net.edge_from[e]] == 0}
         near_main = min(main.values()) if main else np.inf
+        pace = {e: c[e] / max(net.edge_length_m[e], 1e-9) for e in dist}   # cost per metre of road
         for e, d in dist.items():
-            offered = d <= near + EXTRA_WALK_M or (e in main and d <= near_main + 1e-6)
+            # and every edge faster than every edge that is cheaper to walk to (the documented front)
+            faster = all(pace[e] < pace[f] for f, df in dist.items() if df < d and df <= max_access_m)
+            offered = d <= near + EXTRA_WALK_M or (e in main and d <= near_main + 1e-6) or faster
             if d <= max_access_m and offered:
                 f = net.edge_geometry[e].line_locate_point(p, normalized=True)
                 cuts.setdefault(e, []).append((f, i, d))
@@ -201,7 +220,7 @@ def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs
             chain = [(0.0, u)] + [(f, ("cut", e, k)) for k, (f, _, _) in enumerate(stops)] + [(1.0, v)]
             pieces = [(a[1], b[1], (b[0] - a[0]) * c[e]) for a, b in zip(chain[:-1], chain[1:])]
             for k, (f, i, d) in enumerate(stops):
-                w = float(walk_cost(d, weight, walk_kmh))
+                w = own_walk_cost(d, weight, walk_kmh)
                 h.add_edge(("out", pnode[i]), ("cut", e, k), w=w)
                 h.add_edge(("cut", e, k), ("in", pnode[i]), w=w)
         for a, b, w in pieces:
@@ -209,6 +228,12 @@ def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs
             for s, t in ([(a, b)] if net.edge_oneway[e] and w > 0 else [(a, b), (b, a)]):
                 if not h.has_edge(s, t) or h[s][t]["w"] > w:
                     h.add_edge(s, t, w=w)
+    if direct:
+        for i in pnode:
+            for j in pnode:
+                d = float(np.hypot(*(np.asarray(points_xy[i]) - points_xy[j])))
+                if d <= max_access_m:
+                    h.add_edge(("out", pnode[i]), ("in", pnode[j]), w=own_walk_cost(d, weight, walk_kmh))
     out = []
     for i, j in pairs:
         if i not in pnode or j not in pnode:
@@ -222,20 +247,20 @@ def _reference_point_costs(net, points_xy, weight, walk_kmh, max_access_m, pairs
 
 
 @settings(max_examples=40, deadline=None)
-@given(seed=st.integers(0, 2**32 - 1))
-def test_od_between_points_matches_split_edge_reference(seed):
+@given(seed=st.integers(0, 2**32 - 1), walk_kmh=st.sampled_from([5.0, 3.2]))
+def test_od_between_points_matches_split_edge_reference(seed, walk_kmh):
     rng = np.random.default_rng(seed)
     net = random_network(rng, 12, 25, p_oneway=0.4, zero_prob=0.0)
     pts = rng.uniform(-500, 5500, (6, 2))
-    att = attach_points(net, pts, "minutes", max_access_m=2000.0, walk_kmh=5.0)
+    att = attach_points(net, pts, "minutes", max_access_m=2000.0, walk_kmh=walk_kmh)
     od = od_matrix(net, att, att, "minutes")
     pairs = [(i, j) for i in range(6) for j in range(6)]
-    ref = _reference_point_costs(net, pts, "minutes", 5.0, 2000.0, pairs).reshape(6, 6)
-    # self pairs: the reference walks out and back only if it leaves the node; ours walks the
-    # access legs twice (documented), equal to twice the access cost.
+    ref = _reference_point_costs(net, pts, "minutes", walk_kmh, 2000.0, pairs).reshape(6, 6)
+    # self pairs: the reference walks out and back only if it leaves the node; without direct walks
+    # ours walks the access legs twice (documented), twice the access walk priced by the reference.
     for i in range(6):
         if att.attached[i]:
-            ref[i, i] = 2 * float(walk_cost(att.access_m[i], "minutes", 5.0))
+            ref[i, i] = 2 * own_walk_cost(att.access_m[i], "minutes", walk_kmh)
     np.testing.assert_allclose(od.cost, ref, rtol=1e-9, atol=1e-9)
     # one-to-one on the same points agrees with the matrix
     for i, j in [(0, 1), (2, 3), (4, 5)]:
@@ -414,3 +439,37 @@ def test_a_hub_beside_a_cut_off_track_still_reaches_the_main_network():
     att = attach_points(net, [[2000, 1500]], "minutes", max_access_m=5000, walk_kmh=5.0)
     cost, _ = nearest_hub(net, att, "minutes", "to-hub")
     assert cost[0] == pytest.approx(1500 / 5000 * 60 + 2.0)
+
+
+@settings(max_examples=30, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), walk_kmh=st.sampled_from([5.0, 2.5]),
+       weight=st.sampled_from(["minutes", "length_m"]))
+def test_travel_model_trips_match_split_edge_reference_with_direct_walks(seed, walk_kmh, weight):
+    """The travel model's od, route and nearest-hub trips between points against the split-edge reference
+    with straight walks between points (a place to itself: 0), priced by the reference itself."""
+    rng = np.random.default_rng(seed)
+    net = random_network(rng, 10, 20, p_oneway=0.3, zero_prob=0.0)
+    pts = rng.uniform(-300, 5300, (5, 2))
+    pts[4] = pts[3] + rng.uniform(-400, 400, 2)   # two places near each other: walking may win
+    model = TravelModel(RoutingOptions(weight=weight, walk_kmh=walk_kmh, max_access_m=1500.0))
+    od = model.od(net, pts, pts)
+    pairs = [(i, j) for i in range(5) for j in range(5)]
+    ref = _reference_point_costs(net, pts, weight, walk_kmh, 1500.0, pairs, direct=True).reshape(5, 5)
+    np.testing.assert_allclose(od.cost, ref, rtol=1e-9, atol=1e-9)
+    att = model.attach(net, pts)
+    for i in range(5):
+        assert od.cost[i, i] == (0.0 if att.attached[i] else np.inf)   # a place to itself costs nothing
+    for i, j in [(0, 1), (3, 4), (4, 3), (2, 2)]:
+        r = model.route(net, pts[i], pts[j])
+        assert r.cost == pytest.approx(ref[i, j], rel=1e-9, abs=1e-9)
+    # each place's nearest "hub" among the others: the minimum of its od row (to-hub), of its od column
+    # (from-hub: the trip from the hub), with the hub that gives it
+    trips = model.hub_trips(net, pts[:3], pts[3:])[None]
+    np.testing.assert_allclose(trips.cost, ref[:3, 3:].min(axis=1), rtol=1e-9, atol=1e-9)
+    back = model.for_direction("from-hub").hub_trips(net, pts[:3], pts[3:])[None]
+    np.testing.assert_allclose(back.cost, ref[3:, :3].min(axis=0), rtol=1e-9, atol=1e-9)
+    for i in range(3):
+        if np.isfinite(back.cost[i]):
+            assert ref[3 + back.hub[i], i] == pytest.approx(back.cost[i], rel=1e-9, abs=1e-9)
+        if np.isfinite(trips.cost[i]):
+            assert ref[i, 3 + trips.hub[i]] == pytest.approx(trips.cost[i], rel=1e-9, abs=1e-9)

@@ -16,6 +16,7 @@ _API = {
     "hub_access": ".access",
     "Attachment": ".attach",
     "attach_points": ".attach",
+    "DirectWalks": ".legs",
     "diameter": ".metrics",
     "global_efficiency": ".metrics",
     "mean_path": ".metrics",
@@ -34,10 +35,14 @@ _API = {
     "one_to_all": ".routing",
     "SurfaceResult": ".surface",
     "compute_surface": ".surface",
+    "TravelModel": ".travel",
+    "HubTrips": ".trips",
     "ODMatrix": ".trips",
     "Route": ".trips",
+    "nearest_hub_trips": ".trips",
     "od_matrix": ".trips",
     "shortest_path": ".trips",
+    "WalkGrid": ".walkgrid",
 }
 
 __all__ = list(_API)

@@ -15,11 +15,10 @@ import numpy as np
 import pandas as pd
 
 from ..errors import LayerError
-from .attach import attach_points
 from .options import RoutingOptions
 from .routing import nearest_hub
 
-__all__ = ["HubAccess", "hub_access", "kind_name"]
+__all__ = ["HubAccess", "hub_access", "kind_name", "kind_groups"]
 
 
 def kind_name(kind) -> str:
@@ -30,6 +29,32 @@ def kind_name(kind) -> str:
     """
     s = re.sub(r"[^0-9a-z]+", "_", str(kind).strip().lower()).strip("_")
     return s or "kind"
+
+
+def kind_groups(kinds) -> list:
+    """``(field-name part, hub indices)`` per hub kind, sorted by name.
+
+    Raises
+    ------
+    LayerError
+        Two kinds would give the same field name.
+
+    >>> [(n, m.tolist()) for n, m in kind_groups(["Clinic", "market", "clinic "])]
+    Traceback (most recent call last):
+    ...
+    geo_reach.errors.LayerError: hub kinds 'Clinic' and 'clinic ' give the same field name 'clinic'; rename one of them
+    >>> [(n, m.tolist()) for n, m in kind_groups(["clinic", "market", "clinic"])]
+    [('clinic', [0, 2]), ('market', [1])]
+    """
+    kinds = np.asarray(kinds, dtype=object)
+    names = {}
+    for k in pd.unique(kinds):
+        nm = kind_name(k)
+        if nm in names and names[nm] != k:
+            raise LayerError(f"hub kinds {names[nm]!r} and {k!r} give the same field name '{nm}'; "
+                             "rename one of them")
+        names[nm] = k
+    return [(nm, np.nonzero(kinds == k)[0]) for nm, k in sorted(names.items())]
 
 
 @dataclass
@@ -77,7 +102,7 @@ def _id_column(values, present):
     return pd.Series(np.where(present, vals, None), dtype=object).to_numpy()
 
 
-def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = None) -> HubAccess:
+def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = None, *, travel=None) -> HubAccess:
     """Nearest hub and cost for every node, for all hubs and per hub kind.
 
     Parameters
@@ -90,7 +115,11 @@ def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = No
     kinds : array_like of str, shape (n_hubs,), optional
         Hub kinds; each kind gets its own pair of fields.
     options : RoutingOptions, optional
-        Weight, direction and the walk to the network (defaults if not given).
+        Weight, direction and the walk to the network (defaults if not given;
+        ignored when ``travel`` is given).
+    travel : TravelModel, optional
+        The run's travel model: how each hub's walk to and from the network
+        is priced (default: straight-line walking with ``options``).
 
     Returns
     -------
@@ -101,22 +130,19 @@ def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = No
     LayerError
         Two kinds would give the same field name.
     """
+    from .travel import TravelModel
+
     net = network
-    opt = options if options is not None else RoutingOptions()
+    if travel is None:
+        travel = TravelModel(options if options is not None else RoutingOptions())
+    opt = travel.options
     weight = opt.weight
     ids = np.asarray(ids, dtype=object)
     n_hub = len(ids)
     groups = [(None, np.arange(n_hub))]
     if kinds is not None:
         kinds = np.asarray(kinds, dtype=object)
-        names = {}
-        for k in pd.unique(kinds):
-            nm = kind_name(k)
-            if nm in names and names[nm] != k:
-                raise LayerError(f"hub kinds {names[nm]!r} and {k!r} give the same field name '{nm}'; "
-                                 "rename one of them")
-            names[nm] = k
-        groups += [(nm, np.nonzero(kinds == k)[0]) for nm, k in sorted(names.items())]
+        groups += kind_groups(kinds)
     notes = []
     fields = {}
     attached = np.zeros(n_hub, bool)
@@ -124,8 +150,10 @@ def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = No
     comp = np.full(n_hub, -1, np.int64)
     node_cost = node_hub = None
     kind_costs = {}
+    role = "arrive" if opt.reverse else "leave"
+    every = travel.attach(net, np.asarray(xy, np.float64).reshape(-1, 2), roles=(role,))   # each hub walks once
     for name, members in groups:
-        att = attach_points(net, xy[members], weight, max_access_m=opt.max_access_m, walk_kmh=opt.walk_kmh)
+        att = every if name is None else every.subset(members)
         cost, hub = nearest_hub(net, att, weight, opt.direction)
         has = (hub >= 0) & np.isfinite(cost)
         cost = np.where(has, cost, np.nan)
@@ -146,12 +174,17 @@ def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = No
                 if lg >= 0:
                     nd = att.leg_node[lg] if att.leg_edge[lg] < 0 else net.edge_from[att.leg_edge[lg]]
                     comp[i] = net.component[nd]
-            left = np.nonzero(~att.attached)[0]
+            left = np.nonzero(~att.attached & ~att.blocked)[0]
             if len(left):
                 sample = ", ".join(f"id {ids[i]} ({att.access_m[i]:,.0f} m)" if np.isfinite(att.access_m[i])
                                    else f"id {ids[i]} (no network to join)" for i in left[:3])
                 notes.append(f"{len(left)} hubs farther than the largest access distance ({opt.max_access_m:g} m) "
                              f"from the network are left out: {sample}{' ...' if len(left) > 3 else ''}")
+            shut = np.nonzero(att.blocked)[0]
+            if len(shut):
+                notes.append(f"{len(shut)} hubs cannot walk to any place to join the network within "
+                             f"{opt.max_access_m:g} m (barriers or impassable ground all round) and are left out: "
+                             + ", ".join(f"id {ids[i]}" for i in shut[:3]) + (" ..." if len(shut) > 3 else ""))
         else:
             kind_costs[name] = (cost, hub_all)
         unreached = int((~has).sum())

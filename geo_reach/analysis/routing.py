@@ -317,10 +317,13 @@ def nearest_hub_route_m(network: Network, hubs, weight: Weight | str = "minutes"
     return np.where(np.isfinite(dist[: network.n_nodes]), lengths, np.nan)
 
 
-def _tree_lengths(g: _Graph, network: Network, pred: np.ndarray, att: Attachment | None) -> np.ndarray:
+def _tree_lengths(g: _Graph, network: Network, pred: np.ndarray, att: Attachment | None,
+                  walk: bool = True) -> np.ndarray:
     """Length (m) along the shortest-path trees ``pred`` (shape (b, N)) from each root to every node.
 
-    Pointer jumping: O(N log depth) per tree, fully vectorised.
+    With ``walk`` false only the network part counts (the partial edge at an
+    off-network root, not its walk).  Pointer jumping: O(N log depth) per
+    tree, fully vectorised.
     """
     b, n_all = pred.shape
     head = np.tile(np.arange(n_all), b)
@@ -342,7 +345,7 @@ def _tree_lengths(g: _Graph, network: Network, pred: np.ndarray, att: Attachment
         to_end = network.edge_to[le[on]] == hd[on]
         f = att.leg_fraction[leg][on]
         part[on] = np.where(to_end, 1.0 - f, f) * network.edge_length_m[le[on]]
-        lens[~net] = part + att.leg_walk_m[leg]
+        lens[~net] = part + (att.leg_walk_m[leg] if walk else 0.0)
     arc[has] = lens
     acc = arc.reshape(b, n_all).copy()
     up = pred.copy()

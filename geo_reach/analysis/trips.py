@@ -11,13 +11,15 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from typing import NamedTuple
+
 from ..errors import OptionError
 from ..network.model import Network
 from ..network.weights import Weight, as_weight
-from .attach import Attachment
-from .routing import _base, _entry_index, _search, _sources_graph, _tree_lengths, check_nodes
+from .attach import Attachment, DirectWalks
+from .routing import _base, _check_direction, _entry_index, _search, _sources_graph, _tree_lengths, check_nodes
 
-__all__ = ["Route", "ODMatrix", "shortest_path", "od_matrix"]
+__all__ = ["Route", "ODMatrix", "HubTrips", "shortest_path", "od_matrix", "nearest_hub_trips"]
 
 
 @dataclass(frozen=True)
@@ -83,8 +85,7 @@ def _same_edge(network: Network, a: Attachment, b: Attachment):
     c = network.cost(a.weight)[e]
     df = b.leg_fraction[lb] - a.leg_fraction[la]
     ok = (df >= 0) | ~network.edge_oneway[e]
-    cost = (np.abs(df) * c + a.weight.walk_cost(a.leg_walk_m[la], a.walk_kmh)
-            + b.weight.walk_cost(b.leg_walk_m[lb], b.walk_kmh))
+    cost = np.abs(df) * c + a.walk("leave")[la] + b.walk("arrive")[lb]
     return a.leg_point[la][ok], b.leg_point[lb][ok], cost[ok], la[ok], lb[ok]
 
 
@@ -100,7 +101,8 @@ def _as_single(network: Network, place, weight: Weight, what: str):
     return int(check_nodes(network, [place])[0])
 
 
-def shortest_path(network: Network, origin, destination, weight: Weight | str = "minutes") -> Route:
+def shortest_path(network: Network, origin, destination, weight: Weight | str = "minutes", *,
+                  direct: DirectWalks | None = None) -> Route:
     """The least-cost trip between two places, with its edges and geometry.
 
     Parameters
@@ -109,6 +111,11 @@ def shortest_path(network: Network, origin, destination, weight: Weight | str = 
     origin, destination : int or Attachment
         A node id, or an attachment of exactly one off-network point.
     weight : str, default 'minutes'
+    direct : DirectWalks, optional
+        The walk straight from the origin (0) to the destination (0), when
+        the walk model offers one (see
+        :meth:`~geo_reach.analysis.travel.TravelModel.direct`); taken when
+        cheaper than any trip over the network.
 
     Returns
     -------
@@ -119,7 +126,7 @@ def shortest_path(network: Network, origin, destination, weight: Weight | str = 
     Notes
     -----
     One Dijkstra run from the origin.  Several least-cost paths may tie;
-    any one of them is returned.
+    any one of them is returned.  Walks are drawn as straight lines.
 
     Examples
     --------
@@ -144,7 +151,7 @@ def shortest_path(network: Network, origin, destination, weight: Weight | str = 
 
     # best way to finish
     best_cost, end_node, end_leg = np.inf, -1, -1
-    direct = None
+    along = None   # a trip along the one edge both points join
     if isinstance(d, Attachment):
         _, node, cost, leg = d.arcs(network, "arrive")
         if len(node):
@@ -156,16 +163,22 @@ def shortest_path(network: Network, origin, destination, weight: Weight | str = 
             if len(dc):
                 k = int(np.argmin(dc))
                 if dc[k] < best_cost:
-                    best_cost, direct = float(dc[k]), (int(la[k]), int(lb[k]))
+                    best_cost, along = float(dc[k]), (int(la[k]), int(lb[k]))
     else:
         best_cost, end_node = float(dist[d]), d
+    o_xy = o.point_xy[0] if isinstance(o, Attachment) else None
+    d_xy = d.point_xy[0] if isinstance(d, Attachment) else None
+    if direct is not None and len(direct.cost):
+        k = int(np.argmin(direct.cost))
+        if direct.cost[k] <= best_cost and o_xy is not None and d_xy is not None:
+            walk = float(direct.walk_m[k])
+            return Route(float(direct.cost[k]), walk, walk, np.zeros(0, np.int64), np.zeros(0, np.int64),
+                         _line([o_xy, d_xy]))
     if not np.isfinite(best_cost):
         return Route(np.inf, np.inf, np.nan, np.zeros(0, np.int64), np.zeros(0, np.int64), None)
 
-    o_xy = o.point_xy[0] if isinstance(o, Attachment) else None
-    d_xy = d.point_xy[0] if isinstance(d, Attachment) else None
-    if direct is not None:
-        la, lb = direct
+    if along is not None:
+        la, lb = along
         e = int(o.leg_edge[la])
         fa, fb = float(o.leg_fraction[la]), float(d.leg_fraction[lb])
         piece = _edge_piece(network, e, fa, fb)
@@ -265,7 +278,7 @@ class ODMatrix:
 
 
 def od_matrix(network: Network, origins, destinations, weight: Weight | str = "minutes", *,
-              batch: int | None = None) -> ODMatrix:
+              batch: int | None = None, direct: DirectWalks | None = None) -> ODMatrix:
     """Least cost and its length between every origin and every destination.
 
     Parameters
@@ -277,6 +290,10 @@ def od_matrix(network: Network, origins, destinations, weight: Weight | str = "m
     batch : int, optional
         Origins searched together (memory ~ 3 x batch x n_nodes x 8 bytes);
         chosen automatically if not given.
+    direct : DirectWalks, optional
+        Walks straight from an origin (``src``) to a destination (``dst``),
+        from the walk model; each is taken where it is cheaper than the trip
+        over the network (a place to itself: a walk of length 0, cost 0).
 
     Returns
     -------
@@ -287,8 +304,8 @@ def od_matrix(network: Network, origins, destinations, weight: Weight | str = "m
     One Dijkstra run per origin with predecessors; trip lengths follow the
     least-cost tree (ties between equal-cost trips go to the shorter
     arrival).  Points on the same edge may also travel directly along it.
-    A trip from a point to itself walks its access leg out and back (twice
-    the access cost), since every trip joins the network.
+    Without ``direct`` walks, a trip from a point to itself joins the network
+    and walks its access leg out and back.
     Cost O(n_origins (m + n log n)).
     """
     weight = as_weight(weight)
@@ -349,7 +366,110 @@ def od_matrix(network: Network, origins, destinations, weight: Weight | str = "m
             pa, pb, dc, dl = pa[better][order], pb[better][order], dc[better][order], dl[better][order]
             cost[pa, pb] = dc
             lmat[pa, pb] = dl
+    if direct is not None and len(direct.cost):
+        _apply_direct(cost, lmat, direct)
     lmat[~np.isfinite(cost)] = np.inf
     return ODMatrix(cost, lmat)
+
+
+def _apply_direct(cost, lmat, direct: DirectWalks) -> None:
+    """Take each direct walk where it is cheaper (in place; the cheapest walk per pair wins)."""
+    src, dst, dc, dl = direct
+    better = dc <= cost[src, dst]
+    order = np.argsort(-dc[better], kind="stable")
+    s, d, c, ln = src[better][order], dst[better][order], dc[better][order], dl[better][order]
+    cost[s, d] = c
+    lmat[s, d] = ln
+
+
+# ====================================================================== places to their nearest hub
+class HubTrips(NamedTuple):
+    """Each place's trip to (or from) its nearest hub (from :func:`nearest_hub_trips`).
+
+    Attributes
+    ----------
+    cost : ndarray of float64, shape (n_places,)
+        In the weight's unit; ``inf`` where no hub is reachable.
+    hub : ndarray of int64, shape (n_places,)
+        Index of that hub in the given hubs; -1 where none.
+    network_m : ndarray of float64, shape (n_places,)
+        Metres of the trip on the network, partial edges at both ends
+        included (0 for a walk straight to the hub); NaN where none.
+    """
+
+    cost: np.ndarray
+    hub: np.ndarray
+    network_m: np.ndarray
+
+
+def nearest_hub_trips(network: Network, places: Attachment, hubs: Attachment, weight: Weight | str = "minutes",
+                      direction: str = "to-hub", *, direct: DirectWalks | None = None) -> HubTrips:
+    """Every place's cheapest trip to its nearest hub (or from it), for off-network places and hubs.
+
+    Parameters
+    ----------
+    network : Network
+    places, hubs : Attachment
+        Both attached for ``weight`` (places leaving and hubs arrived at for
+        ``to-hub``; the other way round for ``from-hub``).
+    weight : Weight or str
+    direction : {'to-hub', 'from-hub'}
+    direct : DirectWalks, optional
+        Walks straight between a place and a hub, in the trip's direction:
+        ``src`` the place and ``dst`` the hub for ``to-hub``, ``src`` the hub
+        and ``dst`` the place for ``from-hub``.
+
+    Returns
+    -------
+    HubTrips
+
+    Notes
+    -----
+    One multi-source search from all hubs (as :func:`~.routing.nearest_hub`),
+    then each place takes the cheapest of: its legs onto the network plus
+    the node's cost, a trip along the edge it shares with a hub, and a
+    direct walk.  The same trip costs the same as :func:`shortest_path`
+    between the place and that hub.  Ties go to the lower hub index.
+    """
+    weight = as_weight(weight)
+    reverse = _check_direction(direction)
+    for att, what in ((places, "places"), (hubs, "hubs")):
+        if att.weight != weight:
+            raise OptionError(f"{what} attached for weight '{att.weight}', not '{weight}'; attach them again")
+    n_p = places.n_points
+    hub_role, place_role = ("arrive", "leave") if reverse else ("leave", "arrive")
+    g, rows = _sources_graph(network, hubs, weight, reverse, hub_role)
+    dist, pred, origin = _search(g, np.unique(rows), min_only=True, predecessors=True)
+    n = network.n_nodes
+    node_cost = dist[:n]
+    node_hub = np.where(origin[:n] >= n, origin[:n] - n, -1)
+    node_len = _tree_lengths(g, network, pred[None, :], hubs, walk=False)[0][:n]
+    # candidates: (place, hub, cost, network metres)
+    arc = places.arc_detail(network, place_role)
+    e = places.leg_edge[arc.leg]
+    part = np.where(e >= 0, arc.share * network.edge_length_m[np.maximum(e, 0)], 0.0)
+    cand = [(arc.point, node_hub[arc.node], arc.cost + node_cost[arc.node], part + node_len[arc.node])]
+    a, b = (places, hubs) if reverse else (hubs, places)
+    pa, pb, dc, la, lb = _same_edge(network, a, b)
+    if len(dc):
+        ln = np.abs(b.leg_fraction[lb] - a.leg_fraction[la]) * network.edge_length_m[a.leg_edge[la]]
+        cand.append((pa, pb, dc, ln) if reverse else (pb, pa, dc, ln))
+    if direct is not None and len(direct.cost):
+        pl, hb = (direct.src, direct.dst) if reverse else (direct.dst, direct.src)
+        cand.append((pl, hb, direct.cost, np.zeros(len(pl))))
+    pt, hb, c, ln = (np.concatenate([x[i] for x in cand]) for i in range(4))
+    ok = np.isfinite(c) & (hb >= 0)
+    pt, hb, c, ln = pt[ok], hb[ok], c[ok], ln[ok]
+    order = np.lexsort((ln, hb, c, pt))
+    first = np.ones(len(order), bool)
+    first[1:] = pt[order][1:] != pt[order][:-1]
+    take = order[first]
+    cost = np.full(n_p, np.inf)
+    hub = np.full(n_p, -1, np.int64)
+    net_m = np.full(n_p, np.nan)
+    cost[pt[take]] = c[take]
+    hub[pt[take]] = hb[take]
+    net_m[pt[take]] = ln[take]
+    return HubTrips(cost, hub, net_m)
 
 

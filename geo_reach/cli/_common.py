@@ -14,17 +14,20 @@ import sys
 
 import numpy as np
 
-from ..analysis.options import DIRECTIONS, RoutingOptions
+from ..analysis.options import DIRECTIONS, RoutingOptions, SurfaceOptions
 from ..errors import OptionError
 from ..network.build import BuildOptions
 from ..network.weights import WEIGHT_NAMES, as_weight
 
-__all__ = ["add_layer_options", "add_output_options", "add_weight", "add_direction", "add_access",
+__all__ = ["add_layer_options", "add_output_options", "add_weight", "add_direction", "add_access", "add_friction",
            "routing_options", "study_from_layer_args", "emit_json", "print_json", "parse_class_speeds",
-           "note", "report_excluded", "report_left_out", "read_network_arg", "read_points_arg", "check_layer_io", "crs_arg"]
+           "parse_landcover_speeds", "friction_table", "friction_inputs", "travel_model_for_points",
+           "note", "report_excluded", "report_left_out", "read_network_arg", "read_points_arg", "check_layer_io",
+           "crs_arg"]
 
 _R = RoutingOptions()
 _B = BuildOptions()
+_S = SurfaceOptions()
 
 
 def note(msg: str) -> None:
@@ -62,6 +65,103 @@ def add_access(p, what="points"):
                         "common practice for walking)")
 
 
+def add_friction(p):
+    """``--terrain``, ``--landcover``, ``--landcover-speeds``, ``--barriers`` and ``--cell-m``: what slows a walk."""
+    g = p.add_argument_group("walking off the network (as the travel-time surface walks)")
+    g.add_argument("--terrain", metavar="DEM.tif", help="elevation raster (slopes by Tobler's hiking function)")
+    g.add_argument("--landcover", metavar="LC.tif", help="land-cover classes raster (needs --landcover-speeds)")
+    g.add_argument("--landcover-speeds", metavar="TABLE",
+                   help="class-to-speed table: a CSV file (class,speed_kmh) or CLASS=KMH,... (0 = impassable)")
+    g.add_argument("--barriers", metavar="LAYER", help="impassable polygons (water, restricted land)")
+    g.add_argument("--cell-m", type=float, default=_S.cell_m,
+                   help=f"cell side of the grid walks cross, metres (default {_S.cell_m:g}; used with the "
+                        "options above)")
+
+
+def parse_landcover_speeds(text) -> dict:
+    """A class-to-speed table from a CSV file (class,speed_kmh) or ``CLASS=KMH,...``: {"class": km/h}."""
+    import csv
+    from pathlib import Path
+
+    p = Path(text)
+    out = {}
+    if p.is_file():
+        with open(p, newline="") as f:
+            for row in csv.reader(f):
+                if not row or not row[0].strip() or row[0].strip().lower() in ("class", "code"):
+                    continue
+                try:
+                    out[str(int(float(row[0])))] = float(row[1])
+                except (ValueError, IndexError):
+                    raise OptionError(f"file '{p}': row {row!r} is not class,speed_kmh") from None
+        return out
+    for item in filter(None, (t.strip() for t in str(text).split(","))):
+        k, _, v = item.partition("=")
+        try:
+            out[str(int(k))] = float(v)
+        except ValueError:
+            raise OptionError(f"--landcover-speeds: '{item}' is not CLASS=KMH; or give a CSV file") from None
+    return out
+
+
+def friction_inputs(args) -> list:
+    """The friction files a command line names (for the input guard)."""
+    from pathlib import Path
+
+    speeds = getattr(args, "landcover_speeds", None)
+    speeds = speeds if speeds and Path(speeds).is_file() else None
+    return [getattr(args, "terrain", None), getattr(args, "landcover", None), speeds, getattr(args, "barriers", None)]
+
+
+def friction_table(args, margin_m: float) -> dict | None:
+    """The ``[surface]`` table of a command's in-memory study for its friction options (None without any)."""
+    from pathlib import Path
+
+    from ..ingest.layers import parse_layer_ref
+
+    if not any(getattr(args, k, None) for k in ("terrain", "landcover", "barriers")):
+        if getattr(args, "landcover_speeds", None):
+            raise OptionError("--landcover-speeds needs --landcover (the land-cover raster)")
+        return None
+    if args.landcover and not args.landcover_speeds:
+        raise OptionError("--landcover needs --landcover-speeds (a class-to-speed table)")
+    t = {"cell_m": float(args.cell_m), "margin_m": float(margin_m)}
+    for key in ("terrain", "landcover"):
+        if getattr(args, key):
+            t[key] = str(Path(getattr(args, key)))
+    if args.landcover_speeds:
+        t["landcover_speeds"] = parse_landcover_speeds(args.landcover_speeds)
+    if args.barriers:
+        ref = parse_layer_ref(args.barriers)
+        t["barriers"] = str(ref.path)
+        if ref.layer:
+            t["barriers_layer"] = ref.layer
+    return t
+
+
+def travel_model_for_points(args, net, xy, opt: RoutingOptions):
+    """The travel model of ``route`` or ``od``: the command's routing options and friction inputs.
+
+    The friction grid covers the points and ``max_access_m`` around them
+    (every walk stays within that).
+    """
+    from pathlib import Path
+
+    from ..analysis.travel import TravelModel
+    from ..pipeline.inputs import friction_for_points
+    from ..pipeline.steps import travel_model
+    from ..study import study_from_dict
+
+    table = friction_table(args, opt.max_access_m)
+    if table is None:
+        return TravelModel(opt)
+    raw = {"network": {"prebuilt": str(args.network)}, "surface": table,
+           "routing": {"weight": opt.weight.name, "direction": opt.direction,
+                       "max_access_m": float(opt.max_access_m), "walk_kmh": float(opt.walk_kmh)}}
+    study = study_from_dict(raw, Path("."), check_files=False)
+    return travel_model(study, friction_for_points(study, net, xy))
+
+
 def routing_options(args) -> RoutingOptions:
     """The command's :class:`RoutingOptions` (options it does not take keep their defaults)."""
     return RoutingOptions(weight=getattr(args, "weight", _R.weight),
@@ -89,8 +189,8 @@ def read_points_arg(ref, network, *, id_field=None, kind_field=None, what="hubs"
 
 
 def report_left_out(att, ids, what: str, max_access_m: float) -> int:
-    """Report the points farther than ``max_access_m`` from the network; return how many."""
-    out = ~att.attached
+    """Report the points left out (farther than ``max_access_m`` from the network, or walled in); return how many."""
+    out = ~att.attached & ~att.blocked
     k = int(out.sum())
     if k:
         first = np.nonzero(out)[0][:3]
@@ -98,7 +198,12 @@ def report_left_out(att, ids, what: str, max_access_m: float) -> int:
                            else f"id {ids[i]} (no network to join)" for i in first)
         note(f"{k} {what} farther than --max-access-m {max_access_m:g} m from the network are left out: "
              f"{sample}{' ...' if k > 3 else ''}")
-    return k
+    shut = np.nonzero(att.blocked)[0]
+    if len(shut):
+        note(f"{len(shut)} {what} cannot walk to any place to join the network within --max-access-m "
+             f"{max_access_m:g} m (barriers, impassable ground or the edge of the grid all round) and are left out: "
+             + ", ".join(f"id {ids[i]}" for i in shut[:3]) + (" ..." if len(shut) > 3 else ""))
+    return k + len(shut)
 
 
 def report_excluded(net, weight) -> int:

@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-from ._common import add_access, add_direction, add_weight, note, report_excluded
+from ._common import add_access, add_direction, add_friction, add_weight, friction_inputs, friction_table, note, \
+    report_excluded
 
 __all__ = ["register", "study_from_args", "run"]
 
@@ -10,7 +11,8 @@ __all__ = ["register", "study_from_args", "run"]
 def register(sub):
     p = sub.add_parser("access", help="nearest hub and the cost to it for every node",
                        description="For every network node: its nearest hub (per hub kind if given) and the "
-                                   "cost of the trip. Writes layers nodes and hubs to a GeoPackage. "
+                                   "cost of the trip, the hub's walk to the network included (priced as in a "
+                                   "study). Writes layers nodes and hubs to a GeoPackage. "
                                    "Results are model estimates; local surveys decide.")
     p.add_argument("network", metavar="NETWORK.gpkg", help="network GeoPackage from geo-reach build")
     p.add_argument("--hubs", required=True, metavar="LAYER", help="hub points: path or path:layername")
@@ -20,6 +22,7 @@ def register(sub):
     add_weight(p)
     add_direction(p)
     add_access(p, "hubs")
+    add_friction(p)
     p.add_argument("-o", "--output", required=True, metavar="OUT.gpkg", help="output GeoPackage")
     p.add_argument("--overwrite", action="store_true", help="replace an existing output")
     p.set_defaults(func=run)
@@ -43,6 +46,9 @@ def study_from_args(args):
     raw = {"network": {"prebuilt": str(args.network)}, "hubs": hubs,
            "routing": {"weight": args.weight.name, "direction": args.direction,
                        "max_access_m": float(args.max_access_m), "walk_kmh": float(args.walk_kmh)}}
+    surface = friction_table(args, float(args.max_access_m) + 2 * float(args.cell_m))
+    if surface is not None:   # the hubs' walks cross the friction grid: the study's surface inputs, no surface
+        raw["surface"] = surface
     return study_from_dict(raw, Path("."), check_files=False)
 
 
@@ -55,7 +61,8 @@ def run(args):
     from ..export.guard import check_io
     from ..pipeline import analyse, build_or_read, read_hubs
 
-    check_io(inputs=[args.network, args.hubs], files=[(args.output, "GeoPackage")], overwrite=args.overwrite)
+    check_io(inputs=[args.network, args.hubs, *friction_inputs(args)], files=[(args.output, "GeoPackage")],
+             overwrite=args.overwrite)
     study = study_from_args(args)
     built = build_or_read(study, [])
     net = built.network

@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import OptionError
-from ._common import (add_access, add_weight, note, read_network_arg, read_points_arg, report_excluded, report_left_out,
-                      routing_options)
+from ._common import (add_access, add_friction, add_weight, friction_inputs, note, read_network_arg, read_points_arg,
+                      report_excluded, report_left_out, routing_options, travel_model_for_points)
 
 __all__ = ["register", "run"]
 
@@ -15,6 +15,8 @@ def register(sub):
     p = sub.add_parser("od", help="origin-destination costs between two point layers",
                        description="Least cost and its length from every origin to every destination (or to "
                                    "the K cheapest), as layer od_pairs (straight connecting lines) and CSV. "
+                                   "The walks to and from the network (or straight between two places when "
+                                   "cheaper) follow the same model as a study's settlements. "
                                    "Results are model estimates; local surveys decide.")
     p.add_argument("network", metavar="NETWORK.gpkg", help="network GeoPackage from geo-reach build")
     p.add_argument("--origins", required=True, metavar="LAYER", help="origin points: path or path:layername")
@@ -25,6 +27,7 @@ def register(sub):
     p.add_argument("--nearest", type=int, metavar="K", help="keep only the K cheapest destinations per origin")
     add_weight(p)
     add_access(p)
+    add_friction(p)
     p.add_argument("-o", "--output", required=True, metavar="OUT.gpkg", help="output GeoPackage")
     p.add_argument("--csv", metavar="FILE.csv", help="also write the pairs as CSV")
     p.add_argument("--overwrite", action="store_true", help="replace existing outputs")
@@ -37,15 +40,13 @@ def run(args):
     import shapely
 
     from .._meta import CAUTION
-    from ..analysis.attach import attach_points
-    from ..analysis.trips import od_matrix
     from ..export.atomic import OutputSet
     from ..export.gpkg import write_layers
     from ..export.guard import check_io
 
     if args.nearest is not None and args.nearest < 1:
         raise OptionError(f"--nearest {args.nearest}: give 1 or more")
-    check_io(inputs=[args.network, args.origins, args.destinations],
+    check_io(inputs=[args.network, args.origins, args.destinations, *friction_inputs(args)],
              files=[(args.output, "GeoPackage"), (args.csv, "CSV file")], overwrite=args.overwrite)
     opt = routing_options(args)
     net = read_network_arg(args.network, opt.weight)
@@ -53,24 +54,27 @@ def run(args):
     o = read_points_arg(args.origins, net, id_field=args.origin_id_field, what="origins", id_key="origin_id_field")
     d = read_points_arg(args.destinations, net, id_field=args.destination_id_field, what="destinations",
                         id_key="destination_id_field")
-    kw = dict(max_access_m=opt.max_access_m, walk_kmh=opt.walk_kmh)
-    oa = attach_points(net, o.xy, opt.weight, **kw)
-    da = attach_points(net, d.xy, opt.weight, **kw)
+    model = travel_model_for_points(args, net, np.concatenate([o.xy, d.xy]), opt)
+    oa = model.attach(net, o.xy, roles=("leave",))
+    da = model.attach(net, d.xy, roles=("arrive",))
     report_left_out(oa, o.ids, "origins", args.max_access_m)
     report_left_out(da, d.ids, "destinations", args.max_access_m)
     oi = np.nonzero(oa.attached)[0]
     di = np.nonzero(da.attached)[0]
-    part = od_matrix(net, oa.subset(oi), da.subset(di), opt.weight)
+    part = model.od(net, oa.subset(oi), da.subset(di))
     n_o, n_d = len(o.ids), len(d.ids)
     cost = np.full((n_o, n_d), np.inf)
     length = np.full((n_o, n_d), np.inf)
     cost[np.ix_(oi, di)] = part.cost
     length[np.ix_(oi, di)] = part.length_m
     far = f"farther than the largest access distance ({opt.max_access_m:g} m) from the network"
+    shut = "walks to no place to join the network (barriers or impassable ground all round)"
     why = np.full((n_o, n_d), "", dtype=object)
     why[~np.isfinite(cost)] = f"no path on {opt.weight.name}: the two lie in parts of the network no trip joins"
     why[:, ~da.attached] = f"destination {far}"
+    why[:, da.blocked] = f"destination {shut}"
     why[~oa.attached, :] = f"origin {far}"
+    why[oa.blocked, :] = f"origin {shut}"
     rows_o, rows_d, rank = [], [], []
     for a in range(n_o):
         if args.nearest is not None:
@@ -95,8 +99,9 @@ def run(args):
     ln = np.where(none, np.inf, length[ro, rdx]) if len(ro) else np.zeros(0)
     reason = why[ro, rdx] if len(ro) else np.zeros(0, object)
     if none.any():
-        reason[none] = np.where(~oa.attached[ro[none]], f"origin {far}", "no destination reachable on "
-                                f"{opt.weight.name}")
+        reason[none] = np.where(oa.blocked[ro[none]], f"origin {shut}",
+                                np.where(~oa.attached[ro[none]], f"origin {far}",
+                                         f"no destination reachable on {opt.weight.name}"))
     dest = d.ids[rdx].astype(object) if len(ro) else np.zeros(0, object)
     dest[none] = None
     data = {

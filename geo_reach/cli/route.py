@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError, OptionError
-from ._common import add_access, add_weight, note, print_json, read_network_arg, report_excluded, routing_options
+from ._common import (add_access, add_friction, add_weight, friction_inputs, note, print_json, read_network_arg,
+                      report_excluded, routing_options, travel_model_for_points)
 
 __all__ = ["register", "run"]
 
@@ -14,6 +15,8 @@ def register(sub):
     p = sub.add_parser("route", help="least-cost trip between two points (GeoJSON)",
                        description="The least-cost trip between two points: cost, length and the path as a "
                                    "GeoJSON Feature (RFC 7946, longitude/latitude) on stdout or in a file. "
+                                   "The walks to and from the network (or straight between the points when "
+                                   "cheaper) follow the same model as a study's settlements. "
                                    "Results are model estimates; local surveys decide.")
     p.add_argument("network", metavar="NETWORK.gpkg", help="network GeoPackage from geo-reach build")
     p.add_argument("--from", dest="origin", required=True, metavar="X,Y", type=_xy, help="start point")
@@ -22,6 +25,7 @@ def register(sub):
                    help="CRS of the coordinates (default: longitude,latitude in EPSG:4326)")
     add_weight(p)
     add_access(p)
+    add_friction(p)
     p.add_argument("-o", "--output", metavar="ROUTE.geojson", help="write the GeoJSON here instead of stdout")
     p.add_argument("--overwrite", action="store_true", help="replace an existing output")
     p.set_defaults(func=run)
@@ -48,13 +52,12 @@ def run(args):
     from pyproj.exceptions import CRSError as ProjCRSError
 
     from .._meta import CAUTION
-    from ..analysis.attach import attach_points
-    from ..analysis.trips import shortest_path
     from ..errors import CRSError
     from ..export.atomic import atomic_path
     from ..export.guard import check_io
 
-    check_io(inputs=[args.network], files=[(args.output, "route file")], overwrite=args.overwrite)
+    check_io(inputs=[args.network, *friction_inputs(args)], files=[(args.output, "route file")],
+             overwrite=args.overwrite)
     try:
         src = CRS.from_user_input(args.crs) if args.crs else CRS.from_epsg(4326)
     except ProjCRSError as err:
@@ -69,15 +72,19 @@ def run(args):
                                   "coordinates")
     to_net = Transformer.from_crs(src, net.crs, always_xy=True)
     xy = np.array(to_net.transform(*np.array([args.origin, args.destination]).T)).T
-    att = attach_points(net, xy, opt.weight, max_access_m=opt.max_access_m, walk_kmh=opt.walk_kmh)
-    for i, flag in enumerate(("--from", "--to")):
-        if not att.attached[i]:
-            pt = (args.origin, args.destination)[i]
-            far = (f"{att.access_m[i]:,.0f} m from the nearest place to join the network"
-                   if np.isfinite(att.access_m[i]) else "where no network edge can be joined")
+    model = travel_model_for_points(args, net, xy, opt)
+    ends = (model.attach(net, xy[:1], roles=("leave",)), model.attach(net, xy[1:], roles=("arrive",)))
+    for att, flag, pt in zip(ends, ("--from", "--to"), (args.origin, args.destination)):
+        if att.blocked[0]:
+            raise InputError(f"{flag} {pt[0]},{pt[1]}: no walk from the point reaches a place to join the network "
+                             f"within --max-access-m {args.max_access_m:g} (barriers, impassable ground or the edge "
+                             "of the grid all round); check the coordinates and the barriers")
+        if not att.attached[0]:
+            far = (f"{att.access_m[0]:,.0f} m from the nearest place to join the network"
+                   if np.isfinite(att.access_m[0]) else "where no network edge can be joined")
             raise InputError(f"{flag} {pt[0]},{pt[1]}: the point is {far}, beyond --max-access-m "
                              f"{args.max_access_m:g}; check the coordinates (X,Y order, --crs) or raise --max-access-m")
-    r = shortest_path(net, att.subset([0]), att.subset([1]), opt.weight)
+    r = model.route(net, *ends)
     props = {
         "weight": opt.weight.name,
         "unit": opt.weight.unit,

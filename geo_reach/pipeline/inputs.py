@@ -17,7 +17,7 @@ from ..network.build import BuildResult, LayerSpec, build_network
 from ..study import Study
 
 __all__ = ["Hubs", "layer_specs", "build_or_read", "read_hubs", "merge_hubs", "read_settlements",
-           "settlement_population", "study_grid", "load_rasters", "layer_ref"]
+           "settlement_population", "study_grid", "load_rasters", "read_friction", "friction_for_points", "layer_ref"]
 
 
 def layer_ref(study: Study, path: str, layer: str | None) -> str:
@@ -242,6 +242,30 @@ def load_rasters(study: Study, net, hubs: Hubs) -> dict:
             out["notes"].append(f"file '{study.resolve(files['population'])}': {res.nonfinite:,} cells hold NaN or "
                                 "infinity without being the raster's nodata value; they count as no people "
                                 "(declare them nodata or fix the raster)")
+    out.update(read_friction(study, grid, net))
+    if study.settlements is not None and "population" not in out:
+        out["population"] = settlement_population(study, grid)
+    return out
+
+
+def read_friction(study: Study, grid, net) -> dict:
+    """The study's friction inputs on ``grid``: ``terrain`` (m), ``landcover`` (class codes, -1 = none) and
+    ``barriers`` (polygons in the working CRS), each where the study names it.
+
+    Only the window of each raster that covers the grid is read; a raster
+    wholly outside the network's extent (plus the margin) is refused.
+    """
+    from ..ingest.rasters import raster_bounds, read_raster, resample_to_grid
+
+    files = study.surface_files
+    margin = study.surface.margin_m
+    out = {}
+
+    def read(key):
+        path = study.resolve(files[key])
+        _check_overlap(path, raster_bounds(path), net, margin)
+        return read_raster(path, within=(grid.bounds, grid.crs))
+
     if "terrain" in files:
         out["terrain"] = resample_to_grid(read("terrain"), grid, "terrain").data
     if "landcover" in files:
@@ -252,8 +276,26 @@ def load_rasters(study: Study, net, hubs: Hubs) -> dict:
 
         ref = parse_layer_ref(layer_ref(study, files["barriers"], files.get("barriers_layer")))
         out["barriers"] = read_layer(ref, "polygons").to_crs(net.crs)
-    if study.settlements is not None and "population" not in out:
-        out["population"] = settlement_population(study, grid)
+    return out
+
+
+def friction_for_points(study: Study, net, xy) -> dict:
+    """The grid and friction inputs for walks from ``xy`` (a command's points): the points' extent plus
+    ``max_access_m`` and two cells on every side (no walk leaves it).
+
+    Returns a dict like :func:`load_rasters` (``grid``, ``terrain``,
+    ``landcover``, ``barriers``).
+    """
+    from ..ingest.rasters import Grid
+
+    xy = np.asarray(xy, np.float64).reshape(-1, 2)
+    if not len(xy):
+        xy = np.column_stack([net.node_x[:1], net.node_y[:1]]) if net.n_nodes else np.zeros((1, 2))
+    cell = study.surface.cell_m
+    bounds = (xy[:, 0].min(), xy[:, 1].min(), xy[:, 0].max(), xy[:, 1].max())
+    grid = Grid.from_bounds(bounds, cell, study.routing.max_access_m + 2 * cell, crs=net.crs)
+    out = {"grid": grid, "notes": []}
+    out.update(read_friction(study, grid, net))
     return out
 
 

@@ -18,12 +18,44 @@ from ..errors import InputError
 from ..study import Study
 from .inputs import Hubs, build_or_read, load_rasters, read_settlements
 
-__all__ = ["Analysis", "ALL_STEPS", "analyse", "path_frame", "zones_layer"]
+__all__ = ["Analysis", "ALL_STEPS", "FRICTION_FILES", "analyse", "path_frame", "zones_layer", "travel_model",
+           "has_friction"]
 
 log = logging.getLogger("geo_reach")
 
 #: The steps of an analysis; a command may ask for some of them only.
 ALL_STEPS = frozenset({"access", "metrics", "profile", "surface"})
+
+#: The ``[surface]`` inputs that slow or stop walking (the friction inputs).
+FRICTION_FILES = ("terrain", "landcover", "barriers")
+
+
+def has_friction(study: Study) -> bool:
+    """True when the study names terrain, land cover or barriers (walks then cross the friction grid)."""
+    return study.surface is not None and any(k in study.surface_files for k in FRICTION_FILES)
+
+
+def travel_model(study: Study, rasters=None):
+    """The run's :class:`~geo_reach.analysis.travel.TravelModel`: the study's routing options and friction inputs.
+
+    With friction inputs it walks across the study's grid (``rasters`` from
+    :func:`~geo_reach.pipeline.inputs.load_rasters`) and is made once: it is
+    kept in ``rasters["travel"]``, so the baseline and every scenario (which
+    share the rasters) price walks with the one model.  Without them, walks
+    are straight lines.
+    """
+    from ..analysis.travel import TravelModel
+
+    if not has_friction(study) or rasters is None:
+        return TravelModel(study.routing)
+    if "travel" not in rasters:
+        files = study.surface_files
+        speeds = {int(k): float(v) for k, v in files.get("landcover_speeds", {}).items()} or None
+        source = f"file '{study.resolve(files['landcover'])}'" if "landcover" in files else "land cover"
+        rasters["travel"] = TravelModel.build(study.routing, rasters["grid"], terrain=rasters.get("terrain"),
+                                              landcover=rasters.get("landcover"), landcover_speeds=speeds,
+                                              barriers=rasters.get("barriers"), landcover_source=source)
+    return rasters["travel"]
 
 
 @dataclass
@@ -33,6 +65,7 @@ class Analysis:
     build: object
     hubs: Hubs | None
     weight: object = None                                 # the routing Weight of every network cost here
+    travel: object = None                                 # the TravelModel that priced every walk
     node_fields: dict = field(default_factory=dict)      # per-node arrays
     hub_table: object = None
     node_cost: np.ndarray | None = None                   # any-kind cost (weight unit), NaN = none
@@ -94,11 +127,16 @@ def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profi
     routing = study.routing
     w = routing.weight
     out = Analysis(build=res, hubs=hubs, weight=w)
-    if hubs is not None and ("access" in steps or "surface" in steps):
+    walks = hubs is not None and ("access" in steps or "surface" in steps)
+    if walks and rasters is None and has_friction(study):
+        step("reading rasters")
+        rasters = load_rasters(study, net, hubs)
+    out.travel = travel_model(study, rasters)
+    if walks:
         from ..analysis.access import hub_access
 
         step("routing to hubs")
-        acc = hub_access(net, hubs.xy, hubs.ids, hubs.kinds, routing)
+        acc = hub_access(net, hubs.xy, hubs.ids, hubs.kinds, travel=out.travel)
         out.notes += list(hubs.notes) + acc.notes
         out.node_cost, out.node_hub = acc.node_cost, acc.node_hub
         out.kind_costs = acc.kind_costs
@@ -181,7 +219,7 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
     if routing.weight.name == "minutes":
         node_cost, node_hub, kind_costs = out.node_cost, out.node_hub, out.kind_costs
     else:
-        minutes_acc = _minutes_access(study, net, hubs)
+        minutes_acc = _minutes_access(out.travel, net, hubs)
         node_cost, node_hub, kind_costs = minutes_acc.node_cost, minutes_acc.node_hub, minutes_acc.kind_costs
     try:
         surf = compute_surface(net, node_cost, node_hub, grid, hub_xy=hubs.xy, **kw)
@@ -221,8 +259,8 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
             out.zones = zones_layer(summary, zones, z.get("id_field"), z.get("name_field") or
                                     ("name" if "name" in zones.columns else None), bands_txt, s.threshold)
     if study.settlements is not None:
-        out.settlements = _settlements(study, out, net, hubs, surf, grid, hub_ids)
-    hub_nodes = _hub_nodes(net, hubs, routing)
+        out.settlements = _settlements(study, out, net, hubs)
+    hub_nodes = _hub_nodes(net, hubs, out.travel)
     out.weak = weak_regions(surf.minutes, surf.entry_node, grid, net, node_cost, hub_nodes, s.threshold,
                             population=pop, direction=routing.direction, passable=surf.flat_kmh > 0)
     # Rural Access Index when roads carry an all-season flag.
@@ -237,17 +275,19 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
         out.connection_m = cable_connection_m(net, grid)
 
 
-def _settlements(study, out, net, hubs, surf, grid, hub_ids):
+def _settlements(study, out, net, hubs):
     """The settlements layer (glossary names): ids, names, people, minutes to the nearest hub (and per kind),
-    the nearest hub's id and name, and the network length of the trip."""
+    the nearest hub's id and name, and the network length of the trip.
+
+    Each settlement's trip is priced from its own position by the run's
+    travel model (never read from its grid cell), so the minutes are those
+    ``route`` and ``od`` give for the same trip.
+    """
     import geopandas as gpd
     import shapely
 
-    from ..analysis.attach import attach_points
-    from ..analysis.bands import sample_points
-    from ..analysis.routing import nearest_hub_route_m
+    from ..analysis.access import kind_groups
 
-    routing = study.routing
     t = study.settlements
     st = read_settlements(study, net.crs)
     ids = st[t["id_field"]].to_numpy() if t.get("id_field") in st.columns \
@@ -260,34 +300,59 @@ def _settlements(study, out, net, hubs, surf, grid, hub_ids):
                              key="settlement_name_field")
         data["name"] = st[nf].astype(str).to_numpy(object)
     data["population"] = st["population"].to_numpy(float)
-    frame = gpd.GeoDataFrame(data, geometry=st.geometry.values, crs=st.crs)
-    names = dict(zip(map(str, hubs.ids), hubs.names))
-    sp = sample_points(surf.minutes, surf.nearest_hub, grid, frame, hub_ids=hub_ids)
-    layer = frame.copy()
-    layer["hub_minutes"] = sp["minutes"].to_numpy()
-    layer["nearest_hub"] = sp["hub_id"].to_numpy()
-    layer["nearest_hub_name"] = [names.get(str(h)) if h is not None else None for h in layer["nearest_hub"]]
-    # network length: along the least-cost route from the node where the settlement's trip joins
-    # the network (the surface's entry node at its cell) to its nearest hub
-    att = attach_points(net, hubs.xy, "minutes", max_access_m=routing.max_access_m, walk_kmh=routing.walk_kmh)
-    route_m = nearest_hub_route_m(net, att, "minutes", routing.direction)
-    xy = shapely.get_coordinates(st.geometry.values)
-    r, c = grid.index(xy[:, 0], xy[:, 1])
-    inside = (r >= 0) & (r < grid.height) & (c >= 0) & (c < grid.width)
-    entry = np.full(len(st), -1, np.int64)
-    entry[inside] = surf.entry_node[r[inside], c[inside]]
-    layer["network_length_m"] = np.where(entry >= 0, route_m[np.maximum(entry, 0)], np.nan)
-    for kind, ks in out.kind_surfaces.items():
-        kp = sample_points(ks.minutes, ks.nearest_hub, grid, frame, hub_ids=hub_ids)
-        layer[f"hub_minutes_{kind}"] = kp["minutes"].to_numpy()
-        layer[f"nearest_hub_{kind}"] = kp["hub_id"].to_numpy()
-    left = ~inside
-    if left.any():
-        people = float(layer["population"].to_numpy()[left].sum())
-        shown = ", ".join(str(v) for v in layer["settlement_id"].to_numpy()[left][:5])
-        out.notes.append(f"{int(left.sum())} settlements ({people:,.0f} people) lie outside the grid and have no "
-                         f"minutes: {shown}{' ...' if left.sum() > 5 else ''}; widen surface.extent")
+    layer = gpd.GeoDataFrame(data, geometry=st.geometry.values, crs=st.crs)
+    names = np.asarray(hubs.names, dtype=object)
+    hub_ids = np.asarray(hubs.ids, dtype=object)
+    xy = shapely.get_coordinates(shapely.centroid(st.geometry.values)) if len(st) else np.zeros((0, 2))
+    model = out.travel.for_weight("minutes")
+    role = "leave" if model.options.reverse else "arrive"
+    places = model.attach(net, xy, roles=(role,), always_join=True)   # every settlement's people count
+    groups = dict(kind_groups(hubs.kinds)) if hubs.kinds is not None else {}
+    trips = model.hub_trips(net, places, hubs.xy, groups)
+
+    def columns(tr):
+        has = (tr.hub >= 0) & np.isfinite(tr.cost)
+        minutes = np.where(has, tr.cost, np.nan)
+        hub = np.where(has, hub_ids[np.maximum(tr.hub, 0)], None)
+        return has, minutes, hub
+
+    has, layer["hub_minutes"], layer["nearest_hub"] = columns(trips[None])
+    layer["nearest_hub_name"] = np.where(has, names[np.maximum(trips[None].hub, 0)], None)
+    layer["network_length_m"] = np.where(has, trips[None].network_m, np.nan)
+    for kind in groups:
+        _, layer[f"hub_minutes_{kind}"], layer[f"nearest_hub_{kind}"] = columns(trips[kind])
+    people = layer["population"].to_numpy(float)
+    shown = layer["settlement_id"].to_numpy()
+    off = _off_grid(out.grid, xy)
+    beyond = places.attached & (places.access_m > model.max_access_m)
+    if beyond.any():
+        out.notes.append(f"{int(beyond.sum())} settlements ({people[beyond].sum():,.0f} people) lie farther than the "
+                         f"largest access distance ({model.max_access_m:g} m) from the network; they walk to the "
+                         f"nearest places to join it all the same: {', '.join(str(v) for v in shown[beyond][:5])}"
+                         f"{' ...' if beyond.sum() > 5 else ''}")
+    for mask, why in ((~places.attached & ~places.blocked & ~off, "have no network to join"),
+                      (places.blocked & ~off, "cannot walk to any place to join the network (barriers or "
+                                              "impassable ground all round)"),
+                      (places.attached & ~has, "reach no hub over the network")):
+        if mask.any():
+            out.notes.append(f"{int(mask.sum())} settlements ({people[mask].sum():,.0f} people) {why}: "
+                             f"{', '.join(str(v) for v in shown[mask][:5])}{' ...' if mask.sum() > 5 else ''}; "
+                             "their minutes are empty")
+    if off.any():
+        out.notes.append(f"{int(off.sum())} settlements ({people[off].sum():,.0f} people) lie outside the grid: "
+                         f"{', '.join(str(v) for v in shown[off][:5])}{' ...' if off.sum() > 5 else ''}; "
+                         "their people are left out of the bands and zones"
+                         f"{' and they have no minutes (walks cross the grid)' if model.on_grid else ''}; "
+                         "widen surface.extent")
     return layer
+
+
+def _off_grid(grid, xy) -> np.ndarray:
+    """Points outside ``grid`` (none when there is no grid)."""
+    if grid is None or not len(xy):
+        return np.zeros(len(xy), bool)
+    r, _ = grid.index(xy[:, 0], xy[:, 1])
+    return r < 0
 
 
 def zones_layer(zone_summary, zones, id_field, name_field, bands_txt, threshold):
@@ -316,24 +381,24 @@ def zones_layer(zone_summary, zones, id_field, name_field, bands_txt, threshold)
     return gpd.GeoDataFrame(frame, geometry=geom, crs=zones.crs)
 
 
-def _minutes_access(study: Study, net, hubs: Hubs):
+def _minutes_access(travel, net, hubs: Hubs):
     """Nearest hub by minutes (for the surface when the study routes on another weight)."""
     from ..analysis.access import hub_access
-    from ..analysis.options import replace
 
-    return hub_access(net, hubs.xy, hubs.ids, hubs.kinds, replace(study.routing, weight="minutes"))
+    return hub_access(net, hubs.xy, hubs.ids, hubs.kinds, travel=travel.for_weight("minutes"))
 
 
-def _hub_nodes(net, hubs: Hubs, routing) -> np.ndarray:
-    """The node each hub joins the network at (nearest entry; hubs left out are dropped)."""
-    from ..analysis.attach import attach_points
-
-    att = attach_points(net, hubs.xy, "minutes", max_access_m=routing.max_access_m, walk_kmh=routing.walk_kmh)
+def _hub_nodes(net, hubs: Hubs, travel) -> np.ndarray:
+    """The node each hub joins the network at (its cheapest walk; hubs left out are dropped)."""
+    model = travel.for_weight("minutes")
+    role = "arrive" if model.options.reverse else "leave"
+    att = model.attach(net, hubs.xy, roles=(role,))
+    walk = att.walk(role)
     out = np.full(len(hubs.ids), -1, np.int64)
     for i in range(len(hubs.ids)):
         legs = np.nonzero(att.leg_point == i)[0]
         if len(legs) == 0:
             continue
-        lg = legs[np.argmin(att.leg_walk_m[legs])]
+        lg = legs[np.argmin(walk[legs])]
         out[i] = att.leg_node[lg] if att.leg_edge[lg] < 0 else net.edge_from[att.leg_edge[lg]]
     return out[out >= 0]

@@ -1,0 +1,279 @@
+"""The travel model: one way of pricing every trip, from the exact places it starts and ends.
+
+A trip walks from its start to the network, rides the network, and walks
+from the network to its end - or walks the whole way when that is cheaper.
+:class:`TravelModel` holds the one walk rule every view uses: the hubs and
+settlements of a study run, the origins and destinations of ``od`` and
+``route``, the hubs of ``access``, and any engine that needs the cost of a
+trip between places (accessibility indices, link criticality).  Build it
+once per run, from the routing options and the optional friction inputs,
+and ask it for trips; never price a walk anywhere else.
+
+The walk
+--------
+* Without friction inputs: a straight line at the walking speed
+  (:class:`~geo_reach.analysis.attach.StraightWalk`).
+* With terrain, land cover or barriers: across the friction grid from the
+  place's exact position, by the same kernel and move rule as the
+  travel-time surface (:mod:`~geo_reach.analysis.walkgrid`): slowed by
+  Tobler's hiking function on slopes, by land cover, and never across a
+  barrier.
+
+A walk joins the network at the entries of
+:func:`~geo_reach.analysis.attach.attach_points` within ``max_access_m``; two
+places within ``max_access_m`` of each other may also walk straight from one
+to the other (on weights where walking is costed; a place to itself costs
+nothing on every weight).
+
+Results are model estimates; local surveys, codes and licensed professional
+practice decide.
+
+References
+----------
+.. [1] Tobler, W. (1993). Three presentations on geographical analysis and
+   modeling. NCGIA Technical Report 93-1.
+.. [2] Dijkstra, E. W. (1959). A note on two problems in connexion with
+   graphs. Numerische Mathematik 1, 269-271.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace as _replace
+
+import numpy as np
+
+from ..network.model import Network
+from ..network.weights import Weight, as_weight
+from .attach import EXTRA_WALK_M, ROLES, Attachment, DirectWalks, StraightWalk, attach_points
+from .options import RoutingOptions
+from .routing import NearestHub, nearest_hub
+from .trips import HubTrips, ODMatrix, Route, nearest_hub_trips, od_matrix, shortest_path
+from .walkgrid import GridWalk, WalkGrid
+
+__all__ = ["TravelModel", "WalkGrid", "DirectWalks", "HubTrips"]
+
+
+class TravelModel:
+    """The one travel model of a run: how every trip between places is priced.
+
+    Parameters
+    ----------
+    options : RoutingOptions, optional
+        Weight, direction, ``max_access_m`` and ``walk_kmh`` (defaults if not
+        given).
+    walk_grid : WalkGrid, optional
+        The friction grid walks cross; ``None``: straight-line walking.
+        Made for ``options.walk_kmh``.
+
+    Examples
+    --------
+    >>> from geo_reach.analysis.routing import _demo_chain
+    >>> model = TravelModel(RoutingOptions(weight="minutes", walk_kmh=5.0))
+    >>> r = model.route(_demo_chain(3), [0.0, 50.0], [2000.0, 50.0])
+    >>> round(r.cost, 3)   # 50 m on foot (0.6 min), 2 km of road (2 min), 50 m on foot
+    3.2
+    >>> model.route(_demo_chain(3), [0.0, 50.0], [0.0, 50.0]).cost   # a place to itself
+    0.0
+    """
+
+    def __init__(self, options: RoutingOptions | None = None, walk_grid: WalkGrid | None = None):
+        self.options = options if options is not None else RoutingOptions()
+        self.walk_grid = walk_grid
+        if walk_grid is not None:
+            self._pricer = GridWalk(walk_grid, self.options.weight, self.options.walk_kmh, self.options.max_access_m)
+        else:
+            self._pricer = StraightWalk(self.options.weight, self.options.walk_kmh, self.options.max_access_m)
+
+    @classmethod
+    def build(cls, options: RoutingOptions | None = None, grid=None, *, terrain=None, landcover=None,
+              landcover_speeds=None, barriers=None, barrier_classes=(), landcover_source: str = "land cover",
+              neighbours: int | None = None) -> "TravelModel":
+        """The model from routing options and friction inputs on ``grid`` (straight walking when there are none).
+
+        Parameters
+        ----------
+        options : RoutingOptions, optional
+        grid : Grid, optional
+            The friction grid (needed when any friction input is given).
+        terrain, landcover, landcover_speeds, barriers, barrier_classes
+            As :meth:`WalkGrid.build` (and the travel-time surface).
+        """
+        options = options if options is not None else RoutingOptions()
+        if terrain is None and landcover is None and barriers is None:
+            return cls(options)
+        if grid is None:
+            from ..errors import OptionError
+
+            raise OptionError("friction inputs need a grid; give the study's grid or --cell-m")
+        wg = WalkGrid.build(grid, options.walk_kmh, terrain=terrain, landcover=landcover,
+                            landcover_speeds=landcover_speeds, barriers=barriers, barrier_classes=barrier_classes,
+                            landcover_source=landcover_source, neighbours=neighbours)
+        return cls(options, wg)
+
+    # ------------------------------------------------------------------ what it is
+    @property
+    def weight(self) -> Weight:
+        return self.options.weight
+
+    @property
+    def walk_kmh(self) -> float:
+        return self.options.walk_kmh
+
+    @property
+    def max_access_m(self) -> float:
+        return self.options.max_access_m
+
+    @property
+    def direction(self) -> str:
+        return self.options.direction
+
+    @property
+    def on_grid(self) -> bool:
+        """True when walks cross a friction grid (terrain, land cover or barriers)."""
+        return self.walk_grid is not None
+
+    def describe(self) -> str:
+        """One line: how walks are priced."""
+        how = "straight lines" if self.walk_grid is None else self.walk_grid.describe()
+        return f"walks at {self.walk_kmh:g} km/h over {how}, up to {self.max_access_m:g} m to the network"
+
+    def for_weight(self, weight) -> "TravelModel":
+        """The same walk for another weight (the friction grid is shared)."""
+        weight = as_weight(weight)
+        if weight == self.weight:
+            return self
+        return TravelModel(_replace(self.options, weight=weight), self.walk_grid)
+
+    def for_direction(self, direction: str) -> "TravelModel":
+        """The same model for trips the other way (``to-hub`` or ``from-hub``)."""
+        if direction == self.direction:
+            return self
+        return TravelModel(_replace(self.options, direction=direction), self.walk_grid)
+
+    # ------------------------------------------------------------------ walks
+    def attach(self, network: Network, xy, *, roles=ROLES, always_join: bool = False,
+               extra_walk_m: float = EXTRA_WALK_M) -> Attachment:
+        """Where each point joins ``network``, every leg priced by this model.
+
+        Parameters
+        ----------
+        network : Network
+        xy : array_like of float, shape (n, 2)
+            Points in the network's working CRS, metres.
+        roles : iterable of {'leave', 'arrive'}
+            The walks to price (see :func:`~geo_reach.analysis.attach.attach_points`).
+        always_join : bool, default False
+            Points farther than ``max_access_m`` join at their nearest places
+            all the same (settlements: their people count).
+        """
+        return attach_points(network, xy, self.weight, max_access_m=self.max_access_m, walk_kmh=self.walk_kmh,
+                             extra_walk_m=extra_walk_m, walk=self._pricer, roles=roles, always_join=always_join)
+
+    def walk(self, from_xy, to_xy):
+        """Cost and walked length of walking from each ``from_xy[i]`` to ``to_xy[i]``.
+
+        Returns
+        -------
+        cost : ndarray of float64, shape (n,)
+            Weight unit; ``inf`` beyond ``max_access_m`` or where no walk
+            gets through.
+        walk_m : ndarray of float64, shape (n,)
+            Walked length, metres.
+        """
+        a = np.asarray(from_xy, np.float64).reshape(-1, 2)
+        b = np.asarray(to_xy, np.float64).reshape(-1, 2)
+        n = len(a)
+        pr = self._pricer.price(a, np.arange(n), b, ("leave",))
+        far = np.hypot(*(b - a).T) > self.max_access_m if n else np.zeros(0, bool)
+        return np.where(far, np.inf, pr.leave), np.where(far, np.inf, pr.walk_m)
+
+    def direct(self, from_xy, to_xy) -> DirectWalks:
+        """Every walk straight from a ``from_xy`` place to a ``to_xy`` place within ``max_access_m``.
+
+        On weights where walking is free (``hops``, ``latency_ms``) only a
+        place to itself (the same position) walks, at cost 0.
+        """
+        from scipy.spatial import cKDTree
+
+        a = np.asarray(from_xy, np.float64).reshape(-1, 2)
+        b = np.asarray(to_xy, np.float64).reshape(-1, 2)
+        if not len(a) or not len(b):
+            return DirectWalks.none()
+        reach = self.max_access_m if self.weight.walk_costed else 0.0
+        found = cKDTree(b).query_ball_point(a, reach + 1e-9)
+        src = np.repeat(np.arange(len(a), dtype=np.int64), [len(f) for f in found])
+        dst = np.concatenate([np.asarray(f, np.int64) for f in found]) if len(src) else np.zeros(0, np.int64)
+        if not len(src):
+            return DirectWalks.none()
+        pr = self._pricer.price(a, src, b[dst], ("leave",))
+        ok = np.isfinite(pr.leave)
+        return DirectWalks(src[ok], dst[ok], pr.leave[ok], pr.walk_m[ok])
+
+    # ------------------------------------------------------------------ trips
+    def _attached(self, network, place, role):
+        if isinstance(place, Attachment):
+            return place
+        return self.attach(network, place, roles=(role,))
+
+    def _direct_between(self, a: Attachment, b: Attachment) -> DirectWalks:
+        """Direct walks from the places of ``a`` to those of ``b``, both joined (a place left out stays out)."""
+        ia, ib = np.nonzero(a.attached)[0], np.nonzero(b.attached)[0]
+        d = self.direct(a.point_xy[ia], b.point_xy[ib])
+        return DirectWalks(ia[d.src], ib[d.dst], d.cost, d.walk_m)
+
+    def route(self, network: Network, origin, destination) -> Route:
+        """The cheapest trip between two places (coordinates, or one-point attachments from :meth:`attach`)."""
+        o = self._attached(network, np.asarray(origin, np.float64).reshape(1, 2)
+                           if not isinstance(origin, Attachment) else origin, "leave")
+        d = self._attached(network, np.asarray(destination, np.float64).reshape(1, 2)
+                           if not isinstance(destination, Attachment) else destination, "arrive")
+        return shortest_path(network, o, d, self.weight, direct=self._direct_between(o, d))
+
+    def od(self, network: Network, origins, destinations, *, batch: int | None = None) -> ODMatrix:
+        """Cost and length of the cheapest trip from every origin to every destination.
+
+        ``origins`` and ``destinations`` are coordinates (n, 2) or
+        attachments made by :meth:`attach`; places left out (not joined to
+        the network) get ``inf``, also for a trip to themselves.
+        """
+        o = self._attached(network, origins, "leave")
+        d = self._attached(network, destinations, "arrive")
+        return od_matrix(network, o, d, self.weight, batch=batch, direct=self._direct_between(o, d))
+
+    def nearest_hub(self, network: Network, hubs) -> NearestHub:
+        """Every node's nearest hub and the cost of the trip (in the model's direction).
+
+        ``hubs``: coordinates (n, 2) or an attachment made by :meth:`attach`.
+        """
+        role = "arrive" if self.options.reverse else "leave"
+        return nearest_hub(network, self._attached(network, hubs, role), self.weight, self.direction)
+
+    def hub_trips(self, network: Network, places, hubs, groups=None) -> dict:
+        """Each place's trip to its nearest hub (in the model's direction), for all hubs and per group.
+
+        Parameters
+        ----------
+        network : Network
+        places, hubs : ndarray of float64, shape (n, 2), or Attachment
+            Coordinates in the working CRS, or attachments from :meth:`attach`.
+        groups : dict of name to array_like of int, optional
+            Hub indices per group (e.g. per hub kind).
+
+        Returns
+        -------
+        dict of name to HubTrips
+            ``None`` for all hubs, then each group (hub indices into
+            ``hubs``, not the group).
+        """
+        to_hub = self.options.reverse
+        p_att = self._attached(network, places, "leave" if to_hub else "arrive")
+        h_att = self._attached(network, hubs, "arrive" if to_hub else "leave")
+        direct = self._direct_between(p_att, h_att) if to_hub else self._direct_between(h_att, p_att)
+        out = {None: nearest_hub_trips(network, p_att, h_att, self.weight, self.direction, direct=direct)}
+        for name, members in (groups or {}).items():
+            members = np.asarray(members, np.int64)
+            sub = direct.subset(dst=members) if to_hub else direct.subset(src=members)
+            t = nearest_hub_trips(network, p_att, h_att.subset(members), self.weight, self.direction, direct=sub)
+            hub = np.where(t.hub >= 0, members[np.maximum(t.hub, 0)], -1)
+            out[name] = HubTrips(t.cost, hub, t.network_m)
+        return out
