@@ -404,18 +404,22 @@ def test_route_and_od_walk_round_barriers_at_the_given_speed(tmp_path, net_path,
         return json.loads(out)["properties"]["cost"]
 
     assert route(W) == pytest.approx(7.65, rel=1e-9)                        # straight lines, no friction
-    assert route(W, "--barriers", water, "--cell-m", "50") == pytest.approx(8.35, rel=1e-9)
+    # the hand-worked walks round the water are on the 8-neighbour grid (axes and diagonals) ...
+    assert route(W, "--barriers", water, "--cell-m", "50", "--neighbours", "8") == pytest.approx(8.35, rel=1e-9)
+    # ... and knight moves can only shorten a grid walk, never below the straight line (7.65)
+    assert 7.65 < route(W, "--barriers", water, "--cell-m", "50") <= 8.35 + 1e-9
     assert route(E, "--barriers", water, "--cell-m", "50") == pytest.approx(6.15, rel=1e-9)
     assert route(W, "--terrain", _dem(tmp_path, 0.0), "--cell-m", "50") == pytest.approx(7.65, rel=1e-9)
     # ground rising 1 in 10 to the east: walking east uphill (Tobler: speed x exp(-3.5 x 0.15) / exp(-3.5 x
     # 0.05) = 0.705) costs 475 m / 2.82 km/h = 10.1 min; the flat walk south (columns keep their height)
     # to the row y = Y0 is cheaper: 8.35 min as with the barrier
-    assert route(W, "--terrain", _dem(tmp_path, 0.1), "--cell-m", "50") == pytest.approx(8.35, rel=1e-9)
+    assert route(W, "--terrain", _dem(tmp_path, 0.1), "--cell-m", "50", "--neighbours", "8") == \
+        pytest.approx(8.35, rel=1e-9)
     # od prices the same trips
     o = write_points(tmp_path / "o.gpkg", [W, E])
     d = write_points(tmp_path / "d.gpkg", [NODE2])
     code, _, err = run(["od", net_path, "--origins", o, "--destinations", d, "--walk-kmh", "4", "--barriers", water,
-                        "--cell-m", "50", "-o", tmp_path / "od.gpkg"], capsys, monkeypatch)
+                        "--cell-m", "50", "--neighbours", "8", "-o", tmp_path / "od.gpkg"], capsys, monkeypatch)
     assert code == 0, err
     pairs = pyogrio.read_dataframe(tmp_path / "od.gpkg", layer="od_pairs").sort_values("origin_id")
     assert pairs.trip_cost.tolist() == pytest.approx([8.35, 6.15], rel=1e-9)

@@ -59,7 +59,7 @@ import numpy as np
 
 from ..errors import OptionError
 from ..network.weights import Weight, as_weight
-from .accumulate import accumulate
+from .accumulate import accumulate, moves
 from .attach import ROLES, Priced
 from .friction import SLOPE_LIMIT, flat_speed_kmh, rasterise_barriers, slope_factor
 
@@ -370,33 +370,48 @@ class GridWalk:
     def _tree_lengths(self, dist, seeds, r0, c0, p, role) -> np.ndarray:
         """Walked length to every reached cell along the search's tree (metres).
 
-        Each cell's predecessor is the neighbour (of the eight) from which the
-        kernel's move rule gives the least cost; a start cell that kept its
+        Each cell's predecessor is the neighbour (of the kernel's move set)
+        from which the kernel's move rule gives the least cost; a start cell that kept its
         start cost is reached straight from ``p``.  Lengths are summed by
         pointer jumping.
         """
         h, w = dist.shape
         r1, c1 = r0 + h, c0 + w
-        pace = np.pad(self.pace[r0:r1, c0:c1], 1, constant_values=np.inf)
-        elev = None if self.elev is None else np.pad(self.elev[r0:r1, c0:c1], 1, constant_values=np.nan)
-        pad = np.pad(dist, 1, constant_values=np.inf)
-        here_p = pace[1:-1, 1:-1]
+        mv = moves(self.wg.neighbours or 16)
+        pace = np.pad(self.pace[r0:r1, c0:c1], 2, constant_values=np.inf)
+        elev = None if self.elev is None else np.pad(self.elev[r0:r1, c0:c1], 2, constant_values=np.nan)
+        pad = np.pad(dist, 2, constant_values=np.inf)
+        here = (slice(2, 2 + h), slice(2, 2 + w))
+        here_p = pace[here]
+
+        def at(dr, dc):
+            return (slice(2 + dr, 2 + dr + h), slice(2 + dc, 2 + dc + w))
+
         best = np.full(dist.shape, np.inf)
         arg = np.full(dist.shape, -1, np.int64)
-        for k, (dr, dc) in enumerate(_EIGHT):
-            sl = (slice(1 + dr, 1 + dr + h), slice(1 + dc, 1 + dc + w))
+        for k, (dr, dc) in enumerate(mv):   # the predecessor u = v + (dr, dc); the kernel's move u -> v
             d = self.cell * math.hypot(dr, dc)
-            move = d * 0.5 * (pace[sl] + here_p)
+            if abs(dr) + abs(dc) == 3:
+                # a knight move lies a quarter in each end cell and in the two cells it passes through
+                # (one step along the long axis from u, then also the short one), as the kernel costs it
+                mr, mc = -dr, -dc   # the move from u to v
+                ar, ac = (mr // 2 if abs(mr) == 2 else 0), (mc // 2 if abs(mc) == 2 else 0)
+                br, bc = (mr // 2 if abs(mr) == 2 else mr), (mc // 2 if abs(mc) == 2 else mc)
+                pa, pb = pace[at(dr + ar, dc + ac)], pace[at(dr + br, dc + bc)]
+                move = d * 0.25 * (pace[at(dr, dc)] + pa + pb + here_p)
+                move = np.where(np.isfinite(pa) & np.isfinite(pb), move, np.inf)
+            else:
+                move = d * 0.5 * (pace[at(dr, dc)] + here_p)
             if elev is not None:   # the move u -> v is travelled u -> v outward, v -> u towards the point
-                rise = elev[1:-1, 1:-1] - elev[sl]
+                rise = elev[here] - elev[at(dr, dc)]
                 s = np.clip((rise if role == "leave" else -rise) / d, -self.wg.slope_limit, self.wg.slope_limit)
                 move = np.where(np.isfinite(s), move / slope_factor(np.nan_to_num(s)), move)
-            cand = pad[sl] + move
+            cand = pad[at(dr, dc)] + move
             better = cand < best
             best = np.where(better, cand, best)
             arg[better] = k
-        drs = np.array([o[0] for o in _EIGHT] + [0])
-        dcs = np.array([o[1] for o in _EIGHT] + [0])
+        drs = np.array([o[0] for o in mv] + [0])
+        dcs = np.array([o[1] for o in mv] + [0])
         steps = self.cell * np.hypot(drs, dcs)
         reached = np.isfinite(dist)
         arg[(np.isfinite(seeds) & (dist >= seeds)) | ~reached] = -1   # start cells reached straight from p

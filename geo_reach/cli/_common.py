@@ -76,6 +76,9 @@ def add_friction(p):
     g.add_argument("--cell-m", type=float, default=_S.cell_m,
                    help=f"cell side of the grid walks cross, metres (default {_S.cell_m:g}; used with the "
                         "options above)")
+    g.add_argument("--neighbours", type=int, choices=(8, 16), default=_S.neighbours,
+                   help=f"moves of the grid walk: 8 (axes, diagonals) or 16 (also knight moves, within 2.75 %% of "
+                        f"straight walking) (default {_S.neighbours})")
 
 
 def parse_landcover_speeds(text) -> dict:
@@ -125,7 +128,8 @@ def friction_table(args, margin_m: float) -> dict | None:
         return None
     if args.landcover and not args.landcover_speeds:
         raise OptionError("--landcover needs --landcover-speeds (a class-to-speed table)")
-    t = {"cell_m": float(args.cell_m), "margin_m": float(margin_m)}
+    t = {"cell_m": float(args.cell_m), "margin_m": float(margin_m),
+         "neighbours": int(getattr(args, "neighbours", _S.neighbours))}
     for key in ("terrain", "landcover"):
         if getattr(args, key):
             t[key] = str(Path(getattr(args, key)))

@@ -54,7 +54,8 @@ def travel_model(study: Study, rasters=None):
         source = f"file '{study.resolve(files['landcover'])}'" if "landcover" in files else "land cover"
         rasters["travel"] = TravelModel.build(study.routing, rasters["grid"], terrain=rasters.get("terrain"),
                                               landcover=rasters.get("landcover"), landcover_speeds=speeds,
-                                              barriers=rasters.get("barriers"), landcover_source=source)
+                                              barriers=rasters.get("barriers"), landcover_source=source,
+                                              neighbours=study.surface.neighbours)
     return rasters["travel"]
 
 

@@ -72,6 +72,12 @@ def grid_lengths(passable: np.ndarray, cell_m: float, source: tuple, moves: int)
                 continue
             for dr, dc in offs:
                 rr, cc = r + dr, c + dc
+                if abs(dr) + abs(dc) == 3:   # a knight move also needs the two cells it passes through
+                    ar, ac = r + (dr // 2 if abs(dr) == 2 else 0), c + (dc // 2 if abs(dc) == 2 else 0)
+                    br, bc = r + (dr // 2 if abs(dr) == 2 else dr), c + (dc // 2 if abs(dc) == 2 else dc)
+                    if not (0 <= ar < rows and 0 <= ac < cols and 0 <= br < rows and 0 <= bc < cols
+                            and passable[ar, ac] and passable[br, bc]):
+                        continue
                 if 0 <= rr < rows and 0 <= cc < cols and passable[rr, cc]:
                     tail.append(r * cols + c)
                     head.append(rr * cols + cc)
