@@ -17,7 +17,7 @@ from ..errors import GeoReachError, InputError
 __all__ = ["main", "build_parser"]
 
 #: Subcommand modules, in the order ``--help`` lists them.
-COMMANDS = ["build", "check", "access", "route", "od", "metrics", "profile", "surface", "run", "init", "demo"]
+COMMANDS = ["build", "check", "access", "route", "od", "metrics", "profile", "surface", "criticality", "run", "init", "demo"]
 
 
 class _Parser(argparse.ArgumentParser):
