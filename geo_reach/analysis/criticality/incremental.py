@@ -21,7 +21,9 @@ equally cheap routes.
 
 How
 ---
-1. *Closures and dearer links* (and removed or dearer hub legs): a node
+1. *Closures and dearer links* (and removed or dearer hub legs - a node
+   reached by a hub's leg keeps its value only if the same leg, entering
+   the same edge, is still there and no dearer): a node
    whose step towards its hub is gone or dearer, and every node below it
    in the forest, lose their value; each of them is offered the best trip
    across the boundary of that set (links from nodes outside it, and hub
@@ -65,7 +67,7 @@ from . import _kernels as K
 from .forest import HubForest
 from .graph import SearchGraph, Seeds, csr_by, edge_arcs
 
-__all__ = ["GraphChange", "network_change", "update_forest"]
+__all__ = ["GraphChange", "network_change", "update_forest", "changed_seeds"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -153,17 +155,18 @@ def network_change(base, new, weight: str, direction: str = "to-hub", edges=None
     return GraphChange(new.n_nodes, new.n_edges, changed.astype(np.int64), tail, head, cost, edge)
 
 
-def _seed_min(seeds: Seeds, nodes, hubs):
-    """Cheapest seed of hub ``hubs[i]`` at node ``nodes[i]`` (inf where none)."""
+def _seed_min(seeds: Seeds, nodes, hubs, edges):
+    """Cheapest seed of hub ``hubs[i]`` at node ``nodes[i]`` entering edge ``edges[i]`` (inf where none)."""
     out = np.full(len(nodes), np.inf)
     if not len(seeds.hub) or not len(nodes):
         return out
     sn = seeds.node
     span = int(max(seeds.hub.max(), np.max(hubs)) + 1)
-    key = sn * span + seeds.hub
+    espan = int(max(seeds.edge.max(), np.max(edges)) + 2)
+    key = (sn * span + seeds.hub) * espan + (seeds.edge + 1)
     order = np.lexsort((seeds.cost, key))
     key, cost = key[order], seeds.cost[order]
-    q = np.asarray(nodes, np.int64) * span + np.asarray(hubs, np.int64)
+    q = (np.asarray(nodes, np.int64) * span + np.asarray(hubs, np.int64)) * espan + (np.asarray(edges, np.int64) + 1)
     pos = np.searchsorted(key, q)   # first = cheapest of that (node, hub)
     hit = pos < len(key)
     hit[hit] &= key[pos[hit]] == q[hit]
@@ -171,8 +174,41 @@ def _seed_min(seeds: Seeds, nodes, hubs):
     return out
 
 
+def changed_seeds(old: Seeds, new: Seeds, hub_map=None) -> np.ndarray:
+    """Which seeds of ``new`` are not in ``old`` as they are (same node, hub, edge and cost): bool mask.
+
+    ``hub_map`` renumbers the old hubs (-1 = removed).  A (node, hub, edge) met
+    twice in either set (a leg on a self-loop) counts as changed.
+    """
+    oh = old.hub if hub_map is None else np.asarray(hub_map, np.int64)[old.hub]
+    keep = oh >= 0
+    on, oh, oe, oc = old.node[keep], oh[keep], old.edge[keep], old.cost[keep]
+    nn, nh, ne, nc = new.node, new.hub, new.edge, new.cost
+    if not len(nn):
+        return np.zeros(0, bool)
+    if not len(on):
+        return np.ones(len(nn), bool)
+    span = int(max(oh.max(), nh.max()) + 1)
+    espan = int(max(oe.max(), ne.max()) + 2)
+    ko = (on * span + oh) * espan + (oe + 1)
+    kn = (nn * span + nh) * espan + (ne + 1)
+    order = np.argsort(ko, kind="stable")
+    ko, oc = ko[order], oc[order]
+    dup_o = np.zeros(len(ko), bool)
+    dup_o[1:] = ko[1:] == ko[:-1]
+    dup_o[:-1] |= dup_o[1:]
+    pos = np.minimum(np.searchsorted(ko, kn), len(ko) - 1)
+    same = (ko[pos] == kn) & (oc[pos] == nc) & ~dup_o[pos]
+    sn = np.sort(kn)
+    dup_n = np.zeros(len(kn), bool)
+    if len(sn) > 1:
+        d = sn[1:][sn[1:] == sn[:-1]]
+        dup_n = np.isin(kn, d)
+    return ~same | dup_n
+
+
 def update_forest(graph: SearchGraph, forest: HubForest, change: GraphChange, seeds: Seeds,
-                  hub_map=None) -> HubForest:
+                  hub_map=None, old_seeds: Seeds | None = None) -> HubForest:
     """The forest of the changed network, repaired from the baseline's (see the module notes).
 
     Parameters
@@ -188,6 +224,9 @@ def update_forest(graph: SearchGraph, forest: HubForest, change: GraphChange, se
         numbering), over ``change.n_nodes`` nodes.
     hub_map : array_like of int, optional
         New index of each base hub (-1 = removed); the identity if not given.
+    old_seeds : Seeds, optional
+        The base forest's seeds: when given, only new or changed legs are
+        offered (otherwise every leg is, which is correct but reads them all).
 
     Returns
     -------
@@ -241,10 +280,12 @@ def update_forest(graph: SearchGraph, forest: HubForest, change: GraphChange, se
         h = lab0[sv]
         best = np.full(len(sv), np.inf)
         has = h >= 0
-        best[has] = _seed_min(seeds, sv[has], h[has])
+        # the leg the node came by (same hub, same entered edge) must still be there, no dearer
+        best[has] = _seed_min(seeds, sv[has], h[has], forest.via[sv][has])
         roots.extend(sv[~(best <= forest.cost[sv])].tolist())
     roots = np.unique(np.asarray(roots, np.int64))
-    offer_nodes = np.unique(np.concatenate([change.add_head, seeds.node])).astype(np.int64)
+    fresh = seeds.node if old_seeds is None else seeds.node[changed_seeds(old_seeds, seeds, hub_map)]
+    offer_nodes = np.unique(np.concatenate([change.add_head, fresh])).astype(np.int64)
     cptr, kids = forest.children
     work, _ = K.update(n1, dist, lab, par, via, n0,
                        graph.push_ptr, graph.push_head, graph.push_cost, graph.push_edge,

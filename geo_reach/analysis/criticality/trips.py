@@ -209,7 +209,7 @@ class HubTrips:
             self.place_ids = np.arange(net.n_nodes)
             self.people = np.ones(net.n_nodes)
             self.places = Places.empty(net.n_nodes, net.n_edges, nk)
-            self.place_cost = np.stack([f.cost for f in self.forests]) if nk else np.zeros((0, net.n_nodes))
+            self.place_cost = self._place_costs(self.forests, None)
             return
         xy = np.asarray(place_xy, np.float64).reshape(-1, 2)
         pp = np.ones(len(xy)) if people is None else np.asarray(people, np.float64)
@@ -226,6 +226,8 @@ class HubTrips:
 
     def _place_costs(self, forests, closed):
         pl = self.places
+        if not forests:
+            return np.zeros((0, self.network.n_nodes if self.place_att is None else self.place_att.n_points))
         if self.place_att is None:
             return np.stack([f.cost for f in forests])
         return np.stack([K.place_costs(f.cost, closed, pl.leg_ptr, pl.leg_node, pl.leg_cost, pl.leg_edge,
@@ -276,7 +278,7 @@ class HubTrips:
         mask[change.removed] = True
         forests, work = [], 0
         for s, f in zip(self.seeds, self.forests):
-            nf = update_forest(self.graph, f, change, s.without_edges(mask))
+            nf = update_forest(self.graph, f, change, s.without_edges(mask), old_seeds=s)
             forests.append(nf)
             work += nf.work
         return Closure(change.removed, forests, self._place_costs(forests, mask), work)
@@ -337,7 +339,7 @@ class HubTrips:
             seeds.append(s)
             if not full and ordered and name in self.kinds:
                 kb = self.kinds.index(name)
-                f = update_forest(self.graph, self.forests[kb], change, s, hub_map)
+                f = update_forest(self.graph, self.forests[kb], change, s, hub_map, old_seeds=self.seeds[kb])
             else:
                 if graph is None:
                     graph = SearchGraph.from_network(net, self.weight, self.direction)
