@@ -200,7 +200,8 @@ def run(args):
     w = res.work
     note(f"criticality: {w['links']} links examined, work {w['full_searches']:,.1f} full searches "
          f"(naive {w['naive_full_searches']:,}); most critical: "
-         + (f"edge {int(top['edge_id'])} ({top['people_cut_off']:,.0f} people cut off, {top[af]:,.1f} {af})"
+         + (f"edge {int(top['edge_id'])} ({top['people_cut_off']:,.0f} "
+            f"{'people' if trips.has_places else 'nodes (one person each)'} cut off, {top[af]:,.1f} {af})"
             if top is not None else "none") + f" -> {args.output}{' and ' + args.csv if args.csv else ''}")
     note(CAUTION)
     return 0

@@ -332,6 +332,41 @@ def in_span(tin, dist, pull_ptr, pull_tail):
 
 
 @numba.njit(cache=True)
+def seeds_still_there(nodes, hubs, edges, costs, ptr, s_hub, s_edge, s_cost):
+    """For each ``(nodes[i], hubs[i], edges[i])``: is there a seed of that hub at that node entering
+    that edge, costing at most ``costs[i]``?  (Seeds as a CSR table over nodes.)"""
+    out = np.zeros(len(nodes), np.bool_)
+    n = len(ptr) - 1
+    for i in range(len(nodes)):
+        v = nodes[i]
+        if v >= n:
+            continue
+        for j in range(ptr[v], ptr[v + 1]):
+            if s_hub[j] == hubs[i] and s_edge[j] == edges[i] and s_cost[j] <= costs[i]:
+                out[i] = True
+                break
+    return out
+
+
+@numba.njit(cache=True)
+def seeds_changed(ptr, hub, edge, cost, old_ptr, old_hub, old_edge, old_cost):
+    """For each seed of the new table: True unless the old table has the same seed at the same node
+    (same hub, edge and cost).  ``old_hub`` already renumbered (-1 = removed hub)."""
+    n = len(ptr) - 1
+    n_old = len(old_ptr) - 1
+    out = np.ones(len(hub), np.bool_)
+    for v in range(n):
+        if v >= n_old:
+            break
+        for j in range(ptr[v], ptr[v + 1]):
+            for i in range(old_ptr[v], old_ptr[v + 1]):
+                if old_hub[i] == hub[j] and old_edge[i] == edge[j] and old_cost[i] == cost[j]:
+                    out[j] = False
+                    break
+    return out
+
+
+@numba.njit(cache=True)
 def children(par):
     """Children of each node in the search forest, as a CSR table (ptr, kids)."""
     n = len(par)

@@ -18,6 +18,7 @@ allows).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -156,7 +157,7 @@ class Seeds:
                               np.asarray(cost, np.float64), np.asarray(edge, np.int64))
         return cls(ptr, h, c, e)
 
-    @property
+    @cached_property
     def node(self) -> np.ndarray:
         """The node each seed reaches."""
         return np.repeat(np.arange(len(self.ptr) - 1), np.diff(self.ptr))

@@ -103,12 +103,15 @@ class GraphChange:
         return cls(graph.n_nodes, graph.n_edges, edges, z, z, np.zeros(0), z)
 
     def tables(self, graph: SearchGraph):
-        """(closed_base, apush CSR, apull CSR) for the kernels."""
-        closed = np.zeros(graph.n_edges, np.bool_)
-        closed[self.removed] = True
-        apush = csr_by(self.add_tail, self.n_nodes, self.add_head, self.add_cost, self.add_edge)
-        apull = csr_by(self.add_head, self.n_nodes, self.add_tail, self.add_cost, self.add_edge)
-        return closed, apush, apull
+        """(closed_base, apush CSR, apull CSR) for the kernels (made once per change and graph)."""
+        cache = self.__dict__.setdefault("_tables", {})
+        if id(graph) not in cache:
+            closed = np.zeros(graph.n_edges, np.bool_)
+            closed[self.removed] = True
+            apush = csr_by(self.add_tail, self.n_nodes, self.add_head, self.add_cost, self.add_edge)
+            apull = csr_by(self.add_head, self.n_nodes, self.add_tail, self.add_cost, self.add_edge)
+            cache[id(graph)] = (graph, closed, apush, apull)
+        return cache[id(graph)][1:]
 
 
 def network_change(base, new, weight: str, direction: str = "to-hub", edges=None) -> GraphChange:
@@ -155,56 +158,13 @@ def network_change(base, new, weight: str, direction: str = "to-hub", edges=None
     return GraphChange(new.n_nodes, new.n_edges, changed.astype(np.int64), tail, head, cost, edge)
 
 
-def _seed_min(seeds: Seeds, nodes, hubs, edges):
-    """Cheapest seed of hub ``hubs[i]`` at node ``nodes[i]`` entering edge ``edges[i]`` (inf where none)."""
-    out = np.full(len(nodes), np.inf)
-    if not len(seeds.hub) or not len(nodes):
-        return out
-    sn = seeds.node
-    span = int(max(seeds.hub.max(), np.max(hubs)) + 1)
-    espan = int(max(seeds.edge.max(), np.max(edges)) + 2)
-    key = (sn * span + seeds.hub) * espan + (seeds.edge + 1)
-    order = np.lexsort((seeds.cost, key))
-    key, cost = key[order], seeds.cost[order]
-    q = (np.asarray(nodes, np.int64) * span + np.asarray(hubs, np.int64)) * espan + (np.asarray(edges, np.int64) + 1)
-    pos = np.searchsorted(key, q)   # first = cheapest of that (node, hub)
-    hit = pos < len(key)
-    hit[hit] &= key[pos[hit]] == q[hit]
-    out[hit] = cost[pos[hit]]
-    return out
-
-
 def changed_seeds(old: Seeds, new: Seeds, hub_map=None) -> np.ndarray:
     """Which seeds of ``new`` are not in ``old`` as they are (same node, hub, edge and cost): bool mask.
 
-    ``hub_map`` renumbers the old hubs (-1 = removed).  A (node, hub, edge) met
-    twice in either set (a leg on a self-loop) counts as changed.
+    ``hub_map`` renumbers the old hubs (-1 = removed).
     """
     oh = old.hub if hub_map is None else np.asarray(hub_map, np.int64)[old.hub]
-    keep = oh >= 0
-    on, oh, oe, oc = old.node[keep], oh[keep], old.edge[keep], old.cost[keep]
-    nn, nh, ne, nc = new.node, new.hub, new.edge, new.cost
-    if not len(nn):
-        return np.zeros(0, bool)
-    if not len(on):
-        return np.ones(len(nn), bool)
-    span = int(max(oh.max(), nh.max()) + 1)
-    espan = int(max(oe.max(), ne.max()) + 2)
-    ko = (on * span + oh) * espan + (oe + 1)
-    kn = (nn * span + nh) * espan + (ne + 1)
-    order = np.argsort(ko, kind="stable")
-    ko, oc = ko[order], oc[order]
-    dup_o = np.zeros(len(ko), bool)
-    dup_o[1:] = ko[1:] == ko[:-1]
-    dup_o[:-1] |= dup_o[1:]
-    pos = np.minimum(np.searchsorted(ko, kn), len(ko) - 1)
-    same = (ko[pos] == kn) & (oc[pos] == nc) & ~dup_o[pos]
-    sn = np.sort(kn)
-    dup_n = np.zeros(len(kn), bool)
-    if len(sn) > 1:
-        d = sn[1:][sn[1:] == sn[:-1]]
-        dup_n = np.isin(kn, d)
-    return ~same | dup_n
+    return K.seeds_changed(new.ptr, new.hub, new.edge, new.cost, old.ptr, oh, old.edge, old.cost)
 
 
 def update_forest(graph: SearchGraph, forest: HubForest, change: GraphChange, seeds: Seeds,
@@ -278,11 +238,10 @@ def update_forest(graph: SearchGraph, forest: HubForest, change: GraphChange, se
     sv = forest.seeded
     if len(sv):
         h = lab0[sv]
-        best = np.full(len(sv), np.inf)
-        has = h >= 0
         # the leg the node came by (same hub, same entered edge) must still be there, no dearer
-        best[has] = _seed_min(seeds, sv[has], h[has], forest.via[sv][has])
-        roots.extend(sv[~(best <= forest.cost[sv])].tolist())
+        there = K.seeds_still_there(sv, h, forest.via[sv], forest.cost[sv], seeds.ptr, seeds.hub, seeds.edge,
+                                    seeds.cost) & (h >= 0)
+        roots.extend(sv[~there].tolist())
     roots = np.unique(np.asarray(roots, np.int64))
     fresh = seeds.node if old_seeds is None else seeds.node[changed_seeds(old_seeds, seeds, hub_map)]
     offer_nodes = np.unique(np.concatenate([change.add_head, fresh])).astype(np.int64)
