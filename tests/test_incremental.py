@@ -222,3 +222,28 @@ def test_hub_map_must_keep_the_order_of_the_hubs_that_stay():
     assert t.forests[0].hub.tolist() == [0, 0, 1]
     swapped = t.update(base, hub_xy=xy[[2, 0]], hub_ids=np.array(["b", "a"], object))
     assert swapped.forests[0].hub.tolist() == [1, 0, 0] and swapped.forests[0].cost.tolist() == [0, 1, 0]
+
+
+def test_views_for_the_scenario_runner_match_hub_access():
+    """``kind_costs`` and ``nearest_any`` give what the access step gives (geo_reach.analysis.access,
+    scipy's Dijkstra): per kind and for all hubs together."""
+    from helpers.routing_nets import random_network
+
+    from geo_reach.analysis.access import hub_access
+
+    rng = np.random.default_rng(7)
+    net = random_network(rng, 80, 200)
+    xy = rng.uniform(0, 5000, (7, 2))
+    ids = np.arange(7).astype(object)
+    kinds = np.array(["clinic", "market", "clinic", "port", "market", "clinic", "port"], object)
+    t = HubTrips.prepare(net, xy, ids, kinds)
+    acc = hub_access(net, xy, ids, kinds)
+    for kind, (cost, hub) in t.kind_costs().items():
+        ref_cost, ref_hub = acc.kind_costs[kind]
+        np.testing.assert_allclose(cost, ref_cost, rtol=1e-12, equal_nan=True)
+        fin = np.isfinite(ref_cost)
+        assert np.array_equal(hub < 0, ~fin)
+        # the hub named reaches the node at that cost (ties may name another equally cheap hub)
+        assert np.array_equal(kinds[hub[fin]], np.full(fin.sum(), kind, object))
+    cost, hub = t.nearest_any()
+    np.testing.assert_allclose(np.where(np.isfinite(cost), cost, np.nan), acc.node_cost, rtol=1e-12, equal_nan=True)
