@@ -119,7 +119,6 @@ def main():
         per_kind[name] = (r1.work["full_searches"] - 1.0, float(np.mean(one.forests[0].preorder[2][one.forests[0].via >= 0].sum() / net.n_nodes)))
 
     # --- one-link scenarios
-    f0 = trips.forests[0]
     n = net.n_nodes
     side = a.side
     mid = (side // 2) * side + side // 2
@@ -127,12 +126,21 @@ def main():
     # a new link across three blocks (300 m) at 90 km/h
     new_net = with_edge(net, mid, mid + 3 * side, 0.3 / 90 * 60, 300.0)
     cases["new link (300 m, 90 km/h)"] = (new_net, None)
-    # an upgraded link: the busiest-looking tree link near the middle, to a third of its minutes
-    used = np.nonzero(f0.via >= 0)[0]
-    e_up = int(f0.via[used[np.argmin(np.hypot(net.node_x[used] - net.node_x[mid], net.node_y[used] - net.node_y[mid]))]])
-    cases[f"upgraded link {e_up} (minutes / 3)"] = (with_minutes(net, e_up, net.edge_minutes[e_up] / 3), [e_up])
-    e_cl = e_up
-    cases[f"closed link {e_cl}"] = (with_minutes(net, e_cl, np.nan), [e_cl])
+    # upgraded and closed links: those carrying the largest subtree of the deepest forest, and the one at its
+    # 99th percentile (most links carry a leaf or two: a typical closure costs almost nothing)
+    deep = max(range(len(trips.forests)), key=lambda k: trips.forests[k].preorder[2][trips.forests[k].via >= 0].sum())
+    fd = trips.forests[deep]
+    carried = np.nonzero((fd.via >= 0) & (fd.parent >= 0))[0]
+    sizes = fd.preorder[2][carried]
+    big = int(fd.via[carried[np.argmax(sizes)]])
+    p99 = int(fd.via[carried[np.argsort(sizes)[int(0.99 * (len(sizes) - 1))]]])
+    sub = {e: int(fd.preorder[2][carried][fd.via[carried] == e].max()) for e in (big, p99)}
+    name = trips.kinds[deep]
+    cases[f"upgraded link {p99} (minutes / 3; {sub[p99]:,} nodes below it, {name})"] = (
+        with_minutes(net, p99, net.edge_minutes[p99] / 3), [p99])
+    cases[f"closed link {p99} ({sub[p99]:,} nodes below it, {name})"] = (with_minutes(net, p99, np.nan), [p99])
+    cases[f"closed link {big} (the largest subtree: {sub[big]:,} nodes, {name})"] = (
+        with_minutes(net, big, np.nan), [big])
     scen_rows = []
     for label, (new, edges) in cases.items():
         t = time.perf_counter()

@@ -478,7 +478,7 @@ def link_chunk(links, n, m,
     lab = l0.copy()
     par = np.full(n, -1, np.int64)
     via = np.full(n, -1, np.int64)
-    stamp = np.zeros(n, np.int64)
+    stamp = np.zeros(n, np.int32)
     cur = 0
     closed = np.zeros(m, np.bool_)
     z = np.zeros(n + 1, np.int64)
@@ -490,9 +490,9 @@ def link_chunk(links, n, m,
     hv = np.empty(cap, np.int64)
     A = np.empty(n, np.int64)
     need = np.empty(n, np.bool_)
-    lost_at = np.full(n, -1, np.int64)
-    lost_n = np.zeros(n, np.int64)
-    p_at = np.full(P, -1, np.int64)
+    lost_at = np.full(n, -1, np.int32)
+    lost_n = np.zeros(n, np.int32)
+    p_at = np.full(P, -1, np.int32)
     plist = np.empty(P, np.int64)
     work = 0
     for li in range(L):

@@ -44,7 +44,9 @@ subtree finishes it [3]_ [4]_; then the subtree is restored.  Settlements
 are re-priced only where a leg reaches the subtree or enters the closed
 link.  The work (node settlements plus arc and seed scans) is the sum of
 the subtrees' sizes and degrees, reported as equivalent full searches.
-Links are split into chunks of about equal work and run through
+Links are taken in the preorder of the deepest forest (nested subtrees
+follow each other, so the memory a repair reads is mostly still in the
+cache), split into chunks of about equal work and run through
 :mod:`geo_reach.parallel` (in-process or on a dask.distributed cluster),
 with the same results either way.
 
@@ -174,13 +176,14 @@ def kernel_arrays(trips) -> dict:
     offs = np.cumsum([0] + [len(s.hub) for s in trips.seeds])
     seed_ptr = np.stack([s.ptr + offs[k] for k, s in enumerate(trips.seeds)])
     cat = (lambda a, dt: np.ascontiguousarray(np.concatenate(a) if a else np.zeros(0), dt))
-    order = np.full((nk, n), -1, np.int64)
-    tin = np.empty((nk, n), np.int64)
-    size = np.empty((nk, n), np.int64)
-    lo = np.empty((nk, n), np.int64)
-    hi = np.empty((nk, n), np.int64)
+    it = np.int32 if n < 2**31 - 1 else np.int64     # half the memory the repairs walk through
+    order = np.full((nk, n), -1, it)
+    tin = np.empty((nk, n), it)
+    size = np.empty((nk, n), it)
+    lo = np.empty((nk, n), it)
+    hi = np.empty((nk, n), it)
     via_ptr = np.empty((nk, m + 1), np.int64)
-    via_nodes = np.full((nk, n), -1, np.int64)
+    via_nodes = np.full((nk, n), -1, it)
     for k, f in enumerate(trips.forests):
         o, t, s = f.preorder
         order[k, :len(o)] = o
@@ -230,6 +233,29 @@ def _estimate(trips, shared) -> np.ndarray:
     return est
 
 
+def _locality_order(trips, shared, links) -> np.ndarray:
+    """An order of ``links`` in which consecutive closures repair overlapping subtrees (cache-friendly).
+
+    Links are sorted by the preorder position, in the deepest forest (the kind with the most repair
+    work), of the node whose step they carry; nested subtrees along one path then follow each other.
+    Links that carry no step of that forest come last, by id.  Results do not depend on the order.
+    """
+    nk = len(trips.forests)
+    if not nk or not len(links):
+        return np.arange(len(links))
+    m = shared["m"]
+    work = []
+    for k, f in enumerate(trips.forests):
+        ok = f.via >= 0
+        work.append(float(shared["size"][k][ok].sum()))
+    k = int(np.argmax(work))
+    f = trips.forests[k]
+    key = np.full(m, np.iinfo(np.int64).max, np.int64)
+    ok = f.via >= 0
+    key[f.via[ok]] = shared["tin"][k][ok]
+    return np.lexsort((links, key[links]))
+
+
 def link_criticality(trips, links=None, *, executor=None, chunks: int = 64, method: str = "repair",
                      progress=None) -> LinkCriticality:
     """Close each link in turn and measure the loss (see the module notes).
@@ -274,13 +300,16 @@ def link_criticality(trips, links=None, *, executor=None, chunks: int = 64, meth
     elif method == "repair":
         shared = kernel_arrays(trips)
         est = _estimate(trips, shared)
-        parts = balanced_chunks(links, est[links], chunks) if L else []
+        order = _locality_order(trips, shared, links)
+        parts = balanced_chunks(links[order], est[links[order]], chunks) if L else []
         ex = executor if executor is not None else InProcess()
         res = ex.map(link_task, parts, shared, progress=progress)
         if res:
-            cut = np.concatenate([r[0] for r in res])
-            added = np.concatenate([r[1] for r in res])
-            nodes_cut = np.concatenate([r[2] for r in res])
+            back = np.empty(L, np.int64)
+            back[order] = np.arange(L)
+            cut = np.concatenate([r[0] for r in res])[back]
+            added = np.concatenate([r[1] for r in res])[back]
+            nodes_cut = np.concatenate([r[2] for r in res])[back]
             ops = int(sum(int(r[3]) for r in res))
         else:
             cut, added, nodes_cut, ops = np.zeros((0, nk)), np.zeros((0, nk)), np.zeros(0, np.int64), 0
