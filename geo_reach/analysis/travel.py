@@ -151,6 +151,12 @@ class TravelModel:
         return TravelModel(_replace(self.options, direction=direction), self.walk_grid)
 
     # ------------------------------------------------------------------ walks
+    @property
+    def walker(self):
+        """What prices this model's walks (give it as ``walk=`` to
+        :func:`~geo_reach.analysis.attach.attach_points` to attach with this model)."""
+        return self._pricer
+
     def attach(self, network: Network, xy, *, roles=ROLES, always_join: bool = False,
                extra_walk_m: float = EXTRA_WALK_M) -> Attachment:
         """Where each point joins ``network``, every leg priced by this model.

@@ -19,8 +19,8 @@ from ..errors import GeoReachError, InputError
 __all__ = ["main", "build_parser"]
 
 #: Subcommand modules, in the order ``--help`` lists them.
-COMMANDS = ["build", "check", "access", "route", "od", "metrics", "profile", "surface", "indices", "sites", "run",
-            "init", "demo"]
+COMMANDS = ["build", "check", "access", "route", "od", "metrics", "profile", "surface", "criticality", "indices",
+            "sites", "run", "init", "demo"]
 
 
 class _Parser(argparse.ArgumentParser):
