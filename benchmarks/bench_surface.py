@@ -102,7 +102,7 @@ def child(what: str, size: int, n_nodes: int):
     for nb in (8, 16):
         accumulate(np.ones((4, 4)), s, 1.0, neighbours=nb)
         accumulate(np.ones((4, 4)), s, 1.0, elevation=np.zeros((4, 4)), neighbours=nb)
-    from geo_reach.analysis.accumulate import seed_points
+    from geo_reach.analysis.pointwalk import seed_points
 
     seed_points(np.ones((4, 4)), 1.0, [0.5], [0.5], [0.0])
     seed_points(np.ones((4, 4)), 1.0, [0.5], [0.5], [0.0], elevation=np.zeros((4, 4)))

@@ -12,7 +12,8 @@ import pytest
 from hypothesis import given, settings, strategies as st
 from hypothesis.extra import numpy as hnp
 
-from geo_reach.analysis.accumulate import accumulate, accumulate_reference, moves
+from geo_reach.analysis.accumulate import accumulate, moves
+from geo_reach.analysis.accumulate_reference import accumulate_reference
 from geo_reach.analysis.friction import slope_factor
 from geo_reach.errors import OptionError
 

@@ -7,7 +7,7 @@ import pytest
 import shapely
 from pyproj import CRS
 
-from geo_reach.analysis.accumulate import accumulate_reference
+from geo_reach.analysis.accumulate_reference import accumulate_reference
 from geo_reach.analysis.friction import count_steep_moves
 from geo_reach.analysis.seeding import (cable_access_nodes, cable_connection_m, entry_points, sample_lines,
                                         seed_cells, seed_raster)

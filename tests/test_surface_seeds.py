@@ -14,7 +14,8 @@ import shapely
 from hypothesis import given, settings, strategies as st
 from hypothesis.extra import numpy as hnp
 
-from geo_reach.analysis.accumulate import accumulate, minutes_at_points, seed_points
+from geo_reach.analysis.accumulate import accumulate
+from geo_reach.analysis.pointwalk import minutes_at_points, seed_points
 from geo_reach.errors import OptionError
 
 

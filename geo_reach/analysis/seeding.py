@@ -8,7 +8,7 @@ hubs, it adds each hub itself (cost 0: walking straight to the hub needs no
 network) and costs the samples on the edges a hub joins through the hub's
 join point as well (travel along the hub's own edge).  :func:`seed_cells`
 puts the points on a grid at their exact positions, adding the walk from
-each to the nearby cell centres (:func:`~.accumulate.seed_points`);
+each to the nearby cell centres (:func:`~.pointwalk.seed_points`);
 :func:`seed_raster` is the older placement at cell level, without the walk.
 :func:`cable_connection_m` is the distance raster for cable layers, which
 carry no travellers.
@@ -470,7 +470,7 @@ def seed_cells(points: EntryPoints, grid, flat_kmh, elevation=None, direction: s
 
     Each point seeds the centres of its own cell and the eight around it
     with its cost plus the walk between the point and the centre on the
-    friction surface (:func:`~.accumulate.seed_points`); each cell keeps its
+    friction surface (:func:`~.pointwalk.seed_points`); each cell keeps its
     cheapest.  A
     point's own cell so costs at most its cost plus the walk of half a cell
     diagonal.  Points outside the grid and points with no hub reachable
@@ -491,7 +491,7 @@ def seed_cells(points: EntryPoints, grid, flat_kmh, elevation=None, direction: s
     Seeds
         ``minutes`` (inf = no seed), ``via_node`` and ``point`` of the cheapest point.
     """
-    from .accumulate import seed_points
+    from .pointwalk import seed_points
 
     col, row = grid_coordinates(grid, points.x, points.y)
     ps = seed_points(flat_kmh, grid.cell_m, col, row, points.minutes, elevation=elevation, direction=direction,

@@ -30,7 +30,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import CRSError, OptionError
-from .accumulate import DIRECTIONS, READ_REACH, accumulate, minutes_at_points as _read_at
+from .accumulate import DIRECTIONS, READ_REACH, accumulate
+from .pointwalk import minutes_at_points as _read_at
 from .friction import SLOPE_LIMIT, count_steep_moves, flat_speed_kmh
 from .seeding import EntryPoints, HubLegs, entry_points, grid_coordinates, nearest_edge_points, seed_cells
 
@@ -271,7 +272,7 @@ def minutes_at_points(surface: SurfaceResult, x, y):
     from there: the road samples, stations and hubs the surface was seeded
     from, and the nearest point of every road near the point (where a
     straight walk meets it), costed by the same formulas.  The walks are costed as the seeds' walks are, on the
-    surface's friction and terrain (:func:`~.accumulate.minutes_at_points`),
+    surface's friction and terrain (:func:`~.pointwalk.minutes_at_points`),
     so a point at a hub reads 0 and a point on a road reads the road's cost.
 
     Parameters
