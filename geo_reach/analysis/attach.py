@@ -181,7 +181,7 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
         other role's costs are NaN and refused when used.
     always_join : bool, default False
         A point farther than ``max_access_m`` from every place joins all the
-        same, at the places within ``extra_walk_m`` of its nearest, and every
+        same, at the places up to ``max_access_m`` past its nearest, and every
         point may also walk to the nearest place on the largest component
         however far it lies (for places whose people count, such as
         settlements, as every cell of the travel-time surface counts).  Its
@@ -233,6 +233,10 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
         if places["main_tree"] is not None:   # up to the largest component, however far (the nearest place too)
             (mi, _), dm = places["main_tree"].query_nearest(pts, return_distance=True, all_matches=False)
             lim[mi] = np.maximum(lim[mi], dm + TIE_M)
+            # a place beyond reach may also walk up to max_access_m past its nearest place, as a cell of the
+            # travel-time surface walks to whichever road is cheapest (one trip, one number)
+            far = np.isfinite(access) & (access > max_access_m)
+            lim[far] = np.maximum(lim[far], access[far] + max_access_m + TIE_M)
         else:                                  # no road on it: up to the nearest place, and the extra walk
             far = np.isfinite(access) & (access > max_access_m)
             lim[far] = access[far] + min(extra_walk_m, max_access_m) + TIE_M
