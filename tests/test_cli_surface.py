@@ -36,7 +36,7 @@ def test_surface_outputs_and_population_balance(built):
         assert k in s
     assert set(s["population_by_band"]) == {"15", "30", "60"}
     assert s["population_by_band"]["60"] + s["population_beyond"] == pytest.approx(s["population_total"])
-    with rasterio.open(d / "s1" / "minutes.tif") as ds:
+    with rasterio.open(d / "s1" / "hub_minutes.tif") as ds:
         assert ds.crs is not None and ds.nodata is not None or np.isnan(ds.nodata)
     import pyogrio
 

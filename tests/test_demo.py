@@ -36,7 +36,7 @@ def test_demo_runs_writes_everything_and_is_deterministic(tmp_path):
     differ = [n for n in names if n != "summary.json"
               and (outs[0] / n).read_bytes() != (outs[1] / n).read_bytes()]
     assert not differ, differ
-    for f in ("minutes.tif", "nearest_hub.tif", "delta_minutes_proposed_road.tif", "connection_m.tif"):
+    for f in ("hub_minutes.tif", "nearest_hub.tif", "hub_minutes_change_proposed_road.tif", "connection_m.tif"):
         with rasterio.open(outs[0] / f) as x, rasterio.open(outs[1] / f) as y:
             assert x.crs is not None
             assert np.array_equal(x.read(1), y.read(1), equal_nan=True)

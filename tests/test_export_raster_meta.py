@@ -105,11 +105,11 @@ def kit(tmp_path_factory):
 def test_every_result_raster_has_a_description_unit_and_the_caution(kit):
     _, out, _ = kit
     tifs = sorted(out.glob("*.tif"))
-    assert {t.name for t in tifs} >= {"minutes.tif", "nearest_hub.tif", "minutes_clinic.tif", "nearest_market.tif",
-                                      "delta_minutes_far_link.tif"}
-    want_units = {"minutes": "minutes", "nearest_hub": "category", "minutes_clinic": "minutes",
-                  "minutes_market": "minutes", "nearest_clinic": "category", "nearest_market": "category",
-                  "delta_minutes_far_link": "minutes", "delta_minutes_new_clinic": "minutes"}
+    assert {t.name for t in tifs} >= {"hub_minutes.tif", "nearest_hub.tif", "hub_minutes_clinic.tif", "nearest_hub_market.tif",
+                                      "hub_minutes_change_far_link.tif"}
+    want_units = {"hub_minutes": "minutes", "nearest_hub": "category", "hub_minutes_clinic": "minutes",
+                  "hub_minutes_market": "minutes", "nearest_hub_clinic": "category", "nearest_hub_market": "category",
+                  "hub_minutes_change_far_link": "minutes", "hub_minutes_change_new_clinic": "minutes"}
     for t in tifs:
         with rasterio.open(t) as ds:
             assert ds.count == 1
@@ -122,7 +122,7 @@ def test_every_result_raster_has_a_description_unit_and_the_caution(kit):
         assert g["description"].split(":")[0] in {"hub_minutes", "nearest_hub", "hub_minutes_clinic",
                                                   "hub_minutes_market", "nearest_hub_clinic", "nearest_hub_market",
                                                   "hub_minutes_change"}
-    with rasterio.open(out / "minutes_clinic.tif") as ds:
+    with rasterio.open(out / "hub_minutes_clinic.tif") as ds:
         assert ds.descriptions[0].startswith("hub_minutes_clinic: ")
 
 
@@ -142,7 +142,7 @@ def test_nearest_hub_categories_read_by_gdal(kit):
         assert values <= {1, 2} and values                          # every value present has a category
         assert ds.tags(1)["CATEGORY_2"] == "M1 <b>Market</b>"       # also inside the TIFF itself
     # a kind's raster names only that kind's hubs
-    g = gdal_read(out / "nearest_clinic.tif")
+    g = gdal_read(out / "nearest_hub_clinic.tif")
     assert g["categories"][1] == "C1 North clinic" and g["rat"]["rows"] == [["1", "C1", "North clinic", "clinic"]]
 
 
@@ -158,7 +158,7 @@ def test_nearest_hub_style_is_labelled(kit):
     assert len(set(colours)) == len(colours) and all(len(c) == 7 and c.startswith("#") for c in colours)
     assert entries[0].get("opacity") == "0"
     assert root.find(f".//{SLD}Abstract").text == CAUTION
-    assert (out / "nearest_market.sld").is_file() and (out / "nearest_market.tif.aux.xml").is_file()
+    assert (out / "nearest_hub_market.sld").is_file() and (out / "nearest_hub_market.tif.aux.xml").is_file()
 
 
 def test_categories_of_many_hubs_and_odd_names(tmp_path):

@@ -167,19 +167,19 @@ def _population_on_grid(study_dir, like_tif):
 def test_zone_shares_against_a_cell_by_cell_count(kit):
     p, out, _ = kit
     zones = pyogrio.read_dataframe(p.parent / "net.gpkg", layer="zones")
-    pop = _population_on_grid(p.parent, out / "minutes.tif")
+    pop = _population_on_grid(p.parent, out / "hub_minutes.tif")
     t = read_csv(out / "zones.csv")
     assert t["zone_id"].tolist() == zones["zid"].tolist()
-    for k, (total, shares, mean) in enumerate(_zone_reference(out / "minutes.tif", pop, zones, [15, 30, 60])):
+    for k, (total, shares, mean) in enumerate(_zone_reference(out / "hub_minutes.tif", pop, zones, [15, 30, 60])):
         assert t["population"][k] == round(total)
         for b, s in zip((15, 30, 60), shares):
             # the GeoTIFF holds float32 minutes: a cell within 1e-4 min of a band edge may fall either way
             assert t[f"share_within_{b}_pct"][k] == pytest.approx(_ref(s, 1), abs=0.15)
         assert t["mean_hub_minutes"][k] == pytest.approx(mean, abs=0.06)
-    # per kind (scenario tables, "before"): the clinic rows against minutes_clinic.tif
+    # per kind (scenario tables, "before"): the clinic rows against hub_minutes_clinic.tif
     z = read_csv(out / "new_clinic_zones.csv")
     clinic = z[z["hub_kind"] == "clinic"].reset_index(drop=True)
-    for k, (total, shares, mean) in enumerate(_zone_reference(out / "minutes_clinic.tif", pop, zones, [15, 30, 60])):
+    for k, (total, shares, mean) in enumerate(_zone_reference(out / "hub_minutes_clinic.tif", pop, zones, [15, 30, 60])):
         for b, s in zip((15, 30, 60), shares):
             assert clinic[f"share_within_{b}_pct_before"][k] == pytest.approx(s, abs=0.15)
         assert clinic["mean_hub_minutes_before"][k] == pytest.approx(mean, abs=0.06)

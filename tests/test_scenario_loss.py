@@ -130,7 +130,7 @@ def test_closing_the_only_bridge_reports_the_people_cut_off(tmp_path):
     line = next(ln for ln in p.stdout.splitlines() if "bridge_out" in ln and ln.startswith("scenario"))
     assert line.split(": ", 1)[1].startswith(f"CUTS OFF {want:,.0f} people")
     # per settlement-like cell: the change layer of the closure never shows anyone faster
-    with rasterio.open(out / "delta_minutes_bridge_out.tif") as ds:
+    with rasterio.open(out / "hub_minutes_change_bridge_out.tif") as ds:
         d = ds.read(1)
     assert np.nanmin(d) >= -1e-4
 

@@ -249,8 +249,8 @@ def test_pipeline_added_road_never_slower_and_closure_never_faster(kit_run):
     out = kit_run
     base_edges = gpd.read_file(out / "results.gpkg", layer="edges")
     base_key = {shapely.normalize(g).wkb: m for g, m in zip(base_edges.geometry, base_edges["hub_cost"])}
-    add = _raster(out / "delta_minutes_far_link.tif")
-    shut = _raster(out / "delta_minutes_shut.tif")
+    add = _raster(out / "hub_minutes_change_far_link.tif")
+    shut = _raster(out / "hub_minutes_change_shut.tif")
     assert np.isfinite(add).any() and np.isfinite(shut).any()
     assert np.nanmax(add) <= 1e-4
     assert np.nanmin(shut) >= -1e-4

@@ -76,7 +76,7 @@ def test_run_writes_the_promised_outputs(ran):
     assert {"edges", "nodes", "hubs", "network_issues", "diameter_path", "reach_bands", "weak_regions",
             "settlements", "zones"} <= layers
     assert {"far_link_settlements", "far_link_zones", "far_link_edge_change"} <= layers
-    for f in ("minutes.tif", "nearest_hub.tif", "minutes_clinic.tif", "delta_minutes_far_link.tif",
+    for f in ("hub_minutes.tif", "nearest_hub.tif", "hub_minutes_clinic.tif", "hub_minutes_change_far_link.tif",
               "summary.json", "map.html", "reach_profile.png"):
         assert (out / f).exists(), f
     s = json.loads((out / "summary.json").read_text())
@@ -119,7 +119,7 @@ def test_scenario_figures(ran):
         assert all(v >= 0 for v in sc[name]["people_newly_within"].values())
     ranks = {r["scenario"]: r for r in s["scenario_ranking"]}
     assert "alone" in ranks["new_clinic"]["ranked_by"]
-    with rasterio.open(out / "delta_minutes_far_link.tif") as ds:
+    with rasterio.open(out / "hub_minutes_change_far_link.tif") as ds:
         d = ds.read(1, masked=True)
     assert float(d.max()) <= 1e-9      # adding a line never makes a cell slower
 
@@ -153,7 +153,7 @@ def test_same_study_twice_gives_identical_summary_and_rasters(ran, tmp_path):
     b = json.loads((out2 / "summary.json").read_text())
     a.pop("timing"); b.pop("timing")
     assert a == b
-    for f in ("minutes.tif", "nearest_hub.tif", "delta_minutes_far_link.tif"):
+    for f in ("hub_minutes.tif", "nearest_hub.tif", "hub_minutes_change_far_link.tif"):
         with rasterio.open(out / f) as x, rasterio.open(out2 / f) as y:
             assert np.array_equal(x.read(1), y.read(1), equal_nan=True)
     assert (out / "map.html").read_bytes() == (out2 / "map.html").read_bytes()
@@ -202,7 +202,7 @@ add_lines = [{ path = "net.gpkg", layer = "island", speed_field = "speed" }]
     assert s["fast"]["new_or_upgraded_km"] > 0
     assert "island" in s["island"]["touches_nothing"]
     for name, sign in (("wet", 1), ("shut", 1), ("fast", -1)):
-        with rasterio.open(tmp_path / "o" / f"delta_minutes_{name}.tif") as ds:
+        with rasterio.open(tmp_path / "o" / f"hub_minutes_change_{name}.tif") as ds:
             d = ds.read(1, masked=True).compressed()
         assert (sign * d >= -1e-9).all(), name
         assert np.abs(d).max() > 0, name
@@ -214,8 +214,8 @@ def test_compare_writes_only_the_comparison(ran, tmp_path):
     code, stdout, err = cli("compare", p, "--scenario", "far_link", "-o", out, "--quiet")
     assert code == 0, err
     files = {f.name for f in out.iterdir()}
-    assert {"comparison.gpkg", "delta_minutes_far_link.tif", "summary.json", "map.html"} <= files
-    assert "minutes.tif" not in files and "results.gpkg" not in files and "delta_minutes_new_clinic.tif" not in files
+    assert {"comparison.gpkg", "hub_minutes_change_far_link.tif", "summary.json", "map.html"} <= files
+    assert "hub_minutes.tif" not in files and "results.gpkg" not in files and "hub_minutes_change_new_clinic.tif" not in files
     s = json.loads((out / "summary.json").read_text())
     assert list(s["scenarios"]) == ["far_link"]
     one_line_error(["compare", p, "--scenario", "nope", "-o", tmp_path / "x"], "nope")

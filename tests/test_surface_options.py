@@ -56,7 +56,7 @@ def built(tmp_path_factory):
     return d
 
 
-def _minutes(folder, name="minutes.tif"):
+def _minutes(folder, name="hub_minutes.tif"):
     with rasterio.open(folder / name) as ds:
         return ds.read(1).astype(np.float64), ds.transform
 
@@ -79,8 +79,8 @@ def test_cli_neighbours_and_hub_seeds(built, tmp_path):
     r, c = int(math.floor(row)), int(math.floor(col))
     half_diag = math.sqrt(2) / 2 * 100 * 60 / 5000
     assert m16[r, c] <= half_diag + 1e-4
-    clinic, _ = _minutes(tmp_path / "n16", "minutes_clinic.tif")
-    market, _ = _minutes(tmp_path / "n16", "minutes_market.tif")
+    clinic, _ = _minutes(tmp_path / "n16", "hub_minutes_clinic.tif")
+    market, _ = _minutes(tmp_path / "n16", "hub_minutes_market.tif")
     assert clinic[r, c] <= half_diag + 1e-4
     # the market surface does not seed the clinic: there the cell is reached over the network
     assert market[r, c] > clinic[r, c] + 1.0

@@ -19,7 +19,7 @@ _S = SurfaceOptions()
 
 def register(sub):
     p = sub.add_parser("surface", help="travel-time surface, reach bands, population and weak regions",
-                       description="Carry access from the network to every cell: minutes.tif, nearest_hub.tif, "
+                       description="Carry access from the network to every cell: hub_minutes.tif, nearest_hub.tif, "
                                    "reach.gpkg (reach_bands, weak_regions, settlements, zones) and summary.json.")
     p.add_argument("network", metavar="NETWORK.gpkg")
     p.add_argument("--hubs", required=True, metavar="LAYER", help="hub points: path or path:layername")
@@ -153,6 +153,6 @@ def run(args):
         largest = max(s["population_by_band"], key=float)
         print(f"people: {s['population_total']:,.0f}; within {largest} min: {s['population_by_band'][largest]:,.0f}; "
               f"beyond: {s['population_beyond']:,.0f}; weighted mean {s['population_weighted_minutes']:.1f} min")
-    print(f"outputs: {args.output} (minutes.tif, nearest_hub.tif, reach.gpkg, summary.json)")
+    print(f"outputs: {args.output} (hub_minutes.tif, nearest_hub.tif, reach.gpkg, summary.json)")
     print(s["caution"])
     return 0

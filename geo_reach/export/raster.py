@@ -252,12 +252,12 @@ def write_cog(path, array, transform, crs, nodata, dtype=None, overwrite: bool =
 #: File stem -> (glossary name, unit written as the band's unit type).  ``<kind>`` and ``<scenario>``
 #: stand for the parts that vary.
 RASTER_TERMS = {
-    "minutes": ("hub_minutes", "minutes"),
-    "minutes_<kind>": ("hub_minutes_<kind>", "minutes"),
+    "hub_minutes_change_<scenario>": ("hub_minutes_change", "minutes"),
+    "hub_minutes": ("hub_minutes", "minutes"),
+    "hub_minutes_<kind>": ("hub_minutes_<kind>", "minutes"),
     "nearest_hub": ("nearest_hub", "category"),
-    "nearest_<kind>": ("nearest_hub_<kind>", "category"),
+    "nearest_hub_<kind>": ("nearest_hub_<kind>", "category"),
     "connection_m": ("connection_m", "m"),
-    "delta_minutes_<scenario>": ("hub_minutes_change", "minutes"),
 }
 
 
@@ -275,14 +275,14 @@ def _raster_term(stem: str):
 
 
 def raster_metadata(stem: str) -> dict:
-    """``description``, ``units`` and ``tags`` for a result raster named ``stem`` (``minutes``, ``nearest_clinic`` ...).
+    """``description``, ``units`` and ``tags`` for a result raster named ``stem`` (``hub_minutes``, ``nearest_hub_clinic`` ...).
 
     The description is the glossary's name and meaning; the tags carry the
     tool and the caution.
 
-    >>> raster_metadata("minutes_clinic")["description"].split(":")[0]
+    >>> raster_metadata("hub_minutes_clinic")["description"].split(":")[0]
     'hub_minutes_clinic'
-    >>> raster_metadata("delta_minutes_new_road")["units"]
+    >>> raster_metadata("hub_minutes_change_new_road")["units"]
     'minutes'
     """
     from .._meta import CAUTION, TOOL, __version__

@@ -91,7 +91,7 @@ def write_summary(folder: Path, summary: dict) -> None:
 
 
 def _write_surface_rasters(folder: Path, a: Analysis):
-    """``minutes.tif``, ``nearest_hub.tif`` (and per kind), ``connection_m.tif`` for cable layers.
+    """``hub_minutes.tif``, ``nearest_hub.tif`` (and per kind), ``connection_m.tif`` for cable layers.
 
     Every band carries a description and unit; the nearest-hub rasters their hub names as categories
     (``<name>.tif.aux.xml``) and a labelled style (``<name>.sld``)."""
@@ -99,18 +99,18 @@ def _write_surface_rasters(folder: Path, a: Analysis):
 
     g = a.grid
     cats = hub_categories(a.hubs.frame)
-    write_result_raster(folder / "minutes.tif", a.surface.minutes.astype(np.float32), g, np.nan)
+    write_result_raster(folder / "hub_minutes.tif", a.surface.minutes.astype(np.float32), g, np.nan)
     write_result_raster(folder / "nearest_hub.tif", a.surface.nearest_hub.astype(np.int32), g, 0, categories=cats)
     for kind, ks in a.kind_surfaces.items():
-        write_result_raster(folder / f"minutes_{kind}.tif", ks.minutes.astype(np.float32), g, np.nan)
-        write_result_raster(folder / f"nearest_{kind}.tif", ks.nearest_hub.astype(np.int32), g, 0,
+        write_result_raster(folder / f"hub_minutes_{kind}.tif", ks.minutes.astype(np.float32), g, np.nan)
+        write_result_raster(folder / f"nearest_hub_{kind}.tif", ks.nearest_hub.astype(np.int32), g, 0,
                             categories=[c for c in cats if c.kind == kind])
     if a.connection_m is not None:
         write_result_raster(folder / "connection_m.tif", a.connection_m.astype(np.float32), g, np.nan)
 
 
 def _write_deltas(folder: Path, base: Analysis, scenarios: dict):
-    """``delta_minutes_<scenario>.tif``: scenario minus baseline (negative = faster)."""
+    """``hub_minutes_change_<scenario>.tif``: scenario minus baseline (negative = faster)."""
     from ..export.raster import write_result_raster
 
     if base.surface is None:
@@ -118,7 +118,7 @@ def _write_deltas(folder: Path, base: Analysis, scenarios: dict):
     g = base.grid
     for name, sc in scenarios.items():
         if sc.get("delta") is not None:
-            write_result_raster(folder / f"delta_minutes_{name}.tif", sc["delta"].astype(np.float32), g, np.nan)
+            write_result_raster(folder / f"hub_minutes_change_{name}.tif", sc["delta"].astype(np.float32), g, np.nan)
 
 
 def _write_tables(folder: Path, study: Study, a: Analysis, scenarios: dict | None = None, baseline: bool = True):

@@ -159,7 +159,7 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
 def run_surface(study: Study, outdir, *, overwrite=False, progress=None) -> dict:
     """The ``surface`` command's run: the study's baseline, written as the surface outputs.
 
-    ``OUTDIR/minutes.tif``, ``nearest_hub.tif`` (and per kind), ``reach.gpkg``
+    ``OUTDIR/hub_minutes.tif``, ``nearest_hub.tif`` (and per kind), ``reach.gpkg``
     (``reach_bands``, ``weak_regions``, plus ``settlements``/``zones``) and
     ``summary.json`` with the population figures at its top level.
     """
