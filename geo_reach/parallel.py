@@ -164,7 +164,7 @@ class DaskExecutor(Executor):
 
 
 def _check_workers(client, timeout_s: float, where: str):
-    from . import __version__
+    from ._meta import __version__
 
     try:
         client.wait_for_workers(1, timeout=timeout_s)
