@@ -14,7 +14,7 @@ def register(sub):
     p.add_argument("-o", "--output", default=None, metavar="OUTDIR", help="output folder (default maps/demo)")
     p.add_argument("--overwrite", action="store_true",
                    help="replace a folder that holds results geo-reach wrote (never one holding other files)")
-    p.add_argument("--quiet", action="store_true")
+    p.add_argument("--quiet", action="store_true", help="no progress lines")
     p.set_defaults(func=run)
 
 

@@ -12,7 +12,7 @@ def register(sub):
     p = sub.add_parser("run", help="run everything a study file describes",
                        description="Run a study (build, access, metrics, surface, scenarios) into a folder: "
                                    "results.gpkg, GeoTIFFs, styles, summary.json and map.html.")
-    p.add_argument("study", metavar="STUDY.toml")
+    p.add_argument("study", metavar="STUDY.toml", help="the study file (TOML; paths in it are relative to it)")
     p.add_argument("-o", "--output", metavar="OUTDIR",
                    help="output folder (default: geo-reach-out/<study name> beside the study file)")
     p.add_argument("--overwrite", action="store_true", help="replace a folder that already holds results")
@@ -22,7 +22,7 @@ def register(sub):
     c = sub.add_parser("compare", help="compare a study's scenarios with its baseline",
                        description="Run the baseline and the named scenarios (default: all) and write the "
                                    "comparison outputs only.")
-    c.add_argument("study", metavar="STUDY.toml")
+    c.add_argument("study", metavar="STUDY.toml", help="the study file whose scenarios to compare")
     c.add_argument("--scenario", action="append", metavar="NAME", help="a scenario to compare (repeatable)")
     c.add_argument("-o", "--output", metavar="OUTDIR",
                    help="output folder (default: geo-reach-out/<study name>-compare beside the study file)")

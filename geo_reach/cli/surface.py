@@ -21,7 +21,7 @@ def register(sub):
     p = sub.add_parser("surface", help="travel-time surface, reach bands, population and weak regions",
                        description="Carry access from the network to every cell: hub_minutes.tif, nearest_hub.tif, "
                                    "reach.gpkg (reach_bands, weak_regions, settlements, zones) and summary.json.")
-    p.add_argument("network", metavar="NETWORK.gpkg")
+    p.add_argument("network", metavar="NETWORK.gpkg", help="network GeoPackage from geo-reach build")
     p.add_argument("--hubs", required=True, metavar="LAYER", help="hub points: path or path:layername")
     p.add_argument("--hub-id-field", metavar="F", help="field with unique hub ids (default: row number from 1)")
     p.add_argument("--hub-kind-field", metavar="F", help="field with the hub kind: one surface per kind too")
