@@ -53,6 +53,8 @@ def run(args):
     check_io(inputs=[args.network], files=[(args.output, "GeoPackage")], overwrite=args.overwrite)
     study = study_from_args(args)
     built = build_or_read(study, [])
+    for msg in built.report.get("notes", ()):
+        note(msg)
     net = built.network
     excluded = report_excluded(net, args.weight)
     res = analyse(study, [], None, prebuilt=built, steps={"metrics"})
