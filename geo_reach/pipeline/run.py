@@ -183,7 +183,7 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=None) -> dict
                "population_by_band": base.get("population_by_band"),
                "population_beyond": base.get("population_beyond"),
                "population_unreachable": base.get("population_unreachable"),
-               "population_weighted_minutes": base.get("population_weighted_minutes"),
+               "mean_hub_minutes": base.get("mean_hub_minutes"),
                **{k: v for k, v in base.items() if not k.startswith("population_")},
                "study": study.raw}
     bar("writing outputs")
