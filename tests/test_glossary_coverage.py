@@ -8,6 +8,8 @@ Then, for every output:
 * every file name in the results folder, every layer name, every field of every layer of every
   GeoPackage (and its column description in ``gpkg_data_columns``, OGC 12-128), every raster's
   band description, every sheet and column of ``tables.xlsx``, every CSV column;
+* every key of the build report (``build --report``; issue kinds are data) and of a route's GeoJSON
+  properties;
 * every key of ``summary.json``, recursively, by these rules for keys that are data, not names:
   ``study`` is the study file read back, so its keys are checked against the study file's schema
   (``geo_reach.study.SCHEMA``) instead; the keys of ``inputs`` (file names), ``issues`` (issue kinds),
@@ -81,9 +83,11 @@ def outputs(tmp_path_factory):
     roads = [f"{data / 'region.gpkg'}:roads", "--class-field", "class", "--class-speeds",
              "trunk=80,main=60,feeder=40,track=15", "--oneway-field", "oneway"]
     net = cmd / "net.gpkg"
-    geo_reach("build", *roads, "-o", net)
+    geo_reach("build", *roads, "-o", net, "--report", cmd / "build_report.json")
     geo_reach("build", *roads, "-o", cmd / "net.parquet")
     geo_reach("access", net, *hub_args, "-o", cmd / "access.gpkg")
+    geo_reach("route", net, "--from", "480000,6570000", "--to", "490000,6575000", "--crs", "EPSG:32727",
+              "-o", cmd / "route.geojson")
     geo_reach("metrics", net, "-o", cmd / "metrics.gpkg")
     geo_reach("od", net, "--origins", *places, "--origin-id-field", "settlement_id", "--destinations",
               cmd / "hubs_in.gpkg", "--destination-id-field", "hub_id", "--nearest", "2", "-o", cmd / "od.gpkg")
@@ -214,6 +218,23 @@ def collect(folder: Path, names: Names, chosen_names: bool):
     for c in sorted(folder.glob("*.csv")):
         for col in read_csv(c).columns:
             names.add(col, c.name, parts)
+    report = folder / "build_report.json"
+    if report.exists():                  # issue kinds (top level) and modes (edges_by_mode) are data keys
+        rep = json.loads(report.read_text(encoding="utf-8"))
+        assert set(rep["issues"]) == set(ISSUE_KINDS) and set(rep["edges_by_mode"]) <= {"road", "rail", "cable",
+                                                                                           "transfer"}
+        for k, v in rep.items():
+            if k not in ISSUE_KINDS:
+                names.add(k, report.name, parts)
+            for row in v if isinstance(v, list) else []:
+                for sub in row if isinstance(row, dict) else []:
+                    names.add(sub, f"{report.name} {k}[]", parts)
+    route = folder / "route.geojson"
+    if route.exists():                   # type, geometry, properties: GeoJSON's own names (RFC 7946)
+        feature = json.loads(route.read_text(encoding="utf-8"))
+        assert feature["type"] == "Feature" and feature["properties"]["reachable"] is True
+        for k in feature["properties"]:
+            names.add(k, f"{route.name} properties", parts)
     s = folder / "summary.json"
     if s.exists():
         summary = json.loads(s.read_text(encoding="utf-8"))
