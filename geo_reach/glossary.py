@@ -107,6 +107,7 @@ RENAMED = {
     "largest_strong_component_nodes": "largest_two_way_component_nodes",
     "rss_power": "fit_error_polynomial", "rss_exponential": "fit_error_exponential",
     "index_to_hub_id": "hub_numbers", "seed_cells": "join_cells",
+    "share": "share_pct",
 }
 
 _SUM = "summary.json"
@@ -411,7 +412,7 @@ TERMS: tuple[Term, ...] = (
     _t("by_kind", "The population figures per hub kind, keyed by kind.", "", "summary baseline"),
     _t("rural_access_index", "Share of the people within 2 km of an all-season road (Roberts, Shyam & Rastogi "
                              "2006, World Bank).", "", "summary baseline"),
-    _t("share", "The share as a fraction (0..1).", "", "summary rural_access_index"),
+    _t("share_pct", "The share of the people within the distance.", "%", "summary rural_access_index"),
     _t("population_within", "People within the distance.", "people", "summary rural_access_index"),
     _t("distance_m", "The distance used.", "m", "summary rural_access_index"),
     _t("weak_regions_count", "Number of weak regions (all of them; the list holds the top five).", "",

@@ -73,8 +73,9 @@ def summarise(study: Study, a: Analysis) -> dict:
         if a.kind_pop_stats:
             out["by_kind"] = {k: _pop_dict(v) for k, v in a.kind_pop_stats.items()}
         if a.rai is not None:
-            out["rural_access_index"] = {k: v for k, v in a.rai.__dict__.items()
-                                         if isinstance(v, (int, float, str))}
+            r = a.rai        # shares in % as everywhere a planner reads them (glossary: share_pct)
+            out["rural_access_index"] = {"share_pct": 100.0 * r.share, "population_within": r.population_within,
+                                         "population_total": r.population_total, "distance_m": r.distance_m}
         if a.weak is not None:
             top = a.weak.head(5)
             out["weak_regions"] = [{"rank": int(row["rank"]), "reason": row["reason"],
