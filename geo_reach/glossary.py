@@ -107,7 +107,7 @@ RENAMED = {
     "largest_strong_component_nodes": "largest_two_way_component_nodes",
     "rss_power": "fit_error_polynomial", "rss_exponential": "fit_error_exponential",
     "index_to_hub_id": "hub_numbers", "seed_cells": "join_cells",
-    "share": "share_pct",
+    "share": "share_pct", "proposal_notes": "notes",
 }
 
 _SUM = "summary.json"
@@ -417,7 +417,8 @@ TERMS: tuple[Term, ...] = (
     _t("distance_m", "The distance used.", "m", "summary rural_access_index"),
     _t("weak_regions_count", "Number of weak regions (all of them; the list holds the top five).", "",
        "summary baseline"),
-    _t("notes", "What the run left out, repaired or could not compute, in words.", "", "summary baseline"),
+    _t("notes", "What the run (or the scenario's run) left out, repaired or could not compute, in words.", "",
+       "summary baseline, scenarios"),
     _t("scenarios", "The figures of each scenario, keyed by its name.", "", _SUM),
     _t("description", "The scenario's description from the study file.", "", _SCEN),
     _t("changes", "What the scenario changes, in words.", "", _SCEN),
@@ -441,7 +442,6 @@ TERMS: tuple[Term, ...] = (
     _t("closure", "true where the scenario closes links.", "", _SCEN),
     _t("added_layers", "Line layers the scenario adds.", "", _SCEN),
     _t("upgraded", "Ids of the upgraded features, keyed by layer.", "", _SCEN),
-    _t("proposal_notes", "The notes of the scenario's run (as notes).", "", _SCEN),
     _t("reuse", "How the scenario was computed: what was reused from today's run and what was rerun.", "",
        _SCEN),
     _t("scenario_ranking", "The scenarios ranked by ranked_by.", "", _SUM),

@@ -129,7 +129,7 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
         if scen.rings is not None:
             results[n]["layers"]["reach_rings"] = scen.rings
         results[n]["tables"] = change_tables(study, base, scen)   # per settlement and zone, each hub kind
-        results[n]["proposal_notes"] = scen.notes + [
+        results[n]["notes"] = scen.notes + [
             f"{k} of {v} issue spots in the scenario network" for k, v in scen.build.report["issues"].items()
             if v and v != base.build.report["issues"].get(k)]
         timing[f"scenario_{n}_s"] = round(time.perf_counter() - t1, 3)
