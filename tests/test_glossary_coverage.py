@@ -7,7 +7,8 @@ Then, for every output:
 
 * every file name in the results folder, every layer name, every field of every layer of every
   GeoPackage (and its column description in ``gpkg_data_columns``, OGC 12-128), every raster's
-  band description, every sheet and column of ``tables.xlsx``, every CSV column;
+  band description and attribute-table field, every field a layer style (SLD) reads (which must also
+  be a field of the layer it styles), every sheet and column of ``tables.xlsx``, every CSV column;
 * every key of the build report (``build --report``; issue kinds are data) and of a route's GeoJSON
   properties;
 * every key of ``summary.json``, recursively, by these rules for keys that are data, not names:
@@ -32,6 +33,7 @@ import sqlite3
 import subprocess
 import sys
 from pathlib import Path
+from xml.etree import ElementTree
 
 import geopandas as gpd
 import openpyxl
@@ -195,6 +197,15 @@ def collect(folder: Path, names: Names, chosen_names: bool):
             for field in pyogrio.read_info(g, layer=layer)["fields"]:
                 names.add(field, f"{g.name}:{layer}", parts)
                 assert (layer, field) in described, f"{g.name}:{layer}.{field} has no column description"
+    for sld in sorted(folder.glob("*.*.sld")):     # <output>.<layer>.sld reads fields of that layer
+        stem, layer = sld.name.split(".")[:2]
+        fields = set(pyogrio.read_info(folder / f"{stem}.gpkg", layer=layer)["fields"])
+        for prop in ElementTree.parse(sld).iter("{http://www.opengis.net/ogc}PropertyName"):
+            names.add(prop.text, sld.name, parts)
+            assert prop.text in fields, f"{sld.name} styles by {prop.text!r}, not a field of layer {layer}"
+    for aux in sorted(folder.glob("*.tif.aux.xml")):   # the nearest-hub rasters' attribute tables
+        for defn in ElementTree.parse(aux).iter("FieldDefn"):
+            names.add(defn.findtext("Name"), f"{aux.name} attribute table", parts)
     for g in sorted(folder.glob("*.parquet")):
         for field in gpd.read_parquet(g).columns:
             if field != "geometry":
