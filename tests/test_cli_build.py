@@ -47,7 +47,7 @@ def test_build_writes_layers_and_report(tmp_path, roads):
               "src_layer", "src_fid"):
         assert f in e.columns
     n = gpd.read_file(out, layer="nodes")
-    for f in ("node_id", "degree", "component", "entry"):
+    for f in ("node_id", "degree", "component", "joinable"):
         assert f in n.columns
     assert rep["issues"]["crossing_split"] == 1
     assert rep["issues"]["speed_defaulted"] == 2      # null and "x": accepted, defaulted, reported
@@ -160,3 +160,25 @@ def test_uninterpretable_level_refused_in_one_line(tmp_path):
     refused(["build", f"{p}:roads", "-o", tmp_path / "o.gpkg", "--level-field", "lvl"], "lv.gpkg", "feature 1",
             "field 'lvl'", "'0x'", "1 more feature", "whole numbers")
     assert sorted(x.name for x in tmp_path.iterdir()) == ["lv.gpkg"]
+
+
+def test_network_from_an_earlier_version_with_entry_is_read_and_said(tmp_path, roads):
+    """Regression: the nodes' flag was written as ``entry`` before it took the glossary's name ``joinable``.
+    Last month's network files still route, with their flags kept, and the reading says what it did."""
+    from geo_reach.network.io import read_network
+
+    out = tmp_path / "net.gpkg"
+    code, _, err = run("build", f"{roads}:roads", "-o", out, "--speed-field", "speed")
+    assert code == 0, err
+    nodes = gpd.read_file(out, layer="nodes")
+    old = nodes.rename(columns={"joinable": "entry"})
+    old.loc[0, "entry"] = 0                          # one node a trip may not join at: the flag must survive
+    old.to_file(out, layer="nodes", driver="GPKG")
+    assert "joinable" not in gpd.read_file(out, layer="nodes").columns
+    notes: list = []
+    net = read_network(out, "minutes", notes)
+    assert net.node_entry.tolist() == [False] + [True] * (len(nodes) - 1)
+    assert len(notes) == 1 and "field 'entry'" in notes[0] and "'joinable'" in notes[0] and str(out) in notes[0]
+    code, _, err = run("metrics", out)
+    assert code == 0, err
+    assert "field 'entry': read as 'joinable'" in err

@@ -318,13 +318,13 @@ def test_metrics_json_keys_and_values(tmp_path, net_path, capsys, monkeypatch):
     code, out, err = run(["metrics", net_path, "--json", "-o", tmp_path / "m.gpkg"], capsys, monkeypatch)
     assert code == 0, err
     r = json.loads(out)
-    for key in ("nodes", "edges", "components", "largest_component_nodes", "largest_strong_component_nodes",
+    for key in ("nodes", "edges", "components", "largest_component_nodes", "largest_two_way_component_nodes",
                 "diameter", "mean_path", "global_efficiency"):
         assert key in r
-    assert set(r["diameter"]) == {"value", "from_node", "to_node", "sssp_runs"}
-    assert set(r["mean_path"]) == {"value", "ci95_low", "ci95_high", "exact", "sources"}
+    assert set(r["diameter"]) == {"value", "from_node", "to_node", "searches"}
+    assert set(r["mean_path"]) == {"value", "range_95_low", "range_95_high", "exact", "sources"}
     assert (r["nodes"], r["edges"], r["components"]) == (22, 32, 2)
-    assert (r["largest_component_nodes"], r["largest_strong_component_nodes"]) == (20, 20)
+    assert (r["largest_component_nodes"], r["largest_two_way_component_nodes"]) == (20, 20)
     assert r["diameter"]["value"] == 7.0  # 4 x 5 grid: (4 - 1) + (5 - 1) links of 1 minute
     assert r["mean_path"]["value"] == pytest.approx(3.0) and r["mean_path"]["exact"]  # (4 + 5) / 3
     nodes = pyogrio.read_dataframe(tmp_path / "m.gpkg", layer="nodes")
@@ -341,7 +341,7 @@ def test_metrics_sampled_options(tmp_path, capsys, monkeypatch):
     assert code == 0, err
     r = json.loads(out)
     assert r["nodes"] == 5184 and not r["mean_path"]["exact"] and r["mean_path"]["sources"] == 50
-    assert r["mean_path"]["ci95_low"] <= 48.0 <= r["mean_path"]["ci95_high"]  # exact (72 + 72) / 3 = 48
+    assert r["mean_path"]["range_95_low"] <= 48.0 <= r["mean_path"]["range_95_high"]  # exact (72 + 72) / 3 = 48
     assert r["diameter"]["value"] == 142.0
 
 
@@ -355,7 +355,7 @@ def test_profile_json_and_png(tmp_path, net_path, capsys, monkeypatch):
     assert [s["nodes"] for s in r["steps"]] == [2, 5, 9, 13, 16, 18, 19]  # corner of a 4 x 5 grid
     assert set(r["steps"][0]) >= {"cost", "nodes", "length_m"}
     assert r["steps"][0]["length_m"] == pytest.approx(2000.0)
-    assert r["growth"]["class"] in {"linear", "polynomial", "exponential", "undetermined"}
+    assert r["growth"]["kind"] in {"linear", "polynomial", "exponential", "undetermined"}
     assert png.read_bytes()[:4] == b"\x89PNG"
     code, out, err = run(["profile", net_path, "--sample", 5, "--steps", 4, "--json"], capsys, monkeypatch)
     assert code == 0, err

@@ -32,7 +32,7 @@ def test_surface_outputs_and_population_balance(built):
                          "--zone-id-field", "zid", "--bands", "15,30,60", "--quiet")
     assert code == 0, err
     s = json.loads((d / "s1" / "summary.json").read_text())
-    for k in ("population_total", "population_by_band", "population_beyond", "population_weighted_minutes"):
+    for k in ("population_total", "population_by_band", "population_beyond", "mean_hub_minutes"):
         assert k in s
     assert set(s["population_by_band"]) == {"15", "30", "60"}
     assert s["population_by_band"]["60"] + s["population_beyond"] == pytest.approx(s["population_total"])

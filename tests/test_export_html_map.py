@@ -343,7 +343,7 @@ def test_weak_regions_top_20_with_people_rest_switchable_and_key_links(page):
         lon, lat = tr.transform(*np.array(line.coords).T)
         assert np.allclose(f[0], np.column_stack([lon, lat]), atol=d["frame"]["step"])
     # popups: plain words; raw fields stay out of the page
-    assert "entry_x" not in json.dumps(d) and "src_fid" not in json.dumps(d)
+    assert "join_x" not in json.dumps(d) and "src_fid" not in json.dumps(d)
 
 
 def test_popups_use_plain_labels_units_and_rounding(page):

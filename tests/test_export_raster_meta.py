@@ -128,7 +128,7 @@ def test_every_result_raster_has_a_description_unit_and_the_caution(kit):
 
 def test_nearest_hub_categories_read_by_gdal(kit):
     _, out, summary = kit
-    key = summary["baseline"]["hubs"]["index_to_hub_id"]          # the hub numbers as the run reports them
+    key = summary["baseline"]["hubs"]["hub_numbers"]          # the hub numbers as the run reports them
     g = gdal_read(out / "nearest_hub.tif")
     assert g["categories"][0] == ""
     assert g["categories"][1:] == ["C1 North clinic", "M1 <b>Market</b>"]

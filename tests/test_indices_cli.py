@@ -83,14 +83,14 @@ def test_2sfca_worked_example(case, capsys, monkeypatch):
     assert code == 0, err
     assert CAUTION in err
     layer = gpd.read_file(case / "out.gpkg", layer="access_index")
-    assert list(layer.columns) == ["settlement_id", "kind", "measure", "index", "hubs_within", "nearest_minutes",
+    assert list(layer.columns) == ["settlement_id", "kind", "measure", "index", "hubs_within", "hub_minutes",
                                    "reason", "geometry"]
     assert set(layer.geom_type) == {"Point"}
     cl = layer[layer["kind"] == "clinic"].set_index("settlement_id")
     np.testing.assert_allclose(cl.loc[["A", "B", "C", "D"], "index"], [1 / 1500, 8 / 7500, 1 / 2500, 0.0], rtol=1e-9)
     assert cl.loc[["A", "B", "C", "D"], "hubs_within"].tolist() == [1, 2, 1, 0]
-    np.testing.assert_allclose(cl.loc[["A", "B", "C"], "nearest_minutes"], [2.0, 2.0, 3.0], rtol=1e-9)
-    assert np.isnan(cl.loc["D", "nearest_minutes"])
+    np.testing.assert_allclose(cl.loc[["A", "B", "C"], "hub_minutes"], [2.0, 2.0, 3.0], rtol=1e-9)
+    assert np.isnan(cl.loc["D", "hub_minutes"])
     assert "8,000 m from the network" in cl.loc["D", "reason"]
     assert cl.loc[["A", "B", "C"], "reason"].isna().all()
     pop = np.array([1000, 2000, 500, 50])
@@ -100,13 +100,13 @@ def test_2sfca_worked_example(case, capsys, monkeypatch):
     assert mk.loc["A", "reason"] == "no market within 4.5 minutes" and mk.loc["A", "index"] == 0.0
     np.testing.assert_allclose(mk.loc[["B", "C"], "index"], [7 / 2500, 7 / 2500], rtol=1e-9)
     hubs = gpd.read_file(case / "out.gpkg", layer="hub_catchments").set_index("hub_id")
-    np.testing.assert_allclose(hubs.loc[["H1", "H2"], "ratio"], [1 / 1500, 1 / 2500], rtol=1e-9)
+    np.testing.assert_allclose(hubs.loc[["H1", "H2"], "capacity_per_person"], [1 / 1500, 1 / 2500], rtol=1e-9)
     assert hubs.loc[["H1", "H2", "M"], "settlements_within"].tolist() == [2, 2, 2]
     from geo_reach.export.tables import read_csv
 
     assert CAUTION in (case / "out.csv").read_text(encoding="utf-8-sig").splitlines()[0]
     csv = read_csv(case / "out.csv")
-    assert list(csv.columns) == ["settlement_id", "kind", "measure", "index", "hubs_within", "nearest_minutes",
+    assert list(csv.columns) == ["settlement_id", "kind", "measure", "index", "hubs_within", "hub_minutes",
                                  "reason"]
     assert len(csv) == 8
 

@@ -117,7 +117,7 @@ def test_weak_regions_layout():
     assert len(one) == 1                                                 # nested bridges fold into one
     row = one.iloc[0]
     assert row.edge_id == 4                                              # edge (1, 4): nearest the hub
-    assert (row.entry_x, row.entry_y) == (750, 550) and row.entry_minutes == pytest.approx(cost[1])
+    assert (row.join_x, row.join_y) == (750, 550) and row.join_minutes == pytest.approx(cost[1])
     side = np.isin(surf.entry_node, [4, 5])
     assert side.any() and row.population == pytest.approx(pop[side].sum())
     assert row.area_km2 == pytest.approx(side.sum() * 0.01)
@@ -129,7 +129,7 @@ def test_weak_regions_layout():
     assert shapely.union_all(far.geometry.values).area == pytest.approx(mask.sum() * 1e4)
 
     nohub = reg[reg.reason == "no_hub"].iloc[0]
-    assert np.isnan(nohub.entry_minutes) and nohub.entry_x == 1820
+    assert np.isnan(nohub.join_minutes) and nohub.join_x == 1820
     # The edge 6-7 (700 m) buffered by one cell (100 m): 2 * 100 * 700 + pi * 100^2 = 171 416 m2 for true
     # round ends; the polygon's segmented arcs lose a little of that.
     assert nohub.area_km2 == pytest.approx(0.171416, rel=5e-3)
@@ -146,14 +146,14 @@ def test_weak_regions_ranked_by_people_then_minutes():
     surf = compute_surface(net, cost, np.where(np.isfinite(cost), 0, -1), gr, walk_kmh=5.0)
     for pop in (np.arange(200, dtype=float).reshape(10, 20) % 7, np.zeros((10, 20)), np.ones((10, 20))):
         reg = weak_regions(surf.minutes, surf.entry_node, gr, net, cost, [0], threshold_minutes=8.0, population=pop)
-        key = list(zip(-reg.population.to_numpy(), -np.nan_to_num(reg.mean_minutes.to_numpy(), nan=np.inf),
+        key = list(zip(-reg.population.to_numpy(), -np.nan_to_num(reg.mean_hub_minutes.to_numpy(), nan=np.inf),
                        -reg.area_km2.to_numpy()))
         assert key == sorted(key)                       # people, then longer trips (none = longest), then area
         assert list(reg["rank"]) == list(range(1, len(reg) + 1))
     # nobody lives anywhere: the order is by minutes alone, the region no hub reaches first
     none = weak_regions(surf.minutes, surf.entry_node, gr, net, cost, [0], threshold_minutes=8.0,
                         population=np.zeros((10, 20)))
-    m = none.mean_minutes.to_numpy()
+    m = none.mean_hub_minutes.to_numpy()
     assert np.isnan(m[: np.isnan(m).sum()]).all()
     fin = m[np.isfinite(m)]
     assert (np.diff(fin) <= 1e-9).all()

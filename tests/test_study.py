@@ -93,7 +93,7 @@ def test_nodes_layer_merges_build_access_and_metrics(ran):
 
     _, out, _ = ran
     n = gpd.read_file(out / "results.gpkg", layer="nodes")
-    for f in ("node_id", "degree", "component", "entry", "nearest_hub", "hub_cost", "nearest_hub_clinic",
+    for f in ("node_id", "degree", "component", "joinable", "nearest_hub", "hub_cost", "nearest_hub_clinic",
               "hub_cost_clinic", "nearest_hub_market", "hub_cost_market", "eccentricity", "closeness"):
         assert f in n.columns, f
 

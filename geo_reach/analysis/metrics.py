@@ -486,9 +486,10 @@ def network_figures(network: Network, weight: Weight | str = "minutes", *, exact
     -------
     figures : dict
         ``nodes``, ``edges``, ``components``, ``largest_component_nodes``,
-        ``largest_strong_component_nodes``, ``diameter`` {value, from_node,
-        to_node, sssp_runs}, ``mean_path`` {value, ci95_low, ci95_high, exact,
-        sources}, ``global_efficiency``, ``global_efficiency_exact``, ``weight``.
+        ``largest_two_way_component_nodes``, ``diameter`` {value, from_node,
+        to_node, searches}, ``mean_path`` {value, range_95_low, range_95_high,
+        exact, sources}, ``global_efficiency``, ``global_efficiency_exact``,
+        ``weight``, ``unit`` (the glossary's names).
     diameter : Diameter
         With the node path, for the ``diameter_path`` layer.
     eccentricity, closeness : ndarray or None
@@ -515,10 +516,10 @@ def network_figures(network: Network, weight: Weight | str = "minutes", *, exact
         "edges": network.n_edges,
         "components": cc.components,
         "largest_component_nodes": cc.largest_component_nodes,
-        "largest_strong_component_nodes": cc.largest_strong_component_nodes,
+        "largest_two_way_component_nodes": cc.largest_strong_component_nodes,
         "diameter": {"value": dia.value, "from_node": dia.from_node, "to_node": dia.to_node,
-                     "sssp_runs": dia.sssp_runs},
-        "mean_path": {"value": mp.value, "ci95_low": mp.ci95_low, "ci95_high": mp.ci95_high,
+                     "searches": dia.sssp_runs},
+        "mean_path": {"value": mp.value, "range_95_low": mp.ci95_low, "range_95_high": mp.ci95_high,
                       "exact": mp.exact, "sources": mp.sources},
         "global_efficiency": eff,
         "global_efficiency_exact": bool(eff_exact),

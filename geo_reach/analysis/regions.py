@@ -17,10 +17,10 @@ Three reasons, one polygon layer (:func:`weak_regions`):
     Connected parts of the travel network holding no hub at all: their
     edges buffered by one cell.
 
-Each region carries ``population``, ``area_km2``, ``mean_minutes`` (mean
+Each region carries ``population``, ``area_km2``, ``mean_hub_minutes`` (mean
 over its cells with a hub reachable), the nearest network point
-(``entry_x``, ``entry_y``, working CRS metres) and that point's minutes
-(``entry_minutes``, null where no hub is reachable), ``edge_id`` (the
+(``join_x``, ``join_y``, working CRS metres) and that point's minutes
+(``join_minutes``, null where no hub is reachable), ``edge_id`` (the
 bridge, for ``single_link``) and ``rank``: by the people affected (1 = most
 people), then by their mean minutes (longer first; none reachable counts as
 longest), then by area.  For a ``single_link`` region, ``population`` is the
@@ -266,7 +266,7 @@ def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, thres
     -------
     geopandas.GeoDataFrame
         Fields ``rank``, ``reason``, ``population``, ``area_km2``,
-        ``mean_minutes``, ``entry_x``, ``entry_y``, ``entry_minutes``,
+        ``mean_hub_minutes``, ``join_x``, ``join_y``, ``join_minutes``,
         ``edge_id`` (nullable), geometry (MultiPolygon, grid CRS).  Regions
         of different reasons may overlap.
 
@@ -328,9 +328,9 @@ def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, thres
                 "reason": "beyond_threshold",
                 "population": float(people[k]) if people is not None else np.nan,
                 "area_km2": counts[k] * cell_km2,
-                "mean_minutes": msum[k] / mcnt[k] if mcnt[k] else np.nan,
-                "entry_x": pts.x[j] if j >= 0 else np.nan, "entry_y": pts.y[j] if j >= 0 else np.nan,
-                "entry_minutes": pts.minutes[j] if j >= 0 else np.nan, "edge_id": None,
+                "mean_hub_minutes": msum[k] / mcnt[k] if mcnt[k] else np.nan,
+                "join_x": pts.x[j] if j >= 0 else np.nan, "join_y": pts.y[j] if j >= 0 else np.nan,
+                "join_minutes": pts.minutes[j] if j >= 0 else np.nan, "edge_id": None,
                 "geometry": polys[k]})
 
     def per_label(lab, n_lab):
@@ -353,9 +353,9 @@ def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, thres
             node = sides.hub_side_node[k1 - 1]
             rows.append({
                 "reason": "single_link", "population": float(ppl[k1]) if ppl is not None else np.nan,
-                "area_km2": cnt[k1] * cell_km2, "mean_minutes": msum[k1] / mcnt[k1] if mcnt[k1] else np.nan,
-                "entry_x": network.node_x[node], "entry_y": network.node_y[node],
-                "entry_minutes": node_cost[node] if np.isfinite(node_cost[node]) else np.nan,
+                "area_km2": cnt[k1] * cell_km2, "mean_hub_minutes": msum[k1] / mcnt[k1] if mcnt[k1] else np.nan,
+                "join_x": network.node_x[node], "join_y": network.node_y[node],
+                "join_minutes": node_cost[node] if np.isfinite(node_cost[node]) else np.nan,
                 "edge_id": int(sides.bridge_edge[k1 - 1]), "geometry": polys[k1]})
 
     # -- parts of the network with no hub (where buffers of two parts overlap, a cell counts for the later)
@@ -383,19 +383,19 @@ def weak_regions(minutes, entry_node, grid, network, node_cost, hub_nodes, thres
             j = nodes[np.argmin(np.hypot(network.node_x[nodes] - rp.x, network.node_y[nodes] - rp.y))]
             rows.append({
                 "reason": "no_hub", "population": float(ppl[i + 1]) if ppl is not None else np.nan,
-                "area_km2": poly.area / 1e6, "mean_minutes": msum[i + 1] / mcnt[i + 1] if mcnt[i + 1] else np.nan,
-                "entry_x": network.node_x[j], "entry_y": network.node_y[j], "entry_minutes": np.nan,
+                "area_km2": poly.area / 1e6, "mean_hub_minutes": msum[i + 1] / mcnt[i + 1] if mcnt[i + 1] else np.nan,
+                "join_x": network.node_x[j], "join_y": network.node_y[j], "join_minutes": np.nan,
                 "edge_id": None, "geometry": poly})
 
-    cols = ["rank", "reason", "population", "area_km2", "mean_minutes", "entry_x", "entry_y",
-            "entry_minutes", "edge_id", "geometry"]
+    cols = ["rank", "reason", "population", "area_km2", "mean_hub_minutes", "join_x", "join_y",
+            "join_minutes", "edge_id", "geometry"]
     frame = pd.DataFrame(rows, columns=cols[1:])
-    for c in ("population", "area_km2", "mean_minutes", "entry_x", "entry_y", "entry_minutes"):
+    for c in ("population", "area_km2", "mean_hub_minutes", "join_x", "join_y", "join_minutes"):
         frame[c] = frame[c].astype(np.float64)
     frame["edge_id"] = pd.array([None if v is None or (isinstance(v, float) and np.isnan(v)) else int(v)
                                  for v in frame["edge_id"]], dtype="Int64")
     # people first; among equals, the longer mean trip (no hub reachable = longest), then the larger area
-    mins = np.nan_to_num(frame["mean_minutes"].to_numpy(), nan=np.inf)
+    mins = np.nan_to_num(frame["mean_hub_minutes"].to_numpy(), nan=np.inf)
     order = np.lexsort((-frame["area_km2"].to_numpy(), -mins, -np.nan_to_num(frame["population"].to_numpy(), nan=-1.0)))
     frame = frame.iloc[order].reset_index(drop=True)
     frame.insert(0, "rank", np.arange(1, len(frame) + 1, dtype=np.int64))

@@ -179,7 +179,11 @@ def read_network_arg(path, weight=None):
     """Read the NETWORK.gpkg argument (see :func:`geo_reach.network.io.read_network`)."""
     from ..network.io import read_network
 
-    return read_network(path, weight)
+    notes: list[str] = []
+    net = read_network(path, weight, notes)
+    for msg in notes:
+        note(msg)
+    return net
 
 
 def read_points_arg(ref, network, *, id_field=None, kind_field=None, what="hubs", id_key="hub_id_field"):

@@ -53,6 +53,8 @@ def run(args):
     check_io(inputs=[args.network], files=[(args.output, "GeoPackage")], overwrite=args.overwrite)
     study = study_from_args(args)
     built = build_or_read(study, [])
+    for msg in built.report.get("notes", ()):
+        note(msg)
     net = built.network
     excluded = report_excluded(net, args.weight)
     res = analyse(study, [], None, prebuilt=built, steps={"metrics"})
@@ -70,12 +72,12 @@ def run(args):
     else:
         u = args.weight.unit
         print(f"nodes {net.n_nodes}, edges {net.n_edges}, components {out['components']} "
-              f"(largest {out['largest_component_nodes']} nodes; largest strongly connected "
-              f"{out['largest_strong_component_nodes']})")
+              f"(largest {out['largest_component_nodes']} nodes; largest two-way connected "
+              f"{out['largest_two_way_component_nodes']})")
         print(f"diameter {dia['value']:.6g} {u} from node {dia['from_node']} to node {dia['to_node']} "
-              f"({dia['sssp_runs']} searches)")
+              f"({dia['searches']} searches)")
         print(f"mean path {mp['value']:.6g} {u} " + ("(exact)" if mp["exact"] else
-              f"(95% CI {mp['ci95_low']:.6g}-{mp['ci95_high']:.6g}, {mp['sources']} sources)"))
+              f"(95% CI {mp['range_95_low']:.6g}-{mp['range_95_high']:.6g}, {mp['sources']} sources)"))
         print(f"global efficiency {eff:.6g} per {u}" + ("" if eff_exact else " (estimated)")
               if np.isfinite(eff) else "global efficiency undefined (zero-cost trips between distinct nodes)")
         print(CAUTION)

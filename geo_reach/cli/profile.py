@@ -62,7 +62,7 @@ def run(args):
         "reachable_nodes": prof.reachable_nodes,
         "steps": [{"cost": float(c), "nodes": float(n) if args.sample else int(n), "length_m": float(m)}
                   for c, n, m in zip(prof.cost, prof.nodes, prof.length_m)],
-        "growth": {"class": g.kind, "exponent": g.exponent, "rate": g.rate, "points": g.points},
+        "growth": {"kind": g.kind, "exponent": g.exponent, "rate": g.rate, "points": g.points},
         "caution": CAUTION,
     }
     if args.png:

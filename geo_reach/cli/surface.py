@@ -152,7 +152,7 @@ def run(args):
     if s.get("population_total") is not None:
         largest = max(s["population_by_band"], key=float)
         print(f"people: {s['population_total']:,.0f}; within {largest} min: {s['population_by_band'][largest]:,.0f}; "
-              f"beyond: {s['population_beyond']:,.0f}; weighted mean {s['population_weighted_minutes']:.1f} min")
+              f"beyond: {s['population_beyond']:,.0f}; weighted mean {s['mean_hub_minutes']:.1f} min")
     print(f"outputs: {args.output} (hub_minutes.tif, nearest_hub.tif, reach.gpkg, summary.json)")
     print(s["caution"])
     return 0

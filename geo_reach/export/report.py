@@ -407,7 +407,7 @@ def _weak_table(study, a) -> Html | None:
         return None
     w = _weak_rows(a)
     thr = getattr(getattr(study, "surface", None), "threshold", None)
-    mean_col = next((c for c in ("mean_hub_minutes", "mean_minutes") if c in w.columns), None)
+    mean_col = "mean_hub_minutes" if "mean_hub_minutes" in w.columns else None
     behind = "people_behind_edge" if "people_behind_edge" in w.columns else None
     head = [_head_cell("Rank", "rank"), _head_cell("Why weak", "reason", text=True), _head_cell("People", "population", "people"),
             _head_cell("Area", "area_km2", "km²")]

@@ -13,7 +13,7 @@ import numpy as np
 
 from ..errors import InputError, LayerError, MissingInputError, where
 from ..ingest.layers import exists, list_layers, read_frame
-from .model import EDGE_FIELDS, Network
+from .model import EDGE_FIELDS, NODE_FIELDS, OLD_NODE_FIELDS, Network
 from .weights import Weight, as_weight
 
 __all__ = ["read_network"]
@@ -22,7 +22,7 @@ __all__ = ["read_network"]
 _NUMERIC = ("length_m", "minutes", "latency_ms")
 
 
-def read_network(path, weight: Weight | str | None = None) -> Network:
+def read_network(path, weight: Weight | str | None = None, notes: list | None = None) -> Network:
     """Read a built network and, when ``weight`` is given, check it can be routed on it.
 
     Parameters
@@ -31,6 +31,10 @@ def read_network(path, weight: Weight | str | None = None) -> Network:
         A GeoPackage with layers ``edges`` and ``nodes`` (from ``geo-reach build``).
     weight : Weight or str, optional
         The routing weight; its field must exist and hold at least one value.
+    notes : list, optional
+        What was read compatibly is appended here, one line each (a network
+        written by an earlier version names the nodes' ``joinable`` flag
+        ``entry``: it is read as ``joinable`` and said so).
 
     Returns
     -------
@@ -60,6 +64,12 @@ def read_network(path, weight: Weight | str | None = None) -> Network:
     if len(nodes) == 0 and len(edges) > 0:
         raise LayerError(f"{where(path, 'nodes')}the layer is empty but 'edges' has {len(edges)} features; "
                          "rebuild the network with geo-reach build")
+    for old, new in OLD_NODE_FIELDS.items():
+        if old in nodes.columns and new not in nodes.columns:
+            nodes = nodes.rename(columns={old: new})
+            if notes is not None:
+                notes.append(f"{where(path, 'nodes', field=old)}read as '{new}' (earlier versions' name for the "
+                             "same flag); rebuild the network with geo-reach build to write today's name")
     if len(edges) == 0:
         raise LayerError(f"{where(path, 'edges')}the layer is empty: there is no network to route on; "
                          "rebuild it from line layers with geo-reach build")
@@ -92,3 +102,4 @@ def read_network(path, weight: Weight | str | None = None) -> Network:
 
 
 assert set(_NUMERIC) <= set(EDGE_FIELDS)
+assert set(OLD_NODE_FIELDS.values()) <= set(NODE_FIELDS)

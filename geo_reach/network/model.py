@@ -34,13 +34,18 @@ from pyproj import CRS
 from ..errors import InputError
 from .weights import Weight, as_weight
 
-__all__ = ["Network", "Adjacency", "EDGE_FIELDS", "NODE_FIELDS"]
+__all__ = ["Network", "Adjacency", "EDGE_FIELDS", "NODE_FIELDS", "JOINABLE", "OLD_NODE_FIELDS"]
 
 #: Fields of the ``edges`` layer, in order (extra columns follow).
 EDGE_FIELDS = ("edge_id", "from_node", "to_node", "mode", "length_m", "minutes",
                "latency_ms", "oneway", "src_layer", "src_fid")
+#: The nodes layer's flag: 1 where a trip from off the network may join it at the node (the glossary's name).
+JOINABLE = "joinable"
 #: Fields of the ``nodes`` layer, in order.
-NODE_FIELDS = ("node_id", "degree", "component", "entry")
+NODE_FIELDS = ("node_id", "degree", "component", JOINABLE)
+#: Node fields written under another name by earlier versions -> today's name (read compatibly, and
+#: reported by :func:`geo_reach.network.io.read_network`).
+OLD_NODE_FIELDS = {"entry": JOINABLE}
 
 
 @dataclass(frozen=True)
@@ -76,6 +81,14 @@ class Adjacency:
         return out
 
 
+def _joinable(nodes) -> np.ndarray:
+    """The nodes' joinable flag (under an earlier version's name if need be); all joinable when absent."""
+    for name in (JOINABLE, *(old for old, new in OLD_NODE_FIELDS.items() if new == JOINABLE)):
+        if name in nodes.columns:
+            return nodes[name].to_numpy() == 1
+    return np.ones(len(nodes), bool)
+
+
 @dataclass(frozen=True, eq=False)
 class Network:
     """A routable network in one metric working CRS.
@@ -87,8 +100,9 @@ class Network:
     node_x, node_y : ndarray of float64, shape (n_nodes,)
         Node coordinates in the working CRS, metres.
     node_entry : ndarray of bool, shape (n_nodes,)
-        Whether a trip from off the network may enter at this node (road
-        nodes, rail stations, cable access nodes).
+        Whether a trip from off the network may join it at this node (road
+        nodes, rail stations, cable access nodes); the nodes layer's
+        ``joinable`` field.
     edge_from, edge_to : ndarray of int64, shape (n_edges,)
     edge_geometry : ndarray of shapely LineString, shape (n_edges,)
         Oriented from ``edge_from`` to ``edge_to``; every source vertex kept.
@@ -272,7 +286,7 @@ class Network:
             "node_id": np.arange(self.n_nodes, dtype=np.int64),
             "degree": self.degree,
             "component": self.component,
-            "entry": self.node_entry.astype(np.int32),
+            JOINABLE: self.node_entry.astype(np.int32),
         })
         return gpd.GeoDataFrame(data, geometry=shapely.points(self.node_x, self.node_y), crs=self.crs)
 
@@ -317,7 +331,7 @@ class Network:
         return cls(
             crs=CRS.from_user_input(edges.crs) if edges.crs is not None else None,
             node_x=xy[:, 0].copy(), node_y=xy[:, 1].copy(),
-            node_entry=(nodes["entry"].to_numpy() == 1) if "entry" in nodes else np.ones(len(nodes), bool),
+            node_entry=_joinable(nodes),
             edge_from=pos[0].astype(np.int64), edge_to=pos[1].astype(np.int64),
             edge_geometry=geom,
             edge_length_m=length,

@@ -52,7 +52,8 @@ def build_or_read(study: Study, specs) -> BuildResult:
     from ..network.io import read_network
 
     path = study.resolve(study.prebuilt)
-    net = read_network(path, study.routing.weight)
+    notes: list[str] = []
+    net = read_network(path, study.routing.weight, notes)
     issues = read_frame(path, "network_issues") if "network_issues" in list_layers(path) else None
     if issues is None:
         issues = gpd.GeoDataFrame({"kind": [], "detail": [], "src_layer": [], "src_fid": []}, geometry=[], crs=net.crs)
@@ -60,7 +61,8 @@ def build_or_read(study: Study, specs) -> BuildResult:
     report = {"nodes": net.n_nodes, "edges": net.n_edges, "components": net.n_components,
               "largest_component_nodes": int((net.component == 0).sum()) if net.n_nodes else 0,
               "input_length_m": None, "network_length_m": float(net.edge_length_m.sum()),
-              "issues": {k: int(v) for k, v in kinds.items()}, "crs": net.crs.to_string() if net.crs else None}
+              "issues": {k: int(v) for k, v in kinds.items()}, "crs": net.crs.to_string() if net.crs else None,
+              "notes": notes}
     return BuildResult(net, issues.reset_index(drop=True), report)
 
 

@@ -35,7 +35,15 @@ def _pop_dict(ps):
         return None
     return {"population_total": ps.population_total, "population_by_band": ps.population_by_band,
             "population_beyond": ps.population_beyond, "population_unreachable": ps.population_unreachable,
-            "population_weighted_minutes": ps.population_weighted_minutes}
+            "mean_hub_minutes": ps.population_weighted_minutes}
+
+
+def _growth(g) -> dict | str:
+    """The reach profile's growth class under the glossary's names."""
+    if not hasattr(g, "__dict__"):
+        return str(g)
+    return {"kind": g.kind, "exponent": g.exponent, "rate": g.rate, "points": g.points,
+            "fit_error_polynomial": g.rss_power, "fit_error_exponential": g.rss_exponential}
 
 
 def summarise(study: Study, a: Analysis) -> dict:
@@ -51,22 +59,23 @@ def summarise(study: Study, a: Analysis) -> dict:
             "sources": len(a.profile.sources),
             "steps": [{"cost": float(c), "nodes": float(n), "length_m": float(l)}
                       for c, n, l in zip(a.profile.cost, a.profile.nodes, a.profile.length_m)],
-            "growth": {k: v for k, v in g.__dict__.items()} if hasattr(g, "__dict__") else str(g),
+            "growth": _growth(g),
         }
     if a.hub_table is not None:
         out["hubs"] = {"count": int(len(a.hub_table)), "joined": int(a.hub_table["joined"].sum()),
-                       "index_to_hub_id": {str(i + 1): str(h) for i, h in enumerate(a.hubs.ids)}}
+                       "hub_numbers": {str(i + 1): str(h) for i, h in enumerate(a.hubs.ids)}}
     if a.surface is not None:
         g = a.grid
         out["surface"] = {"cell_m": g.cell_m, "width": g.width, "height": g.height,
-                          "clipped_slopes": a.surface.clipped_slopes, "seed_cells": a.surface.seed_cells,
+                          "clipped_slopes": a.surface.clipped_slopes, "join_cells": a.surface.seed_cells,
                           "impassable_cells": a.surface.impassable_cells}
         out.update(_pop_dict(a.pop_stats) or {})
         if a.kind_pop_stats:
             out["by_kind"] = {k: _pop_dict(v) for k, v in a.kind_pop_stats.items()}
         if a.rai is not None:
-            out["rural_access_index"] = {k: v for k, v in a.rai.__dict__.items()
-                                         if isinstance(v, (int, float, str))}
+            r = a.rai        # shares in % as everywhere a planner reads them (glossary: share_pct)
+            out["rural_access_index"] = {"share_pct": 100.0 * r.share, "population_within": r.population_within,
+                                         "population_total": r.population_total, "distance_m": r.distance_m}
         if a.weak is not None:
             top = a.weak.head(5)
             out["weak_regions"] = [{"rank": int(row["rank"]), "reason": row["reason"],

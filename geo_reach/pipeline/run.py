@@ -129,7 +129,7 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
         if scen.rings is not None:
             results[n]["layers"]["reach_rings"] = scen.rings
         results[n]["tables"] = change_tables(study, base, scen)   # per settlement and zone, each hub kind
-        results[n]["proposal_notes"] = scen.notes + [
+        results[n]["notes"] = scen.notes + [
             f"{k} of {v} issue spots in the scenario network" for k, v in scen.build.report["issues"].items()
             if v and v != base.build.report["issues"].get(k)]
         timing[f"scenario_{n}_s"] = round(time.perf_counter() - t1, 3)
@@ -183,7 +183,7 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=None) -> dict
                "population_by_band": base.get("population_by_band"),
                "population_beyond": base.get("population_beyond"),
                "population_unreachable": base.get("population_unreachable"),
-               "population_weighted_minutes": base.get("population_weighted_minutes"),
+               "mean_hub_minutes": base.get("mean_hub_minutes"),
                **{k: v for k, v in base.items() if not k.startswith("population_")},
                "study": study.raw}
     bar("writing outputs")

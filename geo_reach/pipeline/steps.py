@@ -128,6 +128,7 @@ def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profi
     routing = study.routing
     w = routing.weight
     out = Analysis(build=res, hubs=hubs, weight=w)
+    out.notes += list(res.report.get("notes", ()))      # what a prebuilt network file needed read compatibly
     walks = hubs is not None and ("access" in steps or "surface" in steps)
     if walks and rasters is None and has_friction(study):
         step("reading rasters")

@@ -113,8 +113,8 @@ def weak():
         geoms.append(shapely.box(*xy(cx, cy), *xy(cx + 0.5, cy + 0.5)))
     edge_id = [k if r == "single_link" else None for k, r in enumerate(reasons)]
     return gpd.GeoDataFrame({"rank": np.arange(1, n + 1), "reason": reasons, "population": pop,
-                             "area_km2": np.full(n, 0.25), "mean_minutes": np.linspace(70, 130, n),
-                             "entry_x": np.full(n, 4.8e5), "edge_id": edge_id}, geometry=geoms, crs=CRS)
+                             "area_km2": np.full(n, 0.25), "mean_hub_minutes": np.linspace(70, 130, n),
+                             "join_x": np.full(n, 4.8e5), "edge_id": edge_id}, geometry=geoms, crs=CRS)
 
 
 def diameter():

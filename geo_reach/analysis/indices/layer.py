@@ -202,12 +202,14 @@ def index_layer(network, settlements, hubs, measure: str, *, within=None, weight
     layer : geopandas.GeoDataFrame
         Point layer in the network's CRS: ``settlement_id``, ``kind`` (when
         the hubs have kinds), ``measure``, ``index``, ``hubs_within``,
-        ``nearest_<weight>`` (``nearest_minutes`` by default), ``reason``.
+        ``hub_<weight>`` (``hub_minutes`` by default, ``hub_length_m``: the
+        cheapest trip to the nearest hub of the kind, unbounded), ``reason``.
     hub_layer : geopandas.GeoDataFrame
         The ``hub_catchments`` layer, one row per hub: ``hub_id``, ``kind``
-        (when kinds are given), ``capacity``, ``attached``,
-        ``settlements_within`` (settlements within T), ``ratio`` (the
-        catchment measures' supply-to-demand ratio R_j, else NaN).
+        (when kinds are given), ``capacity``, ``joined`` (1 where the hub
+        joins the network), ``settlements_within`` (settlements within T),
+        ``capacity_per_person`` (the catchment measures' supply-to-demand
+        ratio R_j, else NaN).  Names from :mod:`geo_reach.glossary`.
     notes : list of str
         Hubs left out (too far from the network), settlements reaching none.
 
@@ -252,14 +254,14 @@ def index_layer(network, settlements, hubs, measure: str, *, within=None, weight
         if kind is not None:
             data["kind"] = np.full(len(settlements.ids), kind, dtype=object)
         data.update({"measure": np.full(len(settlements.ids), measure, dtype=object), "index": res.index,
-                     "hubs_within": res.hubs_within, f"nearest_{weight}": res.nearest, "reason": res.reason})
+                     "hubs_within": res.hubs_within, f"hub_{weight}": res.nearest, "reason": res.reason})
         frames.append(pd.DataFrame(data))
         hub = {"hub_id": hubs.ids[members]}
         if kind is not None:
             hub["kind"] = hubs.kinds[members]
-        hub.update({"capacity": hubs.values[members], "attached": tc.hub_attached.astype(np.int32),
+        hub.update({"capacity": hubs.values[members], "joined": tc.hub_attached.astype(np.int32),
                     "settlements_within": np.bincount(tc.hub, minlength=len(members)).astype(np.int64),
-                    "ratio": res.ratio if res.ratio is not None else np.full(len(members), np.nan)})
+                    "capacity_per_person": res.ratio if res.ratio is not None else np.full(len(members), np.nan)})
         tables.append(gpd.GeoDataFrame(pd.DataFrame(hub), geometry=shapely.points(hubs.xy[members]),
                                        crs=network.crs))
         left = np.nonzero(~tc.hub_attached)[0]

@@ -378,7 +378,7 @@ class _Builder:
             styles = [{"c": P.reason_colour(r), "w": 2.5, "fo": 0} for r in present]
             gpop = _fnum(g, "population")
             titles = [f"Weak region {int(k)}: {_reason_label(r, wt)}" for k, r in zip(g["rank"], rs)]
-            cols = {"title": titles, "people": _num(gpop, 0), "mean": _num(_fnum(g, "mean_minutes"), 1),
+            cols = {"title": titles, "people": _num(gpop, 0), "mean": _num(_fnum(g, "mean_hub_minutes"), 1),
                     "area": _num(_fnum(g, "area_km2"), 1), "rank": [int(k) for k in g["rank"]],
                     "link": [("behind one link, marked with this number" if r == "single_link" else None)
                              for r in rs]}

@@ -2,7 +2,7 @@
 
 Every layer is a GeoDataFrame in any CRS (each must have one) or ``None``.
 The fields each layer is read for are listed below; any other field is
-ignored (raw fields such as ``src_fid`` or ``entry_x`` stay in the
+ignored (raw fields such as ``src_fid`` or ``join_x`` stay in the
 GeoPackage and never reach the page).  Every text taken from a layer, and
 the title, scenario names and descriptions, travel to the page as JSON data
 and are put on screen as text nodes: none is ever markup or template source.
@@ -34,7 +34,7 @@ FIELDS = {
     "settlements": (("minutes",), ("name", "population", "hub_name", "network_km")),
     "districts": (("share_beyond",), ("name", "population", "mean_minutes")),
     "water": ((), ("name", "kind")),
-    "weak": (("rank", "reason"), ("population", "mean_minutes", "area_km2", "edge_id")),
+    "weak": (("rank", "reason"), ("population", "mean_hub_minutes", "area_km2", "edge_id")),
     "diameter": (("cost",), ("length_m", "minutes")),
     "issues": (("kind",), ("detail",)),
     "change": (("delta",), ("before", "after", "mode", "name", "length_m")),
@@ -164,7 +164,7 @@ class MapInput:
     weak : GeoDataFrame of polygons, optional
         Weak regions: ``rank`` (1 = most people), ``reason``
         (``beyond_threshold``, ``single_link``, ``no_hub``), ``population``,
-        ``mean_minutes``, ``area_km2``, ``edge_id`` (the one link a
+        ``mean_hub_minutes``, ``area_km2``, ``edge_id`` (the one link a
         ``single_link`` region depends on: an ``edge_id`` of ``network.edges``).
     diameter : GeoDataFrame of lines, optional
         The longest shortest trip: ``cost`` (cost unit), ``length_m``, ``minutes``.
