@@ -134,7 +134,7 @@ def unit_of(name: str) -> str:
 def round_rule(name: str) -> int | None:
     """Decimals a column is printed with (None: not a rounded figure).
 
-    Minutes and kilometres 0.1, percent 0.1, people whole numbers (common
+    Minutes and kilometres 0.1, percent 0.1, people whole numbers, costs in the routing weight's unit 0.001 (common
     practice in access reports).
     """
     unit = unit_of(name)
@@ -142,6 +142,8 @@ def round_rule(name: str) -> int | None:
         return 1
     if unit in ("people", "person-minutes", "m"):
         return 0
+    if unit == "weight unit":     # metres, links or milliseconds: kept to the thousandth (a latency is small)
+        return 3
     return None
 
 
@@ -216,6 +218,8 @@ def settlement_table(a, study) -> pd.DataFrame | None:
         out["network_length_km"] = _floats(metres) / 1000.0
     elif km is not None:
         out["network_length_km"] = _floats(km)
+    if "hub_cost" in layer.columns:        # a study routed on a weight other than minutes: its own cost too
+        out["hub_cost"] = _floats(layer["hub_cost"])
     for kind in _kinds(a):
         al = _kind_aliases(kind)
         mins = _pick(layer, al["hub_minutes"])
