@@ -36,7 +36,7 @@ WEIGHTS = ("minutes", "length_m", "hops", "latency_ms")
 #: The weight's unit as the summary and console give it, and as the map shows it (length in km on the map).
 UNIT = {"minutes": "min", "length_m": "m", "hops": "links", "latency_ms": "ms"}
 UNIT_NAME = {"minutes": "minutes", "length_m": "metres", "hops": "links", "latency_ms": "milliseconds"}
-MAP_UNIT = {"minutes": ("min", 1.0), "length_m": ("km", 1e-3), "hops": ("hops", 1.0), "latency_ms": ("ms", 1.0)}
+MAP_UNIT = {"minutes": ("min", 1.0), "length_m": ("km", 1e-3), "hops": ("links", 1.0), "latency_ms": ("ms", 1.0)}
 #: A second scenario that speeds some roads up: it saves minutes but not one metre, so the weights rank apart.
 UPGRADE = """
 [scenarios.faster_trunk]
@@ -220,11 +220,23 @@ def test_the_map_shows_network_costs_in_the_weights_unit(run):
     hc = drawn["hub_cost"].to_numpy(float) * scale
     # no "no route" on a link whose cheaper end reaches a hub, and the same costs (rounded as shown)
     assert sum(v is None for v in shown) == int((~np.isfinite(hc)).sum())
-    digits = 0 if unit in ("hops", "m") else 1
+    digits = 0 if unit in ("links", "m") else 1
     assert sorted(v for v in shown if v is not None) == pytest.approx(
         sorted(np.round(hc[np.isfinite(hc)], digits)), abs=10.0 ** -digits)
     popup = lay["popup"]["rows"][0]
     assert popup[2]["u"] == unit
+    # the settlements show their own cost on the weight beside their minutes (a weight other than minutes)
+    sl = next(x for x in d["layers"] if x["group"] == "settlements" and x["view"] == "today")
+    if w == "minutes":
+        assert "cost" not in sl["cols"]
+    else:
+        sc = layer(run, "settlements")["hub_cost"].to_numpy(float) * scale
+        got = col(sl, "cost")
+        assert sum(v is None for v in got) == int((~np.isfinite(sc)).sum())
+        assert sorted(v for v in got if v is not None) == pytest.approx(
+            sorted(np.round(sc[np.isfinite(sc)], digits)), abs=10.0 ** -digits)
+        row = next(r for r in sl["popup"]["rows"] if r[1] == "cost")
+        assert row[2]["u"] == unit
     # the change layer's legend and values are in the same unit
     ch = next(g for g in d["groups"] if g["id"] == "change")
     assert all(e["t"].split(" (")[0].endswith(unit) for e in ch["legend"] if e.get("fam") != "none")

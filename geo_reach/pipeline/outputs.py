@@ -194,9 +194,10 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     write_summary(folder, summary)
 
 
-#: How each routing weight is shown on the map: unit label, what it is, scale from the weight's unit.
+#: How each routing weight is shown on the map: unit label, what it is, scale from the weight's unit
+#: (the weight's own unit, as in the summary and on the console, but lengths in km).
 _MAP_COSTS = {"minutes": ("min", "minutes", 1.0), "length_m": ("km", "distance", 1e-3),
-              "hops": ("hops", "hops", 1.0), "latency_ms": ("ms", "latency", 1.0)}
+              "hops": ("links", "links", 1.0), "latency_ms": ("ms", "latency", 1.0)}
 
 
 def _write_map(path, study, base, scenarios):
@@ -220,12 +221,14 @@ def _write_map(path, study, base, scenarios):
         col = lambda c: frame[f"{c}{suffix}"] if f"{c}{suffix}" in frame.columns else (  # noqa: E731
             frame[c] if c in frame.columns else None)
         minutes, hub, length = col("hub_minutes"), col("nearest_hub_name"), col("network_length_m")
+        cost = col("hub_cost")
+        extra = {"cost": cost.to_numpy(float) * scale} if cost is not None else {}
         return gpd.GeoDataFrame({
             "name": frame["name"].to_numpy(object) if "name" in frame.columns else None,
             "population": frame["population"].to_numpy(float) if "population" in frame.columns else np.nan,
             "minutes": minutes.to_numpy(float),
             "hub_name": hub.to_numpy(object) if hub is not None else None,
-            "network_km": length.to_numpy(float) / 1000.0 if length is not None else np.nan,
+            "network_km": length.to_numpy(float) / 1000.0 if length is not None else np.nan, **extra,
         }, geometry=frame.geometry.values, crs=frame.crs)
 
     districts = None

@@ -85,7 +85,7 @@ def _fnum(frame, name):
 
 
 def _digits(unit: str) -> int:
-    return 0 if unit in ("hops", "m") else 1
+    return 0 if unit in ("hops", "links", "m") else 1
 
 
 def _fmt(unit="", digits=1, none=None, sign=False, pct=False) -> dict:
@@ -260,6 +260,15 @@ class _Builder:
                                              self.minutes_note) if x))
         styles = [{"fc": c.colour, "c": P.OUTLINE, "w": 1} for c in self.travel]
         styles.append({"fc": P.NO_VALUE, "c": P.OUTLINE, "w": 1})
+        # the routing weight's own cost, when given (a weight other than minutes)
+        has_cost = any("cost" in s.columns for _, s in views)
+        d = _digits(self.unit)
+        cost_row = ([[f"{m.cost_name.capitalize()} to the nearest hub", "cost",
+                      _fmt(self.unit, d, none="no hub reachable")]] if has_cost else [])
+
+        def cost_col(f):
+            return {"cost": _num(_fnum(f, "cost"), d)} if has_cost else {}
+
         for view, s in views:
             f = self.frame(f"settlements.{view}", s)
             mins = _fnum(f, "minutes")
@@ -271,12 +280,12 @@ class _Builder:
                      styles=styles, size=size, order=order, label="name", tip="name",
                      cols={"name": _text(_col(f, "name", None), 80), "people": _num(pop, 0),
                            "min": _num(mins, 1), "hub": _text(_col(f, "hub_name", None), 80),
-                           "km": _num(_fnum(f, "network_km"), 1)},
+                           "km": _num(_fnum(f, "network_km"), 1), **cost_col(f)},
                      popup={"head": "Settlement", "title": "name",
                             "rows": [["People", "people", _fmt(digits=0)],
                                      ["Minutes to the nearest hub", "min", _fmt("min", 1, none="no hub reachable")],
                                      ["Nearest hub", "hub", _fmt(digits=0)],
-                                     ["Along the network", "km", _fmt("km", 1)]]})
+                                     ["Along the network", "km", _fmt("km", 1)], *cost_row]})
 
     def network(self):
         m = self.m
