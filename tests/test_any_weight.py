@@ -319,6 +319,32 @@ def test_the_ranking_orders_by_the_weights_own_change(run):
     assert "person-" + UNIT_NAME[w] + " saved" in run["stdout"]
 
 
+def read_table(run, name):
+    import pandas as pd
+
+    return pd.read_csv(run["out"] / f"{name}.csv", skiprows=1)     # line 1 is the caution
+
+
+def test_the_tables_carry_the_weights_cost(run):
+    """settlements.csv and the scenario table give hub_cost (rounded to 0.001) when the weight is not minutes."""
+    w = run["weight"]
+    t = read_table(run, "settlements")
+    st = layer(run, "settlements")
+    assert t["hub_minutes"].to_numpy(float) == pytest.approx(np.round(st["hub_minutes"].to_numpy(float), 1),
+                                                             abs=1e-9, nan_ok=True)
+    ch = read_table(run, "proposed_road_settlements")
+    if w == "minutes":
+        assert "hub_cost" not in t.columns and "hub_cost_change" not in ch.columns
+        return
+    assert t["hub_cost"].to_numpy(float) == pytest.approx(np.round(st["hub_cost"].to_numpy(float), 3),
+                                                          abs=1e-9, nan_ok=True)
+    anyk = ch[ch["hub_kind"] == "any"]
+    lay = layer(run, "proposed_road_settlements")
+    for c in ("hub_cost_before", "hub_cost_after", "hub_cost_change"):
+        assert anyk[c].to_numpy(float) == pytest.approx(np.round(lay[c].to_numpy(float), 3), abs=2e-3, nan_ok=True)
+    assert ch.loc[ch["hub_kind"] != "any", "hub_cost_change"].isna().all()
+
+
 def test_bands_stay_minutes_and_the_summary_says_so(run):
     w, s = run["weight"], run["summary"]
     bands = layer(run, "reach_bands")
