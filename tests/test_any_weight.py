@@ -387,3 +387,44 @@ def test_cables_carry_latency_at_the_fibre_signal_speed_and_count_on_latency(run
     assert np.array_equal(np.isfinite(nodes["hub_cost"].to_numpy(float)), on_cable)
     # and the map draws the roads as "not used for latency", not as "no route"
     assert "not used for latency" in legend
+
+
+def test_the_report_ranks_with_the_weights_figure(run):
+    w = run["weight"]
+    html = (run["out"] / "report.html").read_text(encoding="utf-8")
+    head = f"Person-{UNIT_NAME[w]} saved"
+    if w == "minutes":
+        assert "Person-minutes saved" in html and "person_cost_saved" not in html
+    else:
+        assert head in html and "person_cost_saved" in html
+
+
+# ---------------------------------------------------------------- the ranking rule alone (hand-made figures)
+def _scenario(saved_cost=None, pm=0.0, km=0.0, newly=0.0, cut=0.0):
+    r = {"person_minutes_saved": pm, "new_or_upgraded_km": km, "people_newly_within": {"120": newly},
+         "people_cut_off": {"total": cut, "by_kind": {}}}
+    if saved_cost is not None:
+        r["person_cost_saved"] = saved_cost
+    return r
+
+
+def test_rank_scenarios_orders_by_the_weights_change_per_km_and_puts_cut_offs_last():
+    from geo_reach.network.weights import LENGTH_M, MINUTES
+    from geo_reach.pipeline.scenarios import rank_scenarios
+
+    res = {"bridge": _scenario(saved_cost=5e6, pm=10.0, km=1.0, newly=0.0),        # 5e6 per km
+           "bypass": _scenario(saved_cost=2e7, pm=9e6, km=10.0, newly=900.0),      # 2e6 per km, most minutes
+           "clinic": _scenario(saved_cost=3e6, pm=5e5),                            # no line: saved alone
+           "closure": _scenario(saved_cost=9e9, pm=0.0, cut=40.0)}                 # cuts people off: last
+    by_len = [r["scenario"] for r in rank_scenarios(res, "120", LENGTH_M)]
+    assert by_len == ["bridge", "bypass", "clinic", "closure"]
+    by_min = [r["scenario"] for r in rank_scenarios(res, "120", MINUTES)]
+    assert by_min[0] == "bypass" and by_min[-1] == "closure"          # minutes: newly within the band first
+    rows = rank_scenarios(res, "120", LENGTH_M)
+    assert rows[0]["person_cost_saved_per_km"] == pytest.approx(5e6) and rows[0]["person_cost_unit"] == "person-metres"
+    assert "ranked after every scenario that cuts nobody off" in rows[-1]["ranked_by"]
+    # without settlements there is no figure on the weight: minutes rank, and the ranking says so
+    bare = {k: {kk: vv for kk, vv in v.items() if kk != "person_cost_saved"} for k, v in res.items()}
+    rows = rank_scenarios(bare, "120", LENGTH_M)
+    assert [r["scenario"] for r in rows] == by_min
+    assert all("no settlements" in r["ranked_by"] and "travel time ranks instead" in r["ranked_by"] for r in rows)
