@@ -166,6 +166,18 @@ def test_node_and_edge_hub_costs_are_in_the_weights_unit(run):
         assert all(abs(c - 1.0) < 1e-12 for _, _, c in A)
 
 
+def test_the_geopackage_says_which_unit_its_costs_are_in(run):
+    import sqlite3
+
+    w = run["weight"]
+    with sqlite3.connect(run["out"] / "results.gpkg") as db:
+        desc = dict(db.execute("select table_name, description from gpkg_contents").fetchall())
+    for name in ("edges", "nodes", "proposed_road_edge_change", "diameter_path"):
+        assert f"in {UNIT_NAME[w]} ({UNIT[w]}): routing weight {w}" in desc[name], desc[name]
+        assert desc[name].endswith("licensed professional practice decide health, emergency and investment choices.")
+    assert "routing weight" not in desc["reach_bands"]      # bands are minutes on every weight
+
+
 def test_settlements_keep_minutes_and_carry_the_weights_cost(run):
     w = run["weight"]
     st = layer(run, "settlements")

@@ -20,7 +20,26 @@ from ..study import Study
 from .scenarios import edges_layer
 from .steps import Analysis
 
-__all__ = ["summarise", "write_outputs", "write_surface_outputs", "write_summary", "sha256", "nodes_layer"]
+__all__ = ["summarise", "write_outputs", "write_surface_outputs", "write_summary", "sha256", "nodes_layer",
+           "layer_descriptions"]
+
+
+def layer_descriptions(layers: dict, weight) -> dict:
+    """Each layer's description: the caution, and for a layer with costs on the routing weight, its unit.
+
+    ``hub_cost`` fields (and their ``_before``/``_after``/``_change``) are in
+    the weight's unit; the description names it, so the GeoPackage says
+    what its numbers count (:mod:`geo_reach.glossary`).
+    """
+    out = {}
+    for name, frame in layers.items():
+        text = CAUTION
+        if weight is not None and any(str(c).startswith(("hub_cost", "eccentricity", "path_cost"))
+                                      for c in getattr(frame, "columns", [])):
+            text = (f"Costs (hub_cost, eccentricity, path_cost) in {weight.unit_name} ({weight.unit}): routing "
+                    f"weight {weight.name}, {weight.describes}; hub_minutes are always minutes. {CAUTION}")
+        out[name] = text
+    return out
 
 
 def nodes_layer(a: Analysis):
@@ -151,7 +170,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
                 layers[f"{name}_{lname}"] = frame
         gpkg = folder / "comparison.gpkg"
         if layers:
-            write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
+            write_layers(gpkg, layers, descriptions=layer_descriptions(layers, base.weight))
             write_styles(gpkg, layers, cost_unit=base.weight.unit)
         _write_deltas(folder, base, scenarios)
         _write_tables(folder, study, base, scenarios, baseline=False)
@@ -178,7 +197,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
         for lname, frame in sc["layers"].items():
             layers[f"{name}_{lname}"] = frame
     gpkg = folder / "results.gpkg"
-    write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
+    write_layers(gpkg, layers, descriptions=layer_descriptions(layers, base.weight))
     write_styles(gpkg, layers, cost_unit=base.weight.unit)
     _write_tables(folder, study, base, scenarios)
     if base.surface is not None:
@@ -290,7 +309,7 @@ def write_surface_outputs(folder: Path, study: Study, a: Analysis, summary: dict
         layers["settlements"] = a.settlements
     if a.zones is not None:
         layers["zones"] = a.zones
-    write_layers(folder / "reach.gpkg", layers, descriptions={k: CAUTION for k in layers})
+    write_layers(folder / "reach.gpkg", layers, descriptions=layer_descriptions(layers, a.weight))
     write_styles(folder / "reach.gpkg", layers, cost_unit="min")
     _write_tables(folder, study, a)
     write_report(folder / "report.html", study, a, {}, summary)
