@@ -495,7 +495,8 @@ def _ranking_table(summary: dict) -> Html | None:
         what = s.get("description") or "; ".join(s.get("changes", []))
         cells = [el("td", str(r["rank"])), el("td", r["scenario"], cls="text"), el("td", what, cls="text")]
         if unit:
-            cells += [el("td", _people(r.get("person_cost_saved"))), el("td", _people(r.get("person_cost_saved_per_km")))]
+            cells += [el("td", _people(r.get("person_cost_saved"))),
+                      el("td", _people(r.get("person_cost_saved_per_km")))]
         cells += [el("td", _people(r.get("people_newly_within_largest_band"), sign=True)),
                   el("td", _people(r.get("person_minutes_saved"))),
                   el("td", _people(r.get("person_minutes_saved_per_km")))]

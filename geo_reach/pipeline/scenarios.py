@@ -13,6 +13,7 @@ import copy
 import numpy as np
 
 from ..errors import InputError
+from ..network.weights import MINUTES, as_weight
 from ..study import Study
 from .inputs import Hubs, layer_ref, layer_specs, merge_hubs, read_hubs
 from .steps import Analysis
@@ -313,8 +314,6 @@ def rank_scenarios(results: dict, largest_band: str, weight=None) -> list[dict]:
     not rank them.  Without settlements there is no such figure, and the
     minutes ranking is kept and says so.
     """
-    from ..network.weights import MINUTES, as_weight
-
     weight = MINUTES if weight is None else as_weight(weight)
     if weight is not MINUTES and all(r.get("person_cost_saved") is not None for r in results.values()) and results:
         return _rank_by_cost(results, weight, largest_band)
@@ -324,7 +323,7 @@ def rank_scenarios(results: dict, largest_band: str, weight=None) -> list[dict]:
         pm = r.get("person_minutes_saved", 0.0)
         km = r.get("new_or_upgraded_km", 0.0)
         cut = (r.get("people_cut_off") or {}).get("total", 0.0) or 0.0
-        cut_any = max([cut, *((r.get("people_cut_off") or {}).get("by_kind", {}) or {}).values()], default=0.0)
+        cut_any = _cut_any(r)
         per_km = pm / km if km > 0 else None
         why = ("person-minutes per km of new or upgraded line" if km > 0 else
                "person-minutes alone (no new or upgraded line)")
