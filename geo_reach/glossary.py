@@ -12,10 +12,11 @@ Rules the names follow:
   ``_ms``, ``_kmh``, ``_pct`` percent.  Lengths are always metres in layers
   (tables for people show km); areas are always km².
 * ``hub_minutes`` is the time of the trip between a place and its nearest
-  hub (the travel-time surface's unit, always minutes); ``hub_cost`` is the
-  same on the network layers, in the routing weight's unit (the layer
-  description names the weight).  ``minutes`` alone is an edge's own travel
-  time.
+  hub (the travel-time surface's unit, always minutes, whatever the routing
+  weight: reach bands, rings, zones and rasters are travel time); ``hub_cost``
+  is the same on the network layers (and on settlements when the weight is
+  not minutes), in the routing weight's unit (the layer description names
+  the weight).  ``minutes`` alone is an edge's own travel time.
 * A hub kind is a suffix: ``hub_minutes_clinic``, ``nearest_hub_clinic``.
 * Scenario layers add ``_before``, ``_after`` and ``_change`` (after minus
   before; negative = faster).
@@ -241,8 +242,10 @@ TERMS: tuple[Term, ...] = (
     _t("nearest_hub_<kind>", "Id of the nearest hub of that kind.", "", "nodes, settlements"),
     _t("nearest_hub_name", "Name of the nearest hub.", "", "settlements, tables"),
     _t("hub_cost", "Cost of the trip between this place and its nearest hub, in the routing weight's unit "
-                   "(see the layer description); empty where no hub is reachable.", "weight unit",
-       "nodes, edges (cheaper end)"),
+                   "(see the layer description); empty where no hub is reachable.  On settlements (only when the "
+                   "weight is not minutes) the trip is priced and its hub chosen on the weight, walk legs "
+                   "included: that hub may differ from nearest_hub, the nearest by minutes.", "weight unit",
+       "nodes, edges (cheaper end), settlements"),
     _t("hub_cost_<kind>", "hub_cost to the nearest hub of that kind.", "weight unit", "nodes"),
     _t("hub_minutes", "Minutes of the trip between this place and its nearest hub (of the row's kind in "
                       "access_index), walk to and from the network included; empty where no hub is reachable.",
@@ -339,6 +342,14 @@ TERMS: tuple[Term, ...] = (
                               "band, keyed by its minutes).", "people", "chosen_sites, summary scenarios"),
     _t("person_minutes_saved", "Sum over people of the minutes saved.", "person-minutes",
        "chosen_sites, summary scenarios and scenario_ranking"),
+    _t("person_cost_saved", "Sum over the settlements' people of the hub_cost saved (before minus after), for "
+                            "settlements with a hub before and after; given when the routing weight is not "
+                            "minutes, and the scenario ranking then orders by it.", "person-weight unit "
+                            "(see person_cost_unit)", "summary scenarios and scenario_ranking", "a study routed on a weight other than minutes"),
+    _t("person_cost_saved_per_km", "person_cost_saved per km of new or upgraded line.", "person-weight unit per km",
+       "scenario_ranking", "a study routed on a weight other than minutes"),
+    _t("person_cost_unit", "The unit of person_cost_saved: person-metres, person-links or person-milliseconds.", "",
+       "summary scenarios and scenario_ranking", "a study routed on a weight other than minutes"),
     # ---------------------------------------------------------------- tables
     _t("network_length_km", "network_length_m in kilometres, rounded to 0.1 km (the tables for people).", "km",
        "settlements.csv, tables.xlsx"),

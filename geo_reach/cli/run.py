@@ -83,6 +83,9 @@ def scenario_headline(s: dict, unit: str) -> str:
     newly = s.get("people_newly_within", {})
     if newly:
         parts.append("people newly within " + ", ".join(f"{k} min: {v:+,.0f}" for k, v in newly.items()))
+    if s.get("person_cost_saved") is not None:     # the routing weight's own change comes first
+        parts.append(f"{s.get('person_cost_unit', 'person-cost')} saved {s['person_cost_saved']:,.0f} "
+                     "(settlements, the ranking's figure)")
     parts.append(f"person-minutes saved {s.get('person_minutes_saved', 0):,.0f}")
     lc = s.get("largest_component") or {}
     if lc and not lc.get("same_places", True):

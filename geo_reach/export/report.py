@@ -484,16 +484,26 @@ def _ranking_table(summary: dict) -> Html | None:
             _head_cell("People newly within the largest band", "people_newly_within", "people"),
             _head_cell("Person-minutes saved", "person_minutes_saved", "person-minutes"),
             _head_cell("Per km of new or upgraded line", None, "person-minutes per km")]
+    # on a routing weight other than minutes the ranking orders by the weight's own change: shown first
+    unit = next((r["person_cost_unit"] for r in ranking if r.get("person_cost_unit")), None)
+    if unit:
+        head[3:3] = [_head_cell(f"{unit.capitalize()} saved", "person_cost_saved", unit),
+                     _head_cell("Per km of new or upgraded line", "person_cost_saved_per_km", f"{unit} per km")]
     rows = []
     for r in ranking:
         s = scen.get(r["scenario"], {})
         what = s.get("description") or "; ".join(s.get("changes", []))
-        rows.append(el("tr", el("td", str(r["rank"])), el("td", r["scenario"], cls="text"), el("td", what, cls="text"),
-                       el("td", _people(r.get("people_newly_within_largest_band"), sign=True)),
-                       el("td", _people(r.get("person_minutes_saved"))),
-                       el("td", _people(r.get("person_minutes_saved_per_km")))))
+        cells = [el("td", str(r["rank"])), el("td", r["scenario"], cls="text"), el("td", what, cls="text")]
+        if unit:
+            cells += [el("td", _people(r.get("person_cost_saved"))),
+                      el("td", _people(r.get("person_cost_saved_per_km")))]
+        cells += [el("td", _people(r.get("people_newly_within_largest_band"), sign=True)),
+                  el("td", _people(r.get("person_minutes_saved"))),
+                  el("td", _people(r.get("person_minutes_saved_per_km")))]
+        rows.append(el("tr", *cells))
     basis = sorted({r.get("ranked_by", "") for r in ranking} - {""})
-    note = el("p", "Ranked by people newly within the largest band, then by " + "; ".join(basis) + ".", cls="note")
+    first = "" if unit else "people newly within the largest band, then by "
+    note = el("p", "Ranked by " + first + "; ".join(basis) + ".", cls="note")
     return _join(el("table", el("thead", el("tr", *head)), el("tbody", *rows)), note)
 
 

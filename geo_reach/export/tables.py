@@ -14,14 +14,16 @@ Tables
     ``settlement_id``, ``name``, ``population``, ``hub_minutes``,
     ``nearest_hub``, ``nearest_hub_name``, ``network_length_km``, then for
     each hub kind ``hub_minutes_<kind>``, ``nearest_hub_<kind>``,
-    ``nearest_hub_name_<kind>``.
+    ``nearest_hub_name_<kind>``; ``hub_cost`` (the routing weight's unit)
+    when the study routes on a weight other than minutes.
 ``zones``
     ``zone_id``, ``name``, ``population``, ``share_within_<band>_pct`` per
     band, ``population_beyond``, ``mean_hub_minutes``.
 ``<scenario>_settlements``
     One row per settlement and hub kind (``hub_kind``: ``any`` then each
     kind): ``hub_minutes_before``/``_after``/``_change`` and the nearest
-    hub (id and name) before and after.
+    hub (id and name) before and after; ``hub_cost_before``/``_after``/
+    ``_change`` on the ``any`` rows when the weight is not minutes.
 ``<scenario>_zones``
     One row per district and hub kind: ``population``, then
     ``share_within_<band>_pct``, ``population_beyond`` and
@@ -134,7 +136,7 @@ def unit_of(name: str) -> str:
 def round_rule(name: str) -> int | None:
     """Decimals a column is printed with (None: not a rounded figure).
 
-    Minutes and kilometres 0.1, percent 0.1, people whole numbers (common
+    Minutes and kilometres 0.1, percent 0.1, people whole numbers, costs in the routing weight's unit 0.001 (common
     practice in access reports).
     """
     unit = unit_of(name)
@@ -142,6 +144,8 @@ def round_rule(name: str) -> int | None:
         return 1
     if unit in ("people", "person-minutes", "m"):
         return 0
+    if unit == "weight unit":     # metres, links or milliseconds: kept to the thousandth (a latency is small)
+        return 3
     return None
 
 
@@ -216,6 +220,8 @@ def settlement_table(a, study) -> pd.DataFrame | None:
         out["network_length_km"] = _floats(metres) / 1000.0
     elif km is not None:
         out["network_length_km"] = _floats(km)
+    if "hub_cost" in layer.columns:        # a study routed on a weight other than minutes: its own cost too
+        out["hub_cost"] = _floats(layer["hub_cost"])
     for kind in _kinds(a):
         al = _kind_aliases(kind)
         mins = _pick(layer, al["hub_minutes"])
@@ -321,6 +327,8 @@ def _settlements_long(a, study) -> pd.DataFrame | None:
         p["nearest_hub"] = t[f"nearest_hub{sfx}"]
         if f"nearest_hub_name{sfx}" in t.columns:
             p["nearest_hub_name"] = t[f"nearest_hub_name{sfx}"]
+        if "hub_cost" in t.columns:     # the routing weight's cost: to the nearest hub of any kind only
+            p["hub_cost"] = t["hub_cost"] if kind == ANY_KIND else np.nan
         parts.append(p)
     return pd.concat(parts, ignore_index=True)
 
@@ -353,6 +361,10 @@ def change_tables(study, base, scen) -> dict:
         t["hub_minutes_before"] = b["hub_minutes"].to_numpy()
         t["hub_minutes_after"] = s["hub_minutes"].to_numpy()
         t["hub_minutes_change"] = t["hub_minutes_after"] - t["hub_minutes_before"]
+        if "hub_cost" in b.columns and "hub_cost" in s.columns:
+            t["hub_cost_before"] = b["hub_cost"].to_numpy(float)
+            t["hub_cost_after"] = s["hub_cost"].to_numpy(float)
+            t["hub_cost_change"] = t["hub_cost_after"] - t["hub_cost_before"]
         for when, src in (("before", b), ("after", s)):
             t[f"nearest_hub_{when}"] = src["nearest_hub"].to_numpy()
             if "nearest_hub_name" in src.columns:

@@ -20,7 +20,26 @@ from ..study import Study
 from .scenarios import edges_layer
 from .steps import Analysis
 
-__all__ = ["summarise", "write_outputs", "write_surface_outputs", "write_summary", "sha256", "nodes_layer"]
+__all__ = ["summarise", "write_outputs", "write_surface_outputs", "write_summary", "sha256", "nodes_layer",
+           "layer_descriptions"]
+
+
+def layer_descriptions(layers: dict, weight) -> dict:
+    """Each layer's description: the caution, and for a layer with costs on the routing weight, its unit.
+
+    ``hub_cost`` fields (and their ``_before``/``_after``/``_change``) are in
+    the weight's unit; the description names it, so the GeoPackage says
+    what its numbers count (:mod:`geo_reach.glossary`).
+    """
+    out = {}
+    for name, frame in layers.items():
+        text = CAUTION
+        if weight is not None and any(str(c).startswith(("hub_cost", "eccentricity", "path_cost"))
+                                      for c in getattr(frame, "columns", [])):
+            text = (f"Costs (hub_cost, eccentricity, path_cost) in {weight.unit_name} ({weight.unit}): routing "
+                    f"weight {weight.name}, {weight.describes}; hub_minutes are always minutes. {CAUTION}")
+        out[name] = text
+    return out
 
 
 def nodes_layer(a: Analysis):
@@ -160,7 +179,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
                 layers[f"{name}_{lname}"] = frame
         gpkg = folder / "comparison.gpkg"
         if layers:
-            write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
+            write_layers(gpkg, layers, descriptions=layer_descriptions(layers, base.weight))
             write_styles(gpkg, layers, cost_unit=base.weight.unit)
         _write_deltas(folder, base, scenarios)
         _write_tables(folder, study, base, scenarios, baseline=False)
@@ -187,7 +206,7 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
         for lname, frame in sc["layers"].items():
             layers[f"{name}_{lname}"] = frame
     gpkg = folder / "results.gpkg"
-    write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
+    write_layers(gpkg, layers, descriptions=layer_descriptions(layers, base.weight))
     write_styles(gpkg, layers, cost_unit=base.weight.unit)
     _write_tables(folder, study, base, scenarios)
     if base.surface is not None:
@@ -203,9 +222,10 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
     write_summary(folder, summary)
 
 
-#: How each routing weight is shown on the map: unit label, what it is, scale from the weight's unit.
+#: How each routing weight is shown on the map: unit label, what it is, scale from the weight's unit
+#: (the weight's own unit, as in the summary and on the console, but lengths in km).
 _MAP_COSTS = {"minutes": ("min", "minutes", 1.0), "length_m": ("km", "distance", 1e-3),
-              "hops": ("hops", "hops", 1.0), "latency_ms": ("ms", "latency", 1.0)}
+              "hops": ("links", "links", 1.0), "latency_ms": ("ms", "latency", 1.0)}
 
 
 def _write_map(path, study, base, scenarios):
@@ -229,12 +249,14 @@ def _write_map(path, study, base, scenarios):
         col = lambda c: frame[f"{c}{suffix}"] if f"{c}{suffix}" in frame.columns else (  # noqa: E731
             frame[c] if c in frame.columns else None)
         minutes, hub, length = col("hub_minutes"), col("nearest_hub_name"), col("network_length_m")
+        cost = col("hub_cost")
+        extra = {"cost": cost.to_numpy(float) * scale} if cost is not None else {}
         return gpd.GeoDataFrame({
             "name": frame["name"].to_numpy(object) if "name" in frame.columns else None,
             "population": frame["population"].to_numpy(float) if "population" in frame.columns else np.nan,
             "minutes": minutes.to_numpy(float),
             "hub_name": hub.to_numpy(object) if hub is not None else None,
-            "network_km": length.to_numpy(float) / 1000.0 if length is not None else np.nan,
+            "network_km": length.to_numpy(float) / 1000.0 if length is not None else np.nan, **extra,
         }, geometry=frame.geometry.values, crs=frame.crs)
 
     districts = None
@@ -296,7 +318,7 @@ def write_surface_outputs(folder: Path, study: Study, a: Analysis, summary: dict
         layers["settlements"] = a.settlements
     if a.zones is not None:
         layers["zones"] = a.zones
-    write_layers(folder / "reach.gpkg", layers, descriptions={k: CAUTION for k in layers})
+    write_layers(folder / "reach.gpkg", layers, descriptions=layer_descriptions(layers, a.weight))
     write_styles(folder / "reach.gpkg", layers, cost_unit="min")
     _write_tables(folder, study, a)
     write_report(folder / "report.html", study, a, {}, summary)

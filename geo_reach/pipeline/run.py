@@ -147,7 +147,7 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
         summary["scenarios"] = {n: {k: v for k, v in r.items()
                                     if k not in ("layers", "delta", "edges", "node_cost", "tables")}
                                 for n, r in results.items()}
-        summary["scenario_ranking"] = rank_scenarios(summary["scenarios"], largest)
+        summary["scenario_ranking"] = rank_scenarios(summary["scenarios"], largest, study.routing.weight)
     bar("writing outputs")
     with atomic_dir(outdir) as tmp:
         timing["total_s"] = round(time.perf_counter() - t0, 3)

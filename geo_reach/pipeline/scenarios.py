@@ -13,6 +13,7 @@ import copy
 import numpy as np
 
 from ..errors import InputError
+from ..network.weights import MINUTES, as_weight
 from ..study import Study
 from .inputs import Hubs, layer_ref, layer_specs, merge_hubs, read_hubs
 from .steps import Analysis
@@ -178,9 +179,10 @@ def compare(study: Study, name: str, base: Analysis, scen: Analysis, changes, ki
     # per-settlement and per-zone change
     if base.settlements is not None and scen.settlements is not None:
         keep = [c for c in ("settlement_id", "name", "population") if c in base.settlements.columns]
-        compared = [c for c in base.settlements.columns if c.startswith("hub_minutes")
-                    or c.startswith("nearest_hub")]
+        compared = [c for c in base.settlements.columns if c.startswith(("hub_minutes", "hub_cost", "nearest_hub"))]
         out["layers"]["settlements"] = before_after(base.settlements, scen.settlements, keep, compared)
+        if "hub_cost" in base.settlements.columns:
+            out.update(_person_cost_saved(base, out["layers"]["settlements"]))
     if base.zones is not None and scen.zones is not None:
         keep = [c for c in ("zone_id", "name", "population") if c in base.zones.columns]
         compared = [c for c in base.zones.columns if c not in keep and c != "geometry"]
@@ -228,6 +230,22 @@ def before_after(base, scen, keep, compared):
         if np.issubdtype(np.asarray(b).dtype, np.number) and not c.startswith("nearest_hub"):
             data[f"{c}_change"] = np.asarray(a, float) - np.asarray(b, float)
     return gpd.GeoDataFrame(pd.DataFrame(data), geometry=base.geometry.values, crs=base.crs)
+
+
+def _person_cost_saved(base: Analysis, layer) -> dict:
+    """People times the routing weight's cost saved, over the settlements (``hub_cost`` before minus after).
+
+    Only settlements with a hub both before and after count: those cut off
+    are counted by ``people_cut_off``, those newly connected have no
+    "before" to save from.
+    """
+    b = layer["hub_cost_before"].to_numpy(float)
+    a = layer["hub_cost_after"].to_numpy(float)
+    pop = np.nan_to_num(layer["population"].to_numpy(float)) if "population" in layer.columns \
+        else np.ones(len(layer))
+    both = np.isfinite(a) & np.isfinite(b)
+    return {"person_cost_saved": float((pop[both] * (b[both] - a[both])).sum()),
+            "person_cost_unit": f"person-{base.weight.unit_name}"}
 
 
 def _people_cut_off(base: Analysis, scen: Analysis, pop) -> dict:
@@ -282,20 +300,30 @@ def _figure_changes(base: Analysis, scen: Analysis) -> dict:
     return out
 
 
-def rank_scenarios(results: dict, largest_band: str) -> list[dict]:
+def rank_scenarios(results: dict, largest_band: str, weight=None) -> list[dict]:
     """Rank: scenarios that cut nobody off first, by people newly within the largest band, then by
     person-minutes saved per km of new line; scenarios that cut people off last, fewest cut off first.
 
     Closures and hub-only changes have no new line: they are ranked by
     person-minutes saved alone, and the ranking says so.
+
+    With a routing weight other than minutes, the scenarios that cut nobody
+    off are ranked by the weight's own change instead: ``person_cost_saved``
+    (settlements' people times their ``hub_cost`` saved, e.g. person-metres)
+    per km of new or upgraded line, else alone; the bands, in minutes, do
+    not rank them.  Without settlements there is no such figure, and the
+    minutes ranking is kept and says so.
     """
+    weight = MINUTES if weight is None else as_weight(weight)
+    if weight is not MINUTES and all(r.get("person_cost_saved") is not None for r in results.values()) and results:
+        return _rank_by_cost(results, weight, largest_band)
     rows = []
     for name, r in results.items():
         newly = (r.get("people_newly_within") or {}).get(largest_band, 0.0)
         pm = r.get("person_minutes_saved", 0.0)
         km = r.get("new_or_upgraded_km", 0.0)
         cut = (r.get("people_cut_off") or {}).get("total", 0.0) or 0.0
-        cut_any = max([cut, *((r.get("people_cut_off") or {}).get("by_kind", {}) or {}).values()], default=0.0)
+        cut_any = _cut_any(r)
         per_km = pm / km if km > 0 else None
         why = ("person-minutes per km of new or upgraded line" if km > 0 else
                "person-minutes alone (no new or upgraded line)")
@@ -311,6 +339,46 @@ def rank_scenarios(results: dict, largest_band: str) -> list[dict]:
                              r["person_minutes_saved_per_km"] is None,
                              -(r["person_minutes_saved_per_km"] if r["person_minutes_saved_per_km"] is not None
                                else r["person_minutes_saved"])))
+    for i, r in enumerate(rows, 1):
+        r["rank"] = i
+        del r["_cut_any"]
+    if weight is not MINUTES:
+        for r in rows:
+            r["ranked_by"] += (f" (routing weight {weight.name}: no settlements, so no {weight.unit_name} "
+                               "per person to rank by; travel time ranks instead)")
+    return rows
+
+
+def _cut_any(r: dict) -> float:
+    cut = r.get("people_cut_off") or {}
+    return max([cut.get("total", 0.0) or 0.0, *(cut.get("by_kind", {}) or {}).values()], default=0.0)
+
+
+def _rank_by_cost(results: dict, weight, largest_band: str) -> list[dict]:
+    """The ranking on a routing weight other than minutes: by its own change (see :func:`rank_scenarios`)."""
+    unit = f"person-{weight.unit_name}"
+    rows = []
+    for name, r in results.items():
+        saved = float(r["person_cost_saved"])
+        km = r.get("new_or_upgraded_km", 0.0)
+        pm = r.get("person_minutes_saved", 0.0)
+        per_km = saved / km if km > 0 else None
+        why = (f"{unit} saved per km of new or upgraded line" if km > 0 else
+               f"{unit} saved alone (no new or upgraded line)")
+        why += f" (routing weight {weight.name}: settlements' hub_cost before minus after, times their people)"
+        cut_any = _cut_any(r)
+        if cut_any > 0:
+            why = (f"ranked after every scenario that cuts nobody off: {cut_any:,.0f} people lose their hub "
+                   f"(of some kind); then {why}")
+        rows.append({"scenario": name, "people_cut_off": (r.get("people_cut_off") or {}).get("total", 0.0) or 0.0,
+                     "people_newly_within_largest_band": (r.get("people_newly_within") or {}).get(largest_band, 0.0),
+                     "person_minutes_saved": pm,
+                     "person_minutes_saved_per_km": pm / km if km > 0 else None,
+                     "person_cost_saved": saved, "person_cost_saved_per_km": per_km, "person_cost_unit": unit,
+                     "ranked_by": why, "_cut_any": cut_any})
+    rows.sort(key=lambda r: (r["_cut_any"] > 0, r["_cut_any"], r["person_cost_saved_per_km"] is None,
+                             -(r["person_cost_saved_per_km"] if r["person_cost_saved_per_km"] is not None
+                               else r["person_cost_saved"])))
     for i, r in enumerate(rows, 1):
         r["rank"] = i
         del r["_cut_any"]

@@ -19,7 +19,7 @@ from ..study import Study
 from .inputs import Hubs, build_or_read, load_rasters, read_settlements
 
 __all__ = ["Analysis", "ALL_STEPS", "FRICTION_FILES", "analyse", "path_frame", "zones_layer", "travel_model",
-           "has_friction"]
+           "has_friction", "bands_note"]
 
 log = logging.getLogger("geo_reach")
 
@@ -28,6 +28,14 @@ ALL_STEPS = frozenset({"access", "metrics", "profile", "surface"})
 
 #: The ``[surface]`` inputs that slow or stop walking (the friction inputs).
 FRICTION_FILES = ("terrain", "landcover", "barriers")
+
+
+def bands_note(weight) -> str:
+    """What is in minutes and what in the weight's unit, for a study routed on a weight other than minutes."""
+    return (f"routing weight {weight.name} ({weight.unit_name}): the travel-time surface, reach bands and rings, "
+            f"weak regions, zones and the settlements' hub_minutes are travel time in minutes (bands are "
+            f"defined in minutes); the network's hub_cost, the settlements' hub_cost, the diameter, the edge "
+            f"change layers and the scenario ranking are in {weight.unit_name}")
 
 
 def has_friction(study: Study) -> bool:
@@ -212,8 +220,7 @@ def _surface(study: Study, out: Analysis, net, hubs: Hubs, step, rasters):
               barriers=rasters.get("barriers"), direction=routing.direction, neighbours=s.neighbours,
               max_access_m=routing.max_access_m)
     if routing.weight.name != "minutes":
-        out.notes.append(f"the travel-time surface is in minutes whatever the routing weight "
-                         f"({routing.weight.name}) is")
+        out.notes.append(bands_note(routing.weight))
     step("travel-time surface")
     # the surface is in minutes: with another routing weight, its node costs and hubs come from a
     # minutes routing of its own (never minutes from one routing and hubs from another)
@@ -323,6 +330,8 @@ def _settlements(study, out, net, hubs):
     layer["network_length_m"] = np.where(has, trips[None].network_m, np.nan)
     for kind in groups:
         _, layer[f"hub_minutes_{kind}"], layer[f"nearest_hub_{kind}"] = columns(trips[kind])
+    if out.weight.name != "minutes":
+        layer["hub_cost"] = _weight_costs(out.travel, net, xy, hubs, role)
     people = layer["population"].to_numpy(float)
     shown = layer["settlement_id"].to_numpy()
     off = _off_grid(out.grid, xy)
@@ -347,6 +356,18 @@ def _settlements(study, out, net, hubs):
                          f"{' and they have no minutes (walks cross the grid)' if model.on_grid else ''}; "
                          "widen surface.extent")
     return layer
+
+
+def _weight_costs(travel, net, xy, hubs: Hubs, role) -> np.ndarray:
+    """Each settlement's ``hub_cost``: the trip to its nearest hub priced and chosen on the routing weight.
+
+    The same trip model as the nodes' ``hub_cost`` (the study's weight and
+    walk); the hub may differ from ``nearest_hub`` (the nearest by minutes).
+    NaN where no hub is reachable on the weight.
+    """
+    places = travel.attach(net, xy, roles=(role,), always_join=True)
+    tr = travel.hub_trips(net, places, hubs.xy, {})[None]
+    return np.where((tr.hub >= 0) & np.isfinite(tr.cost), tr.cost, np.nan)
 
 
 def _off_grid(grid, xy) -> np.ndarray:

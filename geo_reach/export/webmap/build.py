@@ -85,7 +85,7 @@ def _fnum(frame, name):
 
 
 def _digits(unit: str) -> int:
-    return 0 if unit in ("hops", "m") else 1
+    return 0 if unit in ("hops", "links", "m") else 1
 
 
 def _fmt(unit="", digits=1, none=None, sign=False, pct=False) -> dict:
@@ -111,6 +111,10 @@ class _Builder:
         self.ts = sorted({float(t) for t in m.thresholds})
         self.travel = P.travel_classes(self.ts)
         self.metric = {}
+        # on a routing weight other than minutes, say which layers are time and which the weight
+        self.minutes_note = (None if self.unit == "min" else
+                             f"Travel time in minutes whatever the routing weight (the bands are defined in "
+                             f"minutes); the network and its change show {m.cost_name} in {self.unit}.")
 
     # -- helpers
     def frame(self, key, gdf):
@@ -177,7 +181,8 @@ class _Builder:
             self.group("rings", "Reach rings: minutes to the nearest hub",
                        [{"sw": "fill", "c": c.colour, "t": c.label, "fam": f"travel{k}"}
                         for k, c in enumerate(self.travel)], mode="shade",
-                       note="Disjoint rings; the last also holds places no hub reaches.")
+                       note=" ".join(x for x in ("Disjoint rings; the last also holds places no hub reaches.",
+                                                 self.minutes_note) if x))
             for view, rings in [("today", m.rings)] + [(f"v{i + 1}", s.rings) for i, s in enumerate(m.scenarios)]:
                 if rings is None or not len(rings):
                     continue
@@ -251,9 +256,19 @@ class _Builder:
             for v in _size_examples(pmax):
                 legend.append({"sw": "size", "r": _radius(v, pmax), "t": f"{v:,.0f} people"})
         self.group("settlements", "Settlements: minutes to the nearest hub", legend,
-                   note="Dot size: people. Names show when there is room.")
+                   note=" ".join(x for x in ("Dot size: people. Names show when there is room.",
+                                             self.minutes_note) if x))
         styles = [{"fc": c.colour, "c": P.OUTLINE, "w": 1} for c in self.travel]
         styles.append({"fc": P.NO_VALUE, "c": P.OUTLINE, "w": 1})
+        # the routing weight's own cost, when given (a weight other than minutes)
+        has_cost = any("cost" in s.columns for _, s in views)
+        d = _digits(self.unit)
+        cost_row = ([[f"{m.cost_name.capitalize()} to the nearest hub", "cost",
+                      _fmt(self.unit, d, none="no hub reachable")]] if has_cost else [])
+
+        def cost_col(f):
+            return {"cost": _num(_fnum(f, "cost"), d)} if has_cost else {}
+
         for view, s in views:
             f = self.frame(f"settlements.{view}", s)
             mins = _fnum(f, "minutes")
@@ -265,12 +280,12 @@ class _Builder:
                      styles=styles, size=size, order=order, label="name", tip="name",
                      cols={"name": _text(_col(f, "name", None), 80), "people": _num(pop, 0),
                            "min": _num(mins, 1), "hub": _text(_col(f, "hub_name", None), 80),
-                           "km": _num(_fnum(f, "network_km"), 1)},
+                           "km": _num(_fnum(f, "network_km"), 1), **cost_col(f)},
                      popup={"head": "Settlement", "title": "name",
                             "rows": [["People", "people", _fmt(digits=0)],
                                      ["Minutes to the nearest hub", "min", _fmt("min", 1, none="no hub reachable")],
                                      ["Nearest hub", "hub", _fmt(digits=0)],
-                                     ["Along the network", "km", _fmt("km", 1)]]})
+                                     ["Along the network", "km", _fmt("km", 1)], *cost_row]})
 
     def network(self):
         m = self.m
@@ -290,7 +305,7 @@ class _Builder:
                 unusable |= bool((~np.isfinite(np.asarray(net.edge_cost, float)) & keep).any())
         if unusable:
             legend.append({"sw": "thin", "c": P.NO_VALUE, "t": f"not used for {self.m.cost_name}", "fam": "none"})
-        self.group("network", f"Network: {self.m.cost_name} to the nearest hub", legend)
+        self.group("network", f"Network: {self.m.cost_name} to the nearest hub", legend, note=self.minutes_note)
         for view, net in nets:
             self.network_view(view, net, classes, d)
 
@@ -456,7 +471,9 @@ class _Builder:
             legend[-1]["t"] += " (slower)" if self.unit == "min" else " (more)"
             legend.append({"sw": "dash", "c": P.NO_VALUE, "t": "no value before or after (new, closed or cut off)",
                            "fam": "none"})
-            self.group("change", "Change: after \u2212 before", legend)
+            self.group("change", "Change: after \u2212 before" + ("" if self.unit == "min" else
+                                                                  f" ({self.m.cost_name}, {self.unit})"),
+                       legend, note=self.minutes_note)
         if any(s.proposed is not None and len(s.proposed) for s in m.scenarios):
             self.group("proposed", "Proposed or changed lines",
                        [{"sw": "halo", "c": P.PROPOSED_COLOUR, "t": "highlighted"}])

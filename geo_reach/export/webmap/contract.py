@@ -31,7 +31,7 @@ FIELDS = {
     "network.edges": (("from_node", "to_node"), ("edge_id", "mode", "name", "length_m")),
     "hubs": ((), ("name", "kind", "hub_id")),
     "rings": (("from_minutes", "to_minutes"), ("population", "area_km2")),
-    "settlements": (("minutes",), ("name", "population", "hub_name", "network_km")),
+    "settlements": (("minutes",), ("name", "population", "hub_name", "network_km", "cost")),
     "districts": (("share_beyond",), ("name", "population", "mean_minutes")),
     "water": ((), ("name", "kind")),
     "weak": (("rank", "reason"), ("population", "mean_hub_minutes", "area_km2", "edge_id")),
@@ -134,9 +134,9 @@ class MapInput:
     caution : str
         Shown along the bottom (never empty).
     cost_unit : str
-        Unit of the network costs: ``"min"``, ``"km"``, ``"m"``, ``"hops"``, ``"ms"``.
+        Unit of the network costs: ``"min"``, ``"km"``, ``"m"``, ``"links"`` (or ``"hops"``), ``"ms"``.
     cost_name : str
-        What the network cost is, for labels ("minutes", "distance", "hops", "latency").
+        What the network cost is, for labels ("minutes", "distance", "links", "latency").
     thresholds : tuple of float
         The study's band limits, minutes: the classes of rings and settlements.
     share_minutes : float, optional
@@ -154,7 +154,8 @@ class MapInput:
     settlements : GeoDataFrame of points, optional
         ``minutes`` (to the nearest hub; NaN = none reachable), ``name``,
         ``population`` (dot size), ``hub_name`` (of the nearest hub),
-        ``network_km``.
+        ``network_km``, ``cost`` (to the nearest hub on the routing weight,
+        in :attr:`cost_unit`; give it when the weight is not minutes).
     districts : GeoDataFrame of polygons, optional
         ``share_beyond`` (0..1 of the district's people beyond
         ``share_minutes``; NaN = nobody lives there), ``name``,
