@@ -274,6 +274,9 @@ def network_files(path, issues_only: bool = False, sides: bool = True) -> list[P
     if suffix == ".gpkg":
         return [path]
     if suffix not in LAYER_FILE_FORMATS:
+        if path.is_dir():
+            raise OptionError(f"{where(path)}is a folder; give a file name for the network, ending in one of: "
+                              f"{NETWORK_FORMATS}")
         raise OptionError(f"{where(path)}cannot write a network as '{path.suffix or path.name}'; end the name in one "
                           f"of: {NETWORK_FORMATS}")
     sides = LAYER_FILE_FORMATS[suffix][1] if sides else ()

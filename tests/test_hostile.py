@@ -1,0 +1,398 @@
+"""Hostile input across every command: a clean one-line refusal, and nothing on disk touched.
+
+Each row of :data:`CASES` is one thing a careless or hostile user can type.
+Every row must end with exit status 2, exactly one non-empty line on stderr
+holding the expected words and no traceback, and every file in the work
+folder (inputs and pre-existing outputs) byte-identical afterwards, with no
+file or folder added (no output, no temporary left beside one).
+
+The rows run in a fresh copy of one small lab folder (a 3 x 3 km street
+grid from :mod:`studykit`, its network built once, and a set of broken
+inputs made once per session).  Paths are relative to that folder, so a row
+reads like the command a user would type.
+
+Further down: a full disk (a tiny tmpfs, or ENOSPC injected at the write call
+where mounting is not allowed), SIGINT/SIGTERM during a long run, and a
+read-only install.
+
+The rules checked here are the project's own (issue 9, "Safety"); the 255-byte
+name limit is the common limit of ext4, xfs and btrfs (common practice).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import shlex
+import shutil
+import subprocess
+import sys
+import textwrap
+import warnings
+from dataclasses import dataclass
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pyogrio
+import pytest
+import rasterio
+import shapely
+from rasterio.transform import from_origin
+
+sys.path.insert(0, str(Path(__file__).parent))
+from studykit import CRS, X0, Y0, write_study  # noqa: E402
+
+LONG = "n" * 300          # one path component over the 255-byte limit
+
+
+# --------------------------------------------------------------------------- the lab folder
+def _lines(coords, crs=CRS, **fields):
+    return gpd.GeoDataFrame(fields or None, geometry=[shapely.LineString(c) for c in coords], crs=crs)
+
+
+def _make_lab(lab: Path) -> None:
+    """Every input the rows below name, written once."""
+    write_study(lab)
+    code, _, err = _cli(lab, "build net.gpkg:roads --speed-field speed -o network.gpkg")
+    assert code == 0, err
+    (lab / "somefile").write_text("a regular file, so nothing can be created under it\n")
+    (lab / "notes.xyz").write_text("not a layer\n")
+    (lab / "empty.gpkg").write_bytes(b"")
+    (lab / "corrupt.gpkg").write_bytes(b"SQLite format 3\x00" + bytes(range(256)) * 40)
+    (lab / "corrupt.tif").write_bytes(b"II*\x00" + b"\xff" * 500)
+    (lab / "notes.txt").write_text("my own notes\n")
+    gpd.GeoDataFrame({"speed": []}, geometry=gpd.GeoSeries([], crs=CRS)).to_file(lab / "hollow.gpkg", layer="roads")
+    seg = [[(X0, Y0), (X0 + 500, Y0)], [(X0 + 500, Y0), (X0 + 500, Y0 + 500)]]
+    _lines(seg, crs=None, speed=[30.0, 30.0]).to_file(lab / "nocrs.gpkg", layer="roads")
+    gpd.GeoDataFrame({"sid": [1, 2], "population": ["many", "few"]},
+                     geometry=[shapely.Point(X0 + 250, Y0 + 250), shapely.Point(X0 + 750, Y0 + 250)],
+                     crs=CRS).to_file(lab / "textpop.gpkg", layer="settlements")
+    _lines([[(1e15, 1e15), (1e15 + 500, 1e15)], [(1e15 + 500, 1e15), (1e15 + 500, 1e15 + 500)]],
+           speed=[30.0, 30.0]).to_file(lab / "far.gpkg", layer="roads")
+    _lines([[(10.0, 200.0), (10.01, 200.0)], [(10.01, 200.0), (10.01, 200.01)]], crs="EPSG:4326",
+           speed=[30.0, 30.0]).to_file(lab / "lat200.gpkg", layer="roads")
+    _lines(seg, speed=[30.0, 30.0], level=["0x", "1x"], oneway=["no", "no"]).to_file(lab / "level.gpkg",
+                                                                                   layer="roads")
+    _lines(seg, speed=[30.0, 30.0], oneway=["maybe", "yes"]).to_file(lab / "oneway.gpkg", layer="roads")
+    # a network whose minutes are text, and one with no nodes
+    for name in ("textnet.gpkg", "nonodes.gpkg"):
+        shutil.copy(lab / "network.gpkg", lab / name)
+    edges = gpd.read_file(lab / "network.gpkg", layer="edges")
+    edges.assign(minutes="slow").to_file(lab / "textnet.gpkg", layer="edges")
+    nodes = gpd.read_file(lab / "network.gpkg", layer="nodes")
+    nodes.iloc[:0].to_file(lab / "nonodes.gpkg", layer="nodes")
+    # a raster declaring 1e6 x 1e6 cells of 1 cm over the study area: sparse, tiny on disk
+    with rasterio.open(lab / "huge.tif", "w", driver="GTiff", width=1_000_000, height=1_000_000, count=1,
+                       dtype="float32", crs=CRS, transform=from_origin(X0 - 2000, Y0 + 5000, 0.01, 0.01),
+                       nodata=-1, tiled=True, blockxsize=4096, blockysize=4096, sparse_ok=True,
+                       compress="deflate", BIGTIFF="YES") as ds:
+        ds.write(np.ones((16, 16), dtype="float32"), 1, window=((0, 16), (0, 16)))
+    # study files gone wrong
+    study = (lab / "study.toml").read_text()
+    (lab / "latin1.toml").write_bytes(study.replace('"Grid town"', '"Gr\xfcn town"').encode("latin-1"))
+    (lab / "folder.toml").mkdir()
+    (lab / "badkey.toml").write_text(study.replace("[network]", "[network]\nsnapp_m = 2.0"))
+    (lab / "badsyntax.toml").write_text(study + "\n[surface\n")
+    (lab / "walk.toml").write_text(study.replace("[network]", "[routing]\nwalk_kmh = -1\n\n[network]"))
+    (lab / "imgscen.toml").write_text(study + textwrap.dedent("""
+        [scenarios."<img src=x onerror=alert(1)>"]
+        add_hubs = { path = "hubs_new.geojson", id_field = "hub_id", kind_field = "kind" }
+    """))
+    (lab / "hugepop.toml").write_text(study.replace('population = "pop.tif"', 'population = "huge.tif"'))
+    (lab / "badbands.toml").write_text(study.replace("bands = [15, 30, 60]", 'bands = ["soon", 30]'))
+    (lab / "cell0.toml").write_text(study.replace("cell_m = 100", "cell_m = 0"))
+    (lab / "nocrs.toml").write_text(study.replace('path = "net.gpkg"\nlayer = "roads"',
+                                                  'path = "nocrs.gpkg"\nlayer = "roads"'))
+    (lab / "missing.toml").write_text(study.replace('population = "pop.tif"', 'population = "gone.tif"'))
+    # folders an output may be pointed at
+    (lab / "userdir").mkdir()
+    (lab / "userdir" / "thesis.docx").write_text("a user's own file\n")
+    (lab / "outdir").mkdir()
+    (lab / "old.gpkg").write_bytes((lab / "network.gpkg").read_bytes())
+    (lab / "old.csv").write_text("a,b\n1,2\n")
+
+
+def _cli(cwd, args, env=None, **kw):
+    argv = shlex.split(args) if isinstance(args, str) else [str(a) for a in args]
+    p = subprocess.run([sys.executable, "-m", "geo_reach", *argv], capture_output=True, text=True, cwd=cwd,
+                       env=env, **kw)
+    return p.returncode, p.stdout, p.stderr
+
+
+@pytest.fixture(scope="module")
+def lab(tmp_path_factory) -> Path:
+    lab = tmp_path_factory.mktemp("lab")
+    _make_lab(lab)
+    return lab
+
+
+def snapshot(folder: Path) -> dict:
+    """Every file and folder under ``folder``: relative path -> sha256 (folders -> 'dir')."""
+    out = {}
+    for p in sorted(folder.rglob("*")):
+        rel = p.relative_to(folder).as_posix()
+        if p.is_dir() and not p.is_symlink():
+            out[rel] = "dir"
+        else:
+            out[rel] = _sha(p)
+    return out
+
+
+def _sha(p: Path) -> str:
+    h = hashlib.sha256()
+    with open(p, "rb") as f:
+        for chunk in iter(lambda: f.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def assert_one_line(code, err, *words, status=2):
+    assert code == status, err
+    assert "Traceback" not in err, err
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert len(lines) == 1, err
+    low = lines[0].lower()
+    for w in words:
+        assert w.lower() in low, (w, lines[0])
+    return lines[0]
+
+
+# --------------------------------------------------------------------------- the table
+@dataclass(frozen=True)
+class Case:
+    id: str
+    args: str          # the command line after ``geo-reach``, run in a copy of the lab folder
+    words: tuple       # words the one-line message must hold (case-insensitive)
+
+
+def C(id, args, *words):
+    return Case(id, args, words)
+
+
+NET = "network.gpkg"
+HUBS = "--hubs hubs.geojson --hub-id-field hub_id --hub-kind-field kind"
+SETT = "--settlements net.gpkg:settlements --population-field population --settlement-id-field sid"
+
+CASES = [
+    # ---- build: outputs naming inputs
+    C("build-output-is-the-input", "build net.gpkg:roads --speed-field speed -o net.gpkg --overwrite",
+      "net.gpkg", "input"),
+    C("build-report-is-an-input", "build net.gpkg:roads --speed-field speed -o new.gpkg --report net.gpkg "
+      "--overwrite", "net.gpkg", "input"),
+    C("build-report-is-the-output", "build net.gpkg:roads --speed-field speed -o new.gpkg --report new.gpkg",
+      "new.gpkg", "twice"),
+    C("build-output-exists", "build net.gpkg:roads --speed-field speed -o old.gpkg", "old.gpkg", "overwrite"),
+    C("build-output-is-a-folder", "build net.gpkg:roads --speed-field speed -o outdir", "outdir", "folder"),
+    C("build-output-is-a-folder-overwrite", "build net.gpkg:roads --speed-field speed -o outdir --overwrite",
+      "outdir", "folder"),
+    C("build-output-under-a-file", "build net.gpkg:roads --speed-field speed -o somefile/out.gpkg",
+      "somefile", "file"),
+    C("build-output-folder-missing", "build net.gpkg:roads --speed-field speed -o nowhere/out.gpkg",
+      "nowhere", "does not exist"),
+    C("build-output-name-too-long", f"build net.gpkg:roads --speed-field speed -o {LONG}.gpkg", "255"),
+    # ---- build: the classics
+    C("build-missing-file", "build gone.gpkg:roads -o new.gpkg", "gone.gpkg", "not found"),
+    C("build-missing-layer", "build net.gpkg:streets -o new.gpkg", "net.gpkg", "streets"),
+    C("build-unknown-format", "build notes.xyz -o new.gpkg", "notes.xyz"),
+    C("build-corrupt-file", "build corrupt.gpkg -o new.gpkg", "corrupt.gpkg"),
+    C("build-empty-file", "build empty.gpkg -o new.gpkg", "empty.gpkg"),
+    C("build-empty-layer", "build hollow.gpkg:roads -o new.gpkg", "hollow.gpkg", "no features"),
+    C("build-points-not-lines", "build net.gpkg:settlements -o new.gpkg", "settlements", "point"),
+    C("build-polygons-not-lines", "build net.gpkg:zones -o new.gpkg", "zones", "polygon"),
+    C("build-no-crs", "build nocrs.gpkg:roads --speed-field speed -o new.gpkg", "nocrs.gpkg", "crs"),
+    C("build-missing-field", "build net.gpkg:roads --speed-field velocity -o new.gpkg", "velocity"),
+    C("build-coordinates-1e15", "build far.gpkg:roads --speed-field speed -o new.gpkg", "far.gpkg"),
+    C("build-latitude-200", "build lat200.gpkg:roads --speed-field speed -o new.gpkg", "lat200.gpkg", "200"),
+    C("build-level-values-0x", "build level.gpkg:roads --speed-field speed --level-field level -o new.gpkg",
+      "level.gpkg", "level", "0x"),
+    C("build-oneway-values-maybe", "build oneway.gpkg:roads --speed-field speed --oneway-field oneway "
+      "-o new.gpkg", "oneway.gpkg", "oneway", "maybe"),
+    C("build-negative-snap", "build net.gpkg:roads --speed-field speed --snap-m -1 -o new.gpkg", "--snap-m"),
+    C("build-nan-snap", "build net.gpkg:roads --speed-field speed --snap-m nan -o new.gpkg", "--snap-m"),
+    C("build-bad-class-speeds", "build net.gpkg:roads --class-field speed --class-speeds main=fast -o new.gpkg",
+      "main=fast"),
+    C("build-unknown-assume-crs", "build nocrs.gpkg:roads --speed-field speed --assume-crs EPSG:99999999 "
+      "-o new.gpkg", "EPSG:99999999"),
+    C("build-unknown-crs", "build net.gpkg:roads --speed-field speed --crs no-such-crs -o new.gpkg",
+      "no-such-crs"),
+    C("build-unknown-option", "build net.gpkg:roads --speedfield speed -o new.gpkg", "--speedfield"),
+    # ---- check
+    C("check-output-is-the-input", "check net.gpkg:roads -o net.gpkg --overwrite", "net.gpkg", "input"),
+    C("check-report-is-an-input", "check net.gpkg:roads -o issues.gpkg --report net.gpkg --overwrite",
+      "net.gpkg", "input"),
+    # ---- access
+    C("access-output-is-the-network", f"access {NET} {HUBS} -o {NET} --overwrite", NET, "input"),
+    C("access-output-is-the-hubs", f"access {NET} {HUBS} -o hubs.geojson --overwrite", "hubs.geojson", "input"),
+    C("access-missing-hubs", f"access {NET} --hubs gone.geojson -o new.gpkg", "gone.geojson", "not found"),
+    C("access-missing-hub-field", f"access {NET} --hubs hubs.geojson --hub-id-field code -o new.gpkg", "code"),
+    C("access-not-a-network", f"access net.gpkg {HUBS} -o new.gpkg", "net.gpkg"),
+    C("access-text-minutes", f"access textnet.gpkg {HUBS} -o new.gpkg", "textnet.gpkg", "minutes"),
+    C("access-empty-nodes", f"access nonodes.gpkg {HUBS} -o new.gpkg", "nonodes.gpkg", "nodes"),
+    C("access-negative-walk", f"access {NET} {HUBS} --walk-kmh -5 -o new.gpkg", "--walk-kmh"),
+    C("access-huge-terrain", f"access {NET} {HUBS} --terrain huge.tif -o new.gpkg", "huge.tif", "GiB"),
+    C("access-corrupt-terrain", f"access {NET} {HUBS} --terrain corrupt.tif -o new.gpkg", "corrupt.tif"),
+    # ---- route
+    C("route-far-coordinates", f"route {NET} --from 1e15,1e15 --to {X0 + 100},{Y0 + 100} --crs {CRS}",
+      "--from", "--max-access-m"),
+    C("route-far-lonlat", f"route {NET} --from 1e15,1e15 --to {X0 + 100},{Y0 + 100}", "--from", "longitude"),
+    C("route-not-a-point", f"route {NET} --from here --to {X0},{Y0}", "--from", "here"),
+    C("route-unknown-crs", f"route {NET} --from 1,1 --to 2,2 --crs EPSG:0", "EPSG:0"),
+    C("route-output-is-the-network", f"route {NET} --from {X0},{Y0} --to {X0 + 500},{Y0} -o {NET} --overwrite",
+      NET, "input"),
+    C("route-latitude-200", f"route {NET} --from -21,200 --to -21,-31 --crs EPSG:4326", "200"),
+    # ---- od
+    C("od-csv-is-the-gpkg", f"od {NET} --origins net.gpkg:settlements --destinations hubs.geojson "
+      "-o A.gpkg --csv A.gpkg", "A.gpkg", "twice"),
+    C("od-csv-is-the-network", f"od {NET} --origins net.gpkg:settlements --destinations hubs.geojson "
+      f"-o new.gpkg --csv {NET} --overwrite", NET, "input"),
+    C("od-csv-is-the-origins", f"od {NET} --origins net.gpkg:settlements --destinations hubs.geojson "
+      "-o new.gpkg --csv net.gpkg --overwrite", "net.gpkg", "input"),
+    C("od-csv-exists", f"od {NET} --origins net.gpkg:settlements --destinations hubs.geojson "
+      "-o new.gpkg --csv old.csv", "old.csv", "overwrite"),
+    C("od-nearest-zero", f"od {NET} --origins net.gpkg:settlements --destinations hubs.geojson "
+      "--nearest 0 -o new.gpkg", "--nearest"),
+    C("od-polygon-origins", f"od {NET} --origins net.gpkg:zones --destinations hubs.geojson -o new.gpkg",
+      "zones", "polygon"),
+    # ---- metrics
+    C("metrics-output-is-the-network", f"metrics {NET} -o {NET} --overwrite", NET, "input"),
+    C("metrics-corrupt-network", "metrics corrupt.gpkg", "corrupt.gpkg"),
+    C("metrics-negative-sources", f"metrics {NET} --sources -3", "--sources"),
+    C("metrics-unknown-weight", f"metrics {NET} --weight furlongs", "furlongs"),
+    # ---- profile
+    C("profile-png-is-the-network", f"profile {NET} --from 0 --png {NET} --overwrite", NET, "input"),
+    C("profile-tiny-step", f"profile {NET} --from 0 --step 1e-9", "--step"),
+    C("profile-too-many-steps", f"profile {NET} --from 0 --steps 100000000", "--steps"),
+    C("profile-unknown-node", f"profile {NET} --from 999999", "999999"),
+    # ---- surface
+    C("surface-folder-holds-a-user-file", f"surface {NET} {HUBS} -o userdir --overwrite", "userdir",
+      "thesis.docx"),
+    C("surface-folder-is-a-file", f"surface {NET} {HUBS} -o somefile", "somefile", "file"),
+    C("surface-folder-is-the-input-folder", f"surface {NET} {HUBS} -o . --overwrite", "input"),
+    C("surface-zero-cell", f"surface {NET} {HUBS} --cell-m 0 -o new", "--cell-m"),
+    C("surface-bad-extent", f"surface {NET} {HUBS} --extent 1,2,3 -o new", "--extent"),
+    C("surface-bad-bands", f"surface {NET} {HUBS} --bands soon,30 -o new", "--bands"),
+    C("surface-huge-population", f"surface {NET} {HUBS} --population huge.tif -o new --quiet", "huge.tif", "GiB"),
+    C("surface-output-name-too-long", f"surface {NET} {HUBS} -o {LONG}", "255"),
+    # ---- criticality
+    C("criticality-output-is-the-network", f"criticality {NET} {HUBS} -o {NET} --overwrite", NET, "input"),
+    C("criticality-unknown-links", f"criticality {NET} {HUBS} --links 99999,88888 -o new.gpkg", "99999"),
+    C("criticality-missing-hazard", f"criticality {NET} {HUBS} --hazard-raster gone.tif --hazard-above 1 -o new.gpkg",
+      "gone.tif"),
+    # ---- indices
+    C("indices-unknown-measure", f"indices {NET} {HUBS} {SETT} --measure best -o new.gpkg", "best"),
+    C("indices-csv-is-an-input", f"indices {NET} {HUBS} {SETT} --measure cumulative --within-minutes 30 "
+      "-o new.gpkg --csv net.gpkg --overwrite", "net.gpkg", "input"),
+    C("indices-text-population", f"indices {NET} {HUBS} --settlements textpop.gpkg:settlements "
+      "--population-field population --measure cumulative --within-minutes 30 -o new.gpkg", "textpop.gpkg",
+      "population", "many"),
+    C("indices-missing-population-field", f"indices {NET} {HUBS} --settlements net.gpkg:settlements "
+      "--population-field people --measure cumulative --within-minutes 30 -o new.gpkg", "people"),
+    # ---- sites
+    C("sites-zero-count", f"sites {NET} {HUBS} {SETT} --candidates nodes --count 0 --objective coverage "
+      "--within-minutes 30 -o new.gpkg", "--count"),
+    C("sites-output-is-the-settlements", f"sites {NET} {HUBS} {SETT} --candidates nodes --count 1 "
+      "--objective coverage --within-minutes 30 -o net.gpkg --overwrite", "net.gpkg", "input"),
+    # ---- run / compare
+    C("run-folder-holds-the-study", "run study.toml -o . --overwrite", "study.toml"),
+    C("run-folder-holds-a-user-file", "run study.toml -o userdir --overwrite", "userdir", "thesis.docx"),
+    C("run-folder-is-a-file", "run study.toml -o somefile", "somefile", "file"),
+    C("run-folder-under-a-file", "run study.toml -o somefile/results", "somefile"),
+    C("run-study-missing", "run gone.toml -o new", "gone.toml"),
+    C("run-study-is-a-folder", "run folder.toml -o new", "folder.toml", "folder"),
+    C("run-study-not-utf8", "run latin1.toml -o new", "latin1.toml", "UTF-8"),
+    C("run-study-bad-syntax", "run badsyntax.toml -o new", "badsyntax.toml"),
+    C("run-study-unknown-key", "run badkey.toml -o new", "badkey.toml", "snapp_m"),
+    C("run-study-walk-negative", "run walk.toml -o new", "walk.toml", "routing.walk_kmh"),
+    C("run-study-bad-bands", "run badbands.toml -o new", "badbands.toml", "bands"),
+    C("run-study-zero-cell", "run cell0.toml -o new", "cell0.toml", "cell_m"),
+    C("run-study-no-crs", "run nocrs.toml -o new", "nocrs.gpkg", "crs"),
+    C("run-study-missing-raster", "run missing.toml -o new", "gone.tif"),
+    C("run-scenario-named-img", "run imgscen.toml -o new", "imgscen.toml", "scenario"),
+    C("run-huge-population", "run hugepop.toml -o new --quiet", "huge.tif", "GiB"),
+    C("compare-unknown-scenario", "compare study.toml --scenario nowhere -o new", "nowhere"),
+    # ---- init
+    C("init-output-is-the-input", "init net.gpkg -o net.gpkg --overwrite", "net.gpkg", "input"),
+    C("init-output-exists", "init net.gpkg -o study.toml", "study.toml", "overwrite"),
+    C("init-output-under-a-file", "init net.gpkg -o somefile/study.toml", "somefile"),
+    # ---- demo
+    C("demo-folder-holds-a-user-file", "demo -o userdir", "userdir", "thesis.docx"),
+    C("demo-folder-holds-a-user-file-overwrite", "demo -o userdir --overwrite", "userdir", "thesis.docx"),
+    C("demo-folder-is-a-file", "demo -o somefile", "somefile", "file"),
+    # ---- no command
+    C("unknown-command", "teleport net.gpkg", "teleport"),
+]
+
+
+def test_the_table_is_large_and_covers_every_command():
+    from geo_reach.cli import build_parser
+
+    assert len(CASES) >= 60
+    assert len({c.id for c in CASES}) == len(CASES)
+    sub = next(a for a in build_parser()._actions if a.dest == "command")
+    covered = {c.args.split()[0] for c in CASES}
+    assert set(sub.choices) <= covered, set(sub.choices) - covered
+
+
+def _print_warning(message, category, filename, lineno, file=None, line=None):
+    sys.stderr.write(warnings.formatwarning(message, category, filename, lineno, line))
+
+
+def run_in_process(work: Path, args: str, capfd, monkeypatch):
+    """``geo-reach ARGS`` through :func:`geo_reach.cli.main` in this process, cwd ``work``.
+
+    What ``python -m geo_reach`` does, without a fresh interpreter per row
+    (about 1 s each): the exit status, and stdout/stderr as the file
+    descriptors saw them (GDAL's own messages included).  An exception that
+    escapes ``main`` is printed as the interpreter would (a traceback, exit 1).
+    """
+    import logging
+    import traceback
+
+    from geo_reach.cli import main
+
+    monkeypatch.chdir(work)
+    capfd.readouterr()
+    try:
+        with warnings.catch_warnings():   # Python's start-up filters; warnings printed to stderr, not kept by pytest
+            warnings.resetwarnings()
+            warnings.simplefilter("default")
+            for cat in (DeprecationWarning, PendingDeprecationWarning, ImportWarning, ResourceWarning):
+                warnings.simplefilter("ignore", cat)
+            warnings.showwarning = _print_warning
+            code = main(shlex.split(args))
+    except SystemExit as e:
+        code = e.code if isinstance(e.code, int) else (0 if e.code is None else 1)
+    except BaseException:   # noqa: BLE001 - what would reach the user as a crash
+        traceback.print_exc()
+        code = 1
+    finally:
+        logger = logging.getLogger("geo_reach")
+        for h in [h for h in logger.handlers if getattr(h, "_geo_reach", False)]:
+            logger.removeHandler(h)
+    out, err = capfd.readouterr()
+    return code, out, err
+
+
+@pytest.mark.parametrize("case", CASES, ids=[c.id for c in CASES])
+def test_hostile_case_is_refused_in_one_line_and_touches_nothing(case, lab, tmp_path, capfd, monkeypatch):
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    before = snapshot(work)
+    code, _, err = run_in_process(work, case.args, capfd, monkeypatch)
+    assert_one_line(code, err, *case.words)
+    assert snapshot(work) == before
+
+
+@pytest.mark.parametrize("args", ["build net.gpkg:roads --speed-field speed -o net.gpkg --overwrite",
+                                  "build corrupt.gpkg -o new.gpkg",
+                                  f"access textnet.gpkg {HUBS} -o new.gpkg"])
+def test_rows_hold_through_the_console_entry_point(args, lab, tmp_path):
+    """Two rows again through ``python -m geo_reach`` (a fresh interpreter), as a user runs them."""
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    before = snapshot(work)
+    code, _, err = _cli(work, args)
+    assert_one_line(code, err)
+    assert snapshot(work) == before
