@@ -396,3 +396,230 @@ def test_rows_hold_through_the_console_entry_point(args, lab, tmp_path):
     code, _, err = _cli(work, args)
     assert_one_line(code, err)
     assert snapshot(work) == before
+
+
+# --------------------------------------------------------------------------- a full disk
+KIB = 1024
+PAGE = 4 * KIB
+
+
+def _try_mount(folder: Path, size: int) -> bool:
+    """Mount a tmpfs of ``size`` bytes on ``folder``; False when the machine does not allow it."""
+    if os.environ.get("GEO_REACH_TEST_FULL_DISK") == "inject" or shutil.which("mount") is None:
+        return False
+    p = subprocess.run(["mount", "-t", "tmpfs", "-o", f"size={size}", "tmpfs", str(folder)], capture_output=True)
+    return p.returncode == 0
+
+
+def _umount(folder: Path) -> None:
+    subprocess.run(["umount", str(folder)], check=True)
+
+
+def _results_folder(folder: Path) -> None:
+    """A results folder geo-reach wrote earlier (its marker lists its one file)."""
+    folder.mkdir()
+    (folder / "summary.json").write_text('{"old": true}\n')
+    (folder / ".geo-reach-results.json").write_text(json.dumps({"tool": "geo-reach", "files": ["summary.json"]}))
+
+
+#: command -> (arguments with {d} for the small disk, pre-existing outputs, a check of complete outputs)
+FULL = {
+    "build": ("build net.gpkg:roads --speed-field speed -o {d}/net.gpkg --report {d}/rep.json --overwrite",
+              ("net.gpkg", "rep.json")),
+    "od": (f"od {NET} --origins net.gpkg:settlements --destinations hubs.geojson -o {{d}}/od.gpkg "
+           "--csv {d}/od.csv --overwrite", ("od.gpkg", "od.csv")),
+    "run": ("run study.toml -o {d}/results --overwrite --quiet", ()),
+}
+
+
+def _pre_existing(d: Path, cmd: str) -> None:
+    for name in FULL[cmd][1]:
+        (d / name).write_text("an earlier output\n")
+    if cmd == "run":
+        _results_folder(d / "results")
+
+
+def _complete(d: Path, cmd: str) -> None:
+    """Every output of a successful command is whole (readable, not the earlier one)."""
+    if cmd == "build":
+        assert "edges" in pyogrio.list_layers(d / "net.gpkg")[:, 0]
+        assert json.loads((d / "rep.json").read_text())["edges"] > 0
+    elif cmd == "od":
+        assert len(pyogrio.read_dataframe(d / "od.gpkg", layer="od_pairs")) == 8
+        assert len((d / "od.csv").read_text().splitlines()) >= 9
+    else:
+        assert json.loads((d / "results" / "summary.json").read_text()).get("old") is None
+        assert (d / "results" / ".geo-reach-results.json").exists()
+
+
+def _full_disk_once(lab_copy: Path, d: Path, cmd: str, size: int, capfd, monkeypatch) -> int:
+    """Run ``cmd`` with its outputs on a fresh ``size``-byte tmpfs; check all-or-nothing; return the exit code.
+
+    In process (the disk is real; only the interpreter start-up is saved);
+    :func:`test_full_disk_through_the_console_entry_point` runs one size as a user does.
+    """
+    assert _try_mount(d, size)
+    try:
+        _pre_existing(d, cmd)
+        before_in, before_out = snapshot(lab_copy), snapshot(d)
+        code, _, err = run_in_process(lab_copy, FULL[cmd][0].format(d=d), capfd, monkeypatch)
+        assert snapshot(lab_copy) == before_in
+        if code == 0:
+            _complete(d, cmd)
+            assert not [p for p in d.rglob("*") if p.name.startswith(".geo-reach-") and "partial" in p.name]
+        else:
+            assert_one_line(code, err, "disk is full")
+            assert snapshot(d) == before_out, f"size {size}: {err}"
+        return code
+    finally:
+        _umount(d)
+
+
+@pytest.fixture(scope="module")
+def mount_allowed(tmp_path_factory) -> bool:
+    d = tmp_path_factory.mktemp("probe")
+    if _try_mount(d, 64 * KIB):
+        _umount(d)
+        return True
+    return False
+
+
+@pytest.mark.parametrize("cmd", ["build", "od"])
+def test_full_disk_all_or_nothing_at_every_size(cmd, lab, tmp_path, mount_allowed, capfd, monkeypatch):
+    """On a tmpfs too small for the outputs: exit 2, one line 'disk is full', nothing changed or left behind.
+
+    The size is bisected down to the page where the command first succeeds,
+    so the runs include the one where the GeoPackage fits and the CSV or
+    report does not (the all-or-nothing case of issue 9).  Path taken:
+    a real tmpfs when ``mount`` is allowed, else ENOSPC injected at the
+    write calls (:func:`_full_disk_injected`); it is printed, and never
+    skipped.
+    """
+    if not mount_allowed:
+        return _full_disk_injected(cmd, lab, tmp_path, capfd)
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    d = tmp_path / "disk"
+    d.mkdir()
+    lo, hi = 48 * KIB, 512 * KIB             # fails at lo, succeeds at hi
+    assert _full_disk_once(work, d, cmd, lo, capfd, monkeypatch) == 2
+    assert _full_disk_once(work, d, cmd, hi, capfd, monkeypatch) == 0
+    while hi - lo > PAGE:
+        mid = (lo + hi) // 2 // PAGE * PAGE
+        if _full_disk_once(work, d, cmd, mid, capfd, monkeypatch):
+            lo = mid
+        else:
+            hi = mid
+    print(f"full disk: a real tmpfs (mount -t tmpfs) for {cmd}; fails on {lo // KIB} KiB, succeeds on "
+          f"{hi // KIB} KiB")
+
+
+def test_full_disk_during_a_study_run(lab, tmp_path, mount_allowed, capfd, monkeypatch):
+    """``run`` on a disk that fills at the start and one that fills half-way: the old results stay whole."""
+    if not mount_allowed:
+        return _full_disk_injected("run", lab, tmp_path, capfd)
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    d = tmp_path / "disk"
+    d.mkdir()
+    assert _full_disk_once(work, d, "run", 48 * KIB, capfd, monkeypatch) == 2
+    assert _full_disk_once(work, d, "run", 600 * KIB, capfd, monkeypatch) == 2      # results.gpkg alone is over 500 kB
+    print("full disk: a real tmpfs (mount -t tmpfs) for run")
+
+
+def _full_disk_injected(cmd, lab, tmp_path, capfd):
+    """ENOSPC raised by every write call into the output folder (GDAL writers and Python files), in process."""
+    import builtins
+    import errno
+    import io
+
+    import pyogrio as _pyogrio
+    import rasterio as _rasterio
+
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    d = tmp_path / "disk"
+    d.mkdir()
+    _pre_existing(d, cmd)
+    before_in, before_out = snapshot(work), snapshot(d)
+    full = OSError(errno.ENOSPC, "No space left on device")
+    real_open, real_write, real_rio = builtins.open, _pyogrio.write_dataframe, _rasterio.open
+
+    def inside(p):
+        try:
+            return Path(os.path.abspath(os.fspath(p))).is_relative_to(d)
+        except TypeError:
+            return False
+
+    def fake_open(file, mode="r", *a, **k):
+        if inside(file) and any(c in mode for c in "wax+"):
+            f = real_open(file, mode, *a, **k)
+            f.close()
+            raise full
+        return real_open(file, mode, *a, **k)
+
+    def fake_write(df, path, *a, **k):
+        if inside(path):
+            real_open(path, "wb").close()        # half-written: the file exists, empty
+            raise full
+        return real_write(df, path, *a, **k)
+
+    def fake_rio(fp, mode="r", *a, **k):
+        if inside(fp) and mode != "r":
+            raise full
+        return real_rio(fp, mode, *a, **k)
+
+    mp = pytest.MonkeyPatch()
+    try:
+        mp.setattr(builtins, "open", fake_open)
+        mp.setattr(io, "open", fake_open)
+        mp.setattr(_pyogrio, "write_dataframe", fake_write)
+        mp.setattr(_rasterio, "open", fake_rio)
+        from geo_reach.cli import main
+
+        mp.chdir(work)
+        capfd.readouterr()
+        try:
+            code = main(shlex.split(FULL[cmd][0].format(d=d)))
+        except SystemExit as e:
+            code = e.code
+    finally:
+        mp.undo()
+    assert_one_line(code, capfd.readouterr().err, "disk is full")
+    print(f"full disk: ENOSPC injected at the write calls (mount not allowed) for {cmd}")
+    assert snapshot(work) == before_in
+    assert snapshot(d) == before_out
+
+
+def test_full_disk_through_the_console_entry_point(lab, tmp_path, mount_allowed, capfd):
+    """``python -m geo_reach od`` on a 96 KiB tmpfs, as a user runs it: one line, exit 2, nothing changed."""
+    if not mount_allowed:
+        return _full_disk_injected("od", lab, tmp_path, capfd)
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    d = tmp_path / "disk"
+    d.mkdir()
+    assert _try_mount(d, 96 * KIB)
+    try:
+        _pre_existing(d, "od")
+        before_in, before_out = snapshot(work), snapshot(d)
+        code, _, err = _cli(work, FULL["od"][0].format(d=d))
+        assert_one_line(code, err, "disk is full", "od.")
+        assert snapshot(work) == before_in and snapshot(d) == before_out
+    finally:
+        _umount(d)
+    print("full disk: a real tmpfs (mount -t tmpfs) for od through python -m geo_reach")
+
+
+def test_a_writer_failure_is_blamed_on_the_disk_only_when_it_is_full(tmp_path):
+    """GDAL/SQLite say 'database or disk is full' without an errno; other failures keep their own reason."""
+    import errno
+
+    from geo_reach.export.atomic import write_error
+
+    out = tmp_path / "a.gpkg"
+    assert "the disk is full" in str(write_error(out, RuntimeError("sqlite3_exec: database or disk is full"), "edges"))
+    assert "the disk is full" in str(write_error(out, OSError(errno.ENOSPC, "No space left on device")))
+    plain = str(write_error(out, RuntimeError("unsupported field type"), "edges"))
+    assert "could not be written (unsupported field type)" in plain and "disk is full" not in plain
+    assert plain.startswith(f"file '{out}', layer 'edges': ")
