@@ -623,3 +623,103 @@ def test_a_writer_failure_is_blamed_on_the_disk_only_when_it_is_full(tmp_path):
     plain = str(write_error(out, RuntimeError("unsupported field type"), "edges"))
     assert "could not be written (unsupported field type)" in plain and "disk is full" not in plain
     assert plain.startswith(f"file '{out}', layer 'edges': ")
+
+
+# --------------------------------------------------------------------------- interrupted runs
+SLOW = f"surface {NET} {HUBS} --cell-m 5 -o surf --overwrite --quiet"      # about 5 s of work on a 2-core machine
+
+
+def _temporaries(folder: Path) -> list[str]:
+    return [p.name for p in folder.rglob("*") if p.name.startswith(".geo-reach-") and p.name != ".geo-reach-results.json"]
+
+
+@pytest.mark.parametrize("sig, status, moment", [
+    ("SIGINT", 130, "computing"), ("SIGTERM", 143, "computing"),
+    ("SIGINT", 130, "writing"), ("SIGTERM", 143, "writing"),
+    ("SIGINT", 130, "twice"),
+])
+def test_interrupted_run_exits_cleanly_and_leaves_nothing(sig, status, moment, lab, tmp_path):
+    """SIGINT/SIGTERM while a fine surface is computed or written: exit 130/143, one line, no temporaries,
+    the earlier results folder and every input byte-identical.  'twice' sends two SIGINTs 30 ms apart
+    during the grid walk (issue 9: that once ended in SIGSEGV)."""
+    import signal
+    import time
+
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    _results_folder(work / "surf")
+    before = snapshot(work)
+    proc = subprocess.Popen([sys.executable, "-m", "geo_reach", *shlex.split(SLOW)], cwd=work,
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    signum = getattr(signal, sig)
+    try:
+        t0 = time.monotonic()
+        if moment == "writing":       # the first temporary beside the results folder: writing has begun
+            while not _temporaries(work) and proc.poll() is None and time.monotonic() - t0 < 120:
+                time.sleep(0.005)
+        else:                         # start-up done and the work under way
+            time.sleep(3.0)
+        assert proc.poll() is None, "the run ended before the signal; make SLOW slower"
+        proc.send_signal(signum)
+        if moment == "twice":
+            time.sleep(0.03)
+            proc.send_signal(signum)
+        _, err = proc.communicate(timeout=120)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+    line = assert_one_line(proc.returncode, err, "interrupted", status=status)
+    assert "nothing was written" in line
+    assert _temporaries(work) == []
+    assert snapshot(work) == before
+
+
+# --------------------------------------------------------------------------- a read-only install
+@pytest.fixture
+def read_only_install(tmp_path, mount_allowed):
+    """The package copied to a tmpfs remounted read-only, and a read-only home (root ignores chmod)."""
+    if not mount_allowed:
+        pytest.fail("a read-only install needs mount -t tmpfs (root ignores file modes); not allowed here")
+    ro = tmp_path / "ro"
+    ro.mkdir()
+    assert _try_mount(ro, 64 * 1024 * KIB)
+    try:
+        src = Path(__file__).resolve().parents[1] / "geo_reach"
+        shutil.copytree(src, ro / "pkg" / "geo_reach", ignore=shutil.ignore_patterns("__pycache__", "*.nbi", "*.nbc"))
+        (ro / "home").mkdir()
+        subprocess.run(["mount", "-o", "remount,ro", str(ro)], check=True)
+        assert not os.access(ro / "pkg" / "geo_reach", os.W_OK)
+        yield ro
+    finally:
+        _umount(ro)
+
+
+def _env_read_only(ro: Path, tmp: Path) -> dict:
+    env = {k: v for k, v in os.environ.items() if k not in ("NUMBA_CACHE_DIR", "XDG_CACHE_HOME", "PYTHONPATH")}
+    env.update(PYTHONPATH=str(ro / "pkg"), HOME=str(ro / "home"), TMPDIR=str(tmp), PYTHONDONTWRITEBYTECODE="1")
+    return env
+
+
+@pytest.mark.parametrize("tmp_writable", [True, False], ids=["tmp-writable", "nothing-writable"])
+def test_read_only_install_runs(read_only_install, lab, tmp_path, tmp_writable):
+    """Package folder and home not writable (and, in the second case, no writable temporary folder either):
+    --help and a route work.  The route imports the grid kernels (numba ``cache=True``, which fails at
+    decoration when no cache folder can be written: "cannot cache function"); with no writable place at
+    all numba runs uncached."""
+    ro = read_only_install
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    tmp = tmp_path / "tmp" if tmp_writable else ro / "home"
+    tmp.mkdir(exist_ok=True)
+    env = _env_read_only(ro, tmp)
+    p = subprocess.run([sys.executable, "-c", "import geo_reach, sys; print(geo_reach.__file__)"], env=env, cwd=work,
+                       capture_output=True, text=True)
+    assert p.stdout.strip().startswith(str(ro / "pkg")), p.stdout + p.stderr     # the read-only copy runs
+    code, out, err = _cli(work, "--help", env=env)
+    assert code == 0 and "build" in out, err
+    code, out, err = _cli(work, f"route {NET} --crs {CRS} --from {X0 + 20},{Y0 + 20} --to {X0 + 2500},{Y0 + 2400}",
+                          env=env)
+    assert code == 0, err
+    assert json.loads(out)["type"] == "Feature"
+    assert "Traceback" not in err and "cannot cache" not in err
