@@ -701,12 +701,12 @@ def _env_read_only(ro: Path, tmp: Path) -> dict:
     return env
 
 
-@pytest.mark.parametrize("tmp_writable", [True, False], ids=["tmp-writable", "nothing-writable"])
+@pytest.mark.parametrize("tmp_writable", [True, False], ids=["tmpdir-writable", "tmpdir-read-only"])
 def test_read_only_install_runs(read_only_install, lab, tmp_path, tmp_writable):
-    """Package folder and home not writable (and, in the second case, no writable temporary folder either):
+    """Package folder and home not writable (in the second case TMPDIR too, so Python's tempfile falls back
+    to the next writable temporary folder):
     --help and a route work.  The route imports the grid kernels (numba ``cache=True``, which fails at
-    decoration when no cache folder can be written: "cannot cache function"); with no writable place at
-    all numba runs uncached."""
+    decoration when no cache folder can be written: "cannot cache function")."""
     ro = read_only_install
     work = tmp_path / "w"
     shutil.copytree(lab, work, symlinks=True)
