@@ -112,6 +112,9 @@ def _make_lab(lab: Path) -> None:
     (lab / "outdir").mkdir()
     (lab / "old.gpkg").write_bytes((lab / "network.gpkg").read_bytes())
     (lab / "old.csv").write_text("a,b\n1,2\n")
+    _results_folder(lab / "oldresults")
+    (lab / "link.gpkg").symlink_to("net.gpkg")
+    (lab / "linkdir").symlink_to(".")
 
 
 def _cli(cwd, args, env=None, **kw):
@@ -129,11 +132,13 @@ def lab(tmp_path_factory) -> Path:
 
 
 def snapshot(folder: Path) -> dict:
-    """Every file and folder under ``folder``: relative path -> sha256 (folders -> 'dir')."""
+    """Every file, folder and link under ``folder``: relative path -> sha256 ('dir', 'link -> target')."""
     out = {}
     for p in sorted(folder.rglob("*")):
         rel = p.relative_to(folder).as_posix()
-        if p.is_dir() and not p.is_symlink():
+        if p.is_symlink():
+            out[rel] = f"link -> {os.readlink(p)}"
+        elif p.is_dir():
             out[rel] = "dir"
         else:
             out[rel] = _sha(p)
@@ -183,6 +188,10 @@ CASES = [
       "--overwrite", "net.gpkg", "input"),
     C("build-report-is-the-output", "build net.gpkg:roads --speed-field speed -o new.gpkg --report new.gpkg",
       "new.gpkg", "twice"),
+    C("build-output-is-a-link-to-the-input", "build net.gpkg:roads --speed-field speed -o link.gpkg --overwrite",
+      "link.gpkg", "input"),
+    C("build-output-through-a-linked-folder", "build net.gpkg:roads --speed-field speed -o linkdir/net.gpkg "
+      "--overwrite", "linkdir/net.gpkg", "input"),
     C("build-output-exists", "build net.gpkg:roads --speed-field speed -o old.gpkg", "old.gpkg", "overwrite"),
     C("build-output-is-a-folder", "build net.gpkg:roads --speed-field speed -o outdir", "outdir", "folder"),
     C("build-output-is-a-folder-overwrite", "build net.gpkg:roads --speed-field speed -o outdir --overwrite",
@@ -299,6 +308,8 @@ CASES = [
     C("run-folder-holds-a-user-file", "run study.toml -o userdir --overwrite", "userdir", "thesis.docx"),
     C("run-folder-is-a-file", "run study.toml -o somefile", "somefile", "file"),
     C("run-folder-under-a-file", "run study.toml -o somefile/results", "somefile"),
+    C("run-folder-holds-results", "run study.toml -o oldresults", "oldresults", "overwrite"),
+    C("run-folder-is-a-link-to-the-inputs", "run study.toml -o linkdir --overwrite", "linkdir"),
     C("run-study-missing", "run gone.toml -o new", "gone.toml"),
     C("run-study-is-a-folder", "run folder.toml -o new", "folder.toml", "folder"),
     C("run-study-not-utf8", "run latin1.toml -o new", "latin1.toml", "UTF-8"),
@@ -319,6 +330,7 @@ CASES = [
     # ---- demo
     C("demo-folder-holds-a-user-file", "demo -o userdir", "userdir", "thesis.docx"),
     C("demo-folder-holds-a-user-file-overwrite", "demo -o userdir --overwrite", "userdir", "thesis.docx"),
+    C("demo-folder-holds-results", "demo -o oldresults", "oldresults", "overwrite"),
     C("demo-folder-is-a-file", "demo -o somefile", "somefile", "file"),
     # ---- no command
     C("unknown-command", "teleport net.gpkg", "teleport"),
@@ -635,7 +647,7 @@ def _temporaries(folder: Path) -> list[str]:
 
 @pytest.mark.parametrize("sig, status, moment", [
     ("SIGINT", 130, "computing"), ("SIGTERM", 143, "computing"),
-    ("SIGINT", 130, "writing"), ("SIGTERM", 143, "writing"),
+    ("SIGTERM", 143, "writing"),      # SIGINT takes the same path (cli._Signalled); SIGTERM is the one that left .partial
     ("SIGINT", 130, "twice"),
 ])
 def test_interrupted_run_exits_cleanly_and_leaves_nothing(sig, status, moment, lab, tmp_path):
