@@ -220,6 +220,9 @@ CASES = [
       "-o new.gpkg", "oneway.gpkg", "oneway", "maybe"),
     C("build-negative-snap", "build net.gpkg:roads --speed-field speed --snap-m -1 -o new.gpkg", "--snap-m"),
     C("build-nan-snap", "build net.gpkg:roads --speed-field speed --snap-m nan -o new.gpkg", "--snap-m"),
+    C("build-negative-speed-names-the-flag", "build net.gpkg:roads --speed-kmh -5 -o new.gpkg", "--speed-kmh", "-5"),
+    C("build-negative-boarding-names-the-flag", "build net.gpkg:roads --mode rail --speed-kmh 60 "
+      "--boarding-minutes -3 -o new.gpkg", "--boarding-minutes", "-3"),
     C("build-bad-class-speeds", "build net.gpkg:roads --class-field speed --class-speeds main=fast -o new.gpkg",
       "main=fast"),
     C("build-unknown-assume-crs", "build nocrs.gpkg:roads --speed-field speed --assume-crs EPSG:99999999 "
