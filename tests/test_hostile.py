@@ -100,6 +100,8 @@ def _make_lab(lab: Path) -> None:
         [scenarios."<img src=x onerror=alert(1)>"]
         add_hubs = { path = "hubs_new.geojson", id_field = "hub_id", kind_field = "kind" }
     """))
+    (lab / "glyphs.toml").write_text(study.replace('"Grid town"', '"Grid \U0001F3E5 town \\u001b[31m"'),
+                                     encoding="utf-8")
     (lab / "hugepop.toml").write_text(study.replace('population = "pop.tif"', 'population = "huge.tif"'))
     (lab / "badbands.toml").write_text(study.replace("bands = [15, 30, 60]", 'bands = ["soon", 30]'))
     (lab / "cell0.toml").write_text(study.replace("cell_m = 100", "cell_m = 0"))
@@ -738,3 +740,16 @@ def test_read_only_install_runs(read_only_install, lab, tmp_path, tmp_writable):
     assert code == 0, err
     assert json.loads(out)["type"] == "Feature"
     assert "Traceback" not in err and "cannot cache" not in err
+
+
+def test_a_title_the_chart_font_cannot_draw_is_reported_in_one_line(lab, tmp_path, capfd, monkeypatch):
+    """An emoji and an escape character in the study title: the run succeeds, and matplotlib's missing-glyph
+    warnings (two lines per character, per chart) become one 'geo-reach:' line per chart naming the characters."""
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    code, _, err = run_in_process(work, "run glyphs.toml -o out --quiet", capfd, monkeypatch)
+    assert code == 0, err
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert lines and all(ln.startswith("geo-reach: ") for ln in lines), err
+    assert any("U+1F3E5" in ln and "U+001B" in ln for ln in lines), err
+    assert "Glyph" not in err and "savefig" not in err
