@@ -92,6 +92,10 @@ def _make_lab(lab: Path) -> None:
     # study files gone wrong
     study = (lab / "study.toml").read_text()
     (lab / "latin1.toml").write_bytes(study.replace('"Grid town"', '"Gr\xfcn town"').encode("latin-1"))
+    (lab / "bom.toml").write_bytes(b"\xef\xbb\xbf" + study.encode("utf-8"))
+    (lab / "dupkey.toml").write_text(study.replace("[network]", "[network]\nsnap_m = 2.0"))
+    (lab / "polyhubs.toml").write_text(study.replace('path = "hubs.geojson"', 'path = "net.gpkg"\nlayer = "zones"'))
+    (lab / "rasterhubs.toml").write_text(study.replace('path = "hubs.geojson"', 'path = "pop.tif"'))
     (lab / "folder.toml").mkdir()
     (lab / "badkey.toml").write_text(study.replace("[network]", "[network]\nsnapp_m = 2.0"))
     (lab / "badsyntax.toml").write_text(study + "\n[surface\n")
@@ -318,6 +322,10 @@ CASES = [
     C("run-study-missing", "run gone.toml -o new", "gone.toml"),
     C("run-study-is-a-folder", "run folder.toml -o new", "folder.toml", "folder"),
     C("run-study-not-utf8", "run latin1.toml -o new", "latin1.toml", "UTF-8"),
+    C("run-study-with-bom", "run bom.toml -o new", "bom.toml", "byte-order mark"),
+    C("run-study-duplicate-key", "run dupkey.toml -o new", "dupkey.toml", "line 6"),
+    C("run-hubs-are-polygons", "run polyhubs.toml -o new", "net.gpkg", "zones", "polygon"),
+    C("run-hubs-are-a-raster", "run rasterhubs.toml -o new", "pop.tif", "vector"),
     C("run-study-bad-syntax", "run badsyntax.toml -o new", "badsyntax.toml"),
     C("run-study-unknown-key", "run badkey.toml -o new", "badkey.toml", "snapp_m"),
     C("run-study-walk-negative", "run walk.toml -o new", "walk.toml", "routing.walk_kmh"),
