@@ -250,6 +250,8 @@ CASES = [
     C("access-empty-nodes", f"access nonodes.gpkg {HUBS} -o new.gpkg", "nonodes.gpkg", "nodes"),
     C("access-negative-walk", f"access {NET} {HUBS} --walk-kmh -5 -o new.gpkg", "--walk-kmh"),
     C("access-huge-terrain", f"access {NET} {HUBS} --terrain huge.tif -o new.gpkg", "huge.tif", "GiB"),
+    C("access-line-barriers", f"access {NET} {HUBS} --barriers net.gpkg:roads -o new.gpkg",
+      "error: file 'net.gpkg', layer 'roads'", "polygons"),
     C("access-corrupt-terrain", f"access {NET} {HUBS} --terrain corrupt.tif -o new.gpkg", "corrupt.tif"),
     # ---- route
     C("route-far-coordinates", f"route {NET} --from 1e15,1e15 --to {X0 + 100},{Y0 + 100} --crs {CRS}",
