@@ -763,3 +763,19 @@ def test_a_title_the_chart_font_cannot_draw_is_reported_in_one_line(lab, tmp_pat
     assert lines and all(ln.startswith("geo-reach: ") for ln in lines), err
     assert any("U+1F3E5" in ln and "U+001B" in ln for ln in lines), err
     assert "Glyph" not in err and "savefig" not in err
+
+
+def test_a_later_run_removes_the_temporaries_an_interrupted_run_left(lab, tmp_path):
+    """Temporaries named after a process that is gone (one file, one folder) are removed by the next command
+    writing beside them; one of a live process (this one) is left alone."""
+    work = tmp_path / "w"
+    shutil.copytree(lab, work, symlinks=True)
+    gone = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True,
+                          text=True).stdout.strip()
+    (work / f".geo-reach-{gone}-a1b2c3.partial.gpkg").write_bytes(b"half")
+    (work / f".geo-reach-{gone}-d4e5f6.partial").mkdir()
+    live = work / f".geo-reach-{os.getpid()}-0a0b0c.partial.csv"
+    live.write_text("still being written")
+    code, _, err = _cli(work, "build net.gpkg:roads --speed-field speed -o fresh.gpkg")
+    assert code == 0, err
+    assert sorted(_temporaries(work)) == [live.name]
