@@ -8,12 +8,16 @@ file or folder added (no output, no temporary left beside one).
 
 The rows run in a fresh copy of one small lab folder (a 3 x 3 km street
 grid from :mod:`studykit`, its network built once, and a set of broken
-inputs made once per session).  Paths are relative to that folder, so a row
-reads like the command a user would type.
+inputs made once per module).  Paths are relative to that folder, so a row
+reads like the command a user would type.  They run in process through
+:func:`geo_reach.cli.main` (stderr read at the file descriptor, Python
+warnings printed as a fresh interpreter prints them), which keeps the table
+fast; a few rows run again through ``python -m geo_reach``.
 
 Further down: a full disk (a tiny tmpfs, or ENOSPC injected at the write call
-where mounting is not allowed), SIGINT/SIGTERM during a long run, and a
-read-only install.
+where mounting is not allowed; the path taken is printed, never skipped),
+SIGINT/SIGTERM during a long run, stale temporaries, names the chart font
+cannot draw, and a read-only install.
 
 The rules checked here are the project's own (issue 9, "Safety"); the 255-byte
 name limit is the common limit of ext4, xfs and btrfs (common practice).
