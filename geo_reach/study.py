@@ -469,6 +469,9 @@ def load_study(path) -> Study:
                          "save the study file as UTF-8") from None
     except OSError as err:
         raise InputError(f"file '{path}': cannot be read ({err.strerror}); check its permissions") from None
+    if text.startswith("\ufeff"):   # some editors write one; TOML (and tomllib) reads it as a stray character
+        raise InputError(f"file '{path}': line 1: starts with a byte-order mark (U+FEFF, invisible in most "
+                         "editors); save the study file as UTF-8 without BOM")
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:

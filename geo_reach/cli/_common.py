@@ -305,6 +305,9 @@ def study_from_layer_args(args):
     """The study a ``build`` or ``check`` command line stands for (one code path with ``run``)."""
     from pathlib import Path
 
+    import re
+
+    from ..errors import InputError
     from ..ingest.layers import parse_layer_ref
     from ..study import study_from_dict
 
@@ -333,7 +336,14 @@ def study_from_layer_args(args):
         network["crs"] = args.crs
     if args.dangle_m is not None:
         network["dangle_m"] = float(args.dangle_m)
-    return study_from_dict({"lines": lines, "network": network}, Path("."), check_files=False)
+    try:
+        return study_from_dict({"lines": lines, "network": network}, Path("."), check_files=False)
+    except InputError as err:   # the study's dotted key (lines[0].speed_kmh) is the flag the user typed
+        m = re.match(r"(lines\[\d+\]|network)\.(\w+)(\[[^\]]*\]|\.\w+)*", str(err))
+        flag = getattr(args, "_flags", {}).get(m.group(2)) if m else None
+        if flag is None:
+            raise
+        raise err.with_message(flag + str(err)[m.end():]) from err
 
 
 # ------------------------------------------------------------------ JSON

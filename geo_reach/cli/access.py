@@ -70,7 +70,9 @@ def run(args):
     hubs = read_hubs(study, study.hubs, net.crs)
     try:
         res = analyse(study, [], hubs, prebuilt=built, steps={"access"})
-    except LayerError as err:
+    except LayerError as err:   # a hub problem without its file gets it; one naming its own file (barriers) is kept
+        if str(err).startswith("file '"):
+            raise
         raise LayerError(f"file '{study.hubs['path']}': {err}") from err
     for msg in res.notes:
         note(msg)

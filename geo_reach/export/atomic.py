@@ -28,7 +28,7 @@ from pathlib import Path
 from ..errors import OutputError, OutputExistsError
 
 __all__ = ["check_output", "atomic_path", "atomic_dir", "OutputSet", "temp_name", "remove_stale", "MARKER",
-           "write_marker", "read_marker", "os_error"]
+           "write_marker", "read_marker", "os_error", "write_error", "disk_full"]
 
 #: The marker file of a results folder: JSON listing every file the tool wrote there.
 MARKER = ".geo-reach-results.json"
@@ -86,6 +86,44 @@ def os_error(path, err: OSError, doing: str = "write") -> OutputError:
     else:
         why = f"{err.strerror or err}; check the folder"
     return OutputError(f"file '{path}': cannot {doing} it: {why}")
+
+
+#: Below this many free bytes after a failed write, the failure is blamed on a full disk.
+_FULL_BELOW = 1 << 20
+_FULL_WORDS = ("no space left", "disk is full", "disk full", "enospc", "not enough space")
+
+
+def disk_full(path, err: BaseException | None = None) -> bool:
+    """Whether a write to ``path`` most likely failed because its file system is full.
+
+    GDAL and SQLite report a full disk in their own words (``database or
+    disk is full``) or not at all, without an errno; so the error's text is
+    read, and the free space of the folder is measured (under 1 MiB: full).
+    """
+    if isinstance(err, OSError) and err.errno == errno.ENOSPC:
+        return True
+    text = " ".join(str(err).split()).lower() if err is not None else ""
+    if any(w in text for w in _FULL_WORDS):
+        return True
+    folder = Path(path).parent if str(Path(path).parent) else Path(".")
+    try:
+        return shutil.disk_usage(folder).free < _FULL_BELOW
+    except OSError:
+        return False
+
+
+def write_error(path, err: BaseException, layer=None) -> OutputError:
+    """A one-line :class:`OutputError` for a writer's failure (GDAL, SQLite, pyarrow ...) on ``path``."""
+    from ..errors import where
+
+    if disk_full(path, err):
+        return OutputError(f"{where(path, layer)}cannot write it: the disk is full (no space left on device); "
+                           "free some space or choose another folder")
+    if isinstance(err, OSError) and err.errno is not None:
+        return os_error(path, err)
+    msg = " ".join(str(err).split())[:200]
+    return OutputError(f"{where(path, layer)}could not be written ({msg}); check the folder is writable and "
+                       "has free space")
 
 
 def check_output(path, overwrite: bool = False, what: str = "output") -> Path:

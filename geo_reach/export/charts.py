@@ -5,10 +5,40 @@ Every chart carries the caution line at its foot and is written atomically.
 
 from __future__ import annotations
 
+import re
+
 from .._meta import CAUTION
 from .atomic import atomic_path
 
-__all__ = ["plot_profile"]
+__all__ = ["plot_profile", "save_figure"]
+
+_GLYPH = re.compile(r"Glyph (\d+) .*missing from")
+
+
+def save_figure(fig, target, what: str, **kw) -> None:
+    """``fig.savefig(target, **kw)``, with matplotlib's missing-glyph warnings (two lines each on stderr, one per
+    character of a name the font cannot draw: emoji, control characters) gathered into one logged line.
+
+    The chart is still written; those characters show as empty boxes.
+    """
+    import logging
+    import warnings
+
+    with warnings.catch_warnings(record=True) as seen:
+        warnings.simplefilter("always")
+        fig.savefig(target, **kw)
+    missing = []
+    for w in seen:
+        m = _GLYPH.search(str(w.message)) if issubclass(w.category, UserWarning) else None
+        if m is None:
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+        elif chr(int(m.group(1))) not in missing:
+            missing.append(chr(int(m.group(1))))
+    if missing:
+        shown = " ".join(f"U+{ord(c):04X}" for c in missing[:8]) + (" ..." if len(missing) > 8 else "")
+        logging.getLogger("geo_reach").warning(
+            "%s: the plotting font has no glyph for %d character(s) of the names shown (%s); they are drawn as "
+            "boxes in the chart (the map and tables keep them)", what, len(missing), shown)
 
 
 def plot_profile(profile, path, *, title: str | None = None) -> None:
@@ -47,5 +77,5 @@ def plot_profile(profile, path, *, title: str | None = None) -> None:
     fig.get_layout_engine().set(rect=(0, 0.05, 1, 0.95))  # keep the bottom strip for the caution
     fig.text(0.01, 0.01, CAUTION, fontsize=6.5, color="#555555")
     with atomic_path(path, suffix=".png") as tmp:
-        fig.savefig(tmp, dpi=120, format="png")
+        save_figure(fig, tmp, "the reach profile chart", dpi=120, format="png")
     plt.close(fig)

@@ -35,7 +35,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import CRSError, LayerError, OptionError, OutputError, where
-from .atomic import atomic_path, check_output
+from .atomic import atomic_path, check_output, write_error
 
 __all__ = ["write_layers", "write_network", "write_column_descriptions", "write_layer_file", "network_files",
            "network_layers", "layer_file", "LAYER_FILE_FORMATS", "NETWORK_FORMATS", "GPKG_VERSION", "LAYER_NAME"]
@@ -171,9 +171,7 @@ def write_layers(path, layers: Mapping[str, pd.DataFrame], overwrite: bool = Fal
                         layer_options=layer_options,
                     )
                 except Exception as err:  # pyogrio/GDAL raise several kinds
-                    msg = " ".join(str(err).split())[:200]
-                    raise OutputError(f"{where(path, name)}could not be written ({msg}); "
-                                      "check the folder is writable and has free space") from err
+                    raise write_error(path, err, name) from err
             write_column_descriptions(tmp, {n: list(f.columns) for n, f in prepared.items()}, path)
         finally:
             for extra in ("-journal", "-wal", "-shm"):
@@ -274,6 +272,9 @@ def network_files(path, issues_only: bool = False, sides: bool = True) -> list[P
     if suffix == ".gpkg":
         return [path]
     if suffix not in LAYER_FILE_FORMATS:
+        if path.is_dir():
+            raise OptionError(f"{where(path)}is a folder; give a file name for the network, ending in one of: "
+                              f"{NETWORK_FORMATS}")
         raise OptionError(f"{where(path)}cannot write a network as '{path.suffix or path.name}'; end the name in one "
                           f"of: {NETWORK_FORMATS}")
     sides = LAYER_FILE_FORMATS[suffix][1] if sides else ()
@@ -334,8 +335,7 @@ def write_layer_file(path, name: str, frame, into=None) -> None:
                 pyogrio.write_dataframe(frame, target, layer=name if driver == "GeoJSON" else None, driver=driver,
                                         layer_options=opts or None)
         except Exception as err:  # pyarrow/pyogrio/GDAL raise several kinds
-            raise OutputError(f"{where(path, name)}could not be written ({' '.join(str(err).split())[:200]}); "
-                              "check the folder is writable and has free space") from err
+            raise write_error(path, err, name) from err
         for f in [path] + [path.with_suffix(s) for s in sides]:
             src = work / f.name
             dest = into.path(f) if into is not None else f

@@ -32,7 +32,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import CRSError, OptionError, OutputError, where
-from .atomic import atomic_path, check_output
+from .atomic import atomic_path, check_output, write_error
 
 __all__ = ["write_cog", "cog_problems", "tiff_layout", "BLOCK_PX", "OVERVIEW_OVER_PX", "Category", "hub_categories",
            "write_categories", "category_sld", "write_category_sld", "category_colours", "RASTER_TERMS",
@@ -242,9 +242,7 @@ def write_cog(path, array, transform, crs, nodata, dtype=None, overwrite: bool =
         except OutputError:
             raise
         except Exception as err:  # rasterio/GDAL errors
-            msg = " ".join(str(err).split())[:200]
-            raise OutputError(f"{where(path)}could not be written ({msg}); check the folder is writable "
-                              "and has free space") from err
+            raise write_error(path, err) from err
     return path
 
 

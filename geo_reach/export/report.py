@@ -181,8 +181,10 @@ def _key_table(study, base_fig: dict, scen_figs: dict) -> Html:
 def _png(fig) -> str:
     import matplotlib.pyplot as plt
 
+    from .charts import save_figure
+
     buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=150, metadata={"Software": None})
+    save_figure(fig, buf, "a chart of the report", format="png", dpi=150, metadata={"Software": None})
     plt.close(fig)
     return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
 

@@ -33,7 +33,7 @@ import pandas as pd
 
 from .._meta import CAUTION, TOOL, __version__
 from ..errors import OptionError, OutputError, where
-from .atomic import atomic_path, check_output
+from .atomic import atomic_path, check_output, write_error
 
 __all__ = ["write_workbook", "sheet_names", "SHEET_NAME_MAX", "ABOUT", "ROW_LIMIT"]
 
@@ -170,7 +170,7 @@ def write_workbook(path, tables: Mapping[str, pd.DataFrame], *, title: str = "",
         except OSError:
             raise
         except Exception as err:  # XlsxWriter's own errors
-            raise OutputError(f"{where(path)}could not be written ({' '.join(str(err).split())[:200]})") from err
+            raise write_error(path, err) from err
     return path
 
 

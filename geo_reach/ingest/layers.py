@@ -7,6 +7,7 @@ the file, the layer, the feature and what to do.
 
 from __future__ import annotations
 
+import logging
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
@@ -137,10 +138,21 @@ def list_layers(path) -> list[str]:
         if problem:
             raise InputError(f"{where(path)}cannot be read as vector data: {problem}")
         return [path.stem]
-    try:
-        return [str(n) for n in pyogrio.list_layers(path)[:, 0]]
-    except Exception as err:  # pyogrio raises several DataSourceError kinds
-        raise InputError(f"{where(path)}cannot be read as vector data ({_short(err)}); give {FORMATS}") from err
+    # GDAL's notices arrive as RuntimeWarnings (several lines each on stderr): when the file cannot be read
+    # the error below carries GDAL's reason; when it can, each notice is logged as one line.
+    with warnings.catch_warnings(record=True) as notices:
+        warnings.simplefilter("always", RuntimeWarning)
+        try:
+            names = [str(n) for n in pyogrio.list_layers(path)[:, 0]]
+        except Exception as err:  # pyogrio raises several DataSourceError kinds
+            raise InputError(f"{where(path)}cannot be read as vector data ({_short(err)}); give {FORMATS}") \
+                from err
+    for n in notices:
+        if issubclass(n.category, RuntimeWarning):
+            logging.getLogger("geo_reach").warning("%sGDAL: %s", where(path), " ".join(str(n.message).split()))
+        else:
+            warnings.warn_explicit(n.message, n.category, n.filename, n.lineno)
+    return names
 
 
 def _short(err) -> str:

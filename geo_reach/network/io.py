@@ -10,6 +10,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+from pandas.api.types import is_numeric_dtype
 
 from ..errors import InputError, LayerError, MissingInputError, where
 from ..ingest.layers import exists, list_layers, read_frame
@@ -74,7 +75,7 @@ def read_network(path, weight: Weight | str | None = None, notes: list | None = 
         raise LayerError(f"{where(path, 'edges')}the layer is empty: there is no network to route on; "
                          "rebuild it from line layers with geo-reach build")
     for name in _NUMERIC:
-        if name in edges.columns and edges[name].dtype == object:
+        if name in edges.columns and not is_numeric_dtype(edges[name].dtype):   # object or (arrow) string
             col = edges[name]
             bad = col[col.notna() & ~col.map(lambda v: isinstance(v, (int, float)))]
             if len(bad):

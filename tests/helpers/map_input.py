@@ -27,6 +27,10 @@ X0, Y0 = _T.transform(-21.0, -31.0)
 HOSTILE = ["{{ 7*7 }}", "{% raw %}", "${7*7}", "<script>alert(7)</script>", "</script><b>x", "a \"quoted\" 'name'",
            "back\\slash\\n", "\u05e9\u05dc\u05d5\u05dd \u0645\u0631\u062d\u0628\u0627", "\U0001F3E5 clinic \U0001F30A",
            "line\u2028sep", "<!-- x", "&amp; &lt;"]
+#: Every hostile kind in one name (template syntax of Jinja and JavaScript, script tags, quotes, backslashes,
+#: right-to-left text, emoji), so hubs, settlements, districts, the scenario and the title each hold them all.
+#: Under 60 characters, so no label or tooltip shortens it.
+EVERY = "{{7*7}} {%raw%} ${7*7} <script>x</script> \"'\\ \u05e9\u05dc\u05d5\u05dd \U0001F3E5"
 THRESHOLDS = (15.0, 30.0, 60.0)
 
 
@@ -154,15 +158,16 @@ def full(title="Invented test study", **kw) -> MapInput:
 def hostile() -> tuple[MapInput, dict]:
     """The full study with hostile names everywhere; returns the input and ``{place: [texts]}``."""
     h = hubs()
-    h["name"] = HOSTILE[:3]
+    h["name"] = [HOSTILE[0], HOSTILE[2], EVERY]
     h["kind"] = [HOSTILE[3], "clinic", HOSTILE[4]]
     s = settlements()
-    s["name"] = HOSTILE[5:11]
+    s["name"] = HOSTILE[5:10] + [EVERY]
     s["hub_name"] = [HOSTILE[0]] * 6
     d = districts()
-    d["name"] = [HOSTILE[11], HOSTILE[1]]
-    title = "{{ 7*7 }} <script>alert(7)</script> \U0001F30A \u05e9\u05dc\u05d5\u05dd"
-    sc = scenario(name="${7*7} </script>{{ 7*7 }}", description="{% raw %} <img src=x onerror=alert(7)> \\ \"")
+    d["name"] = [HOSTILE[11], EVERY]
+    title = "{{ 7*7 }} <script>alert(7)</script> \U0001F30A \u05e9\u05dc\u05d5\u05dd " + EVERY
+    sc = scenario(name="${7*7} </script>{{ 7*7 }} " + EVERY,
+                  description="{% raw %} <img src=x onerror=alert(7)> \\ \" " + EVERY)
     m = full(title=title, hubs=h, settlements=s, districts=d, scenarios=(sc,))
     places = {"hubs": list(h["name"]), "hub kinds": list(h["kind"]), "settlements": list(s["name"]),
               "districts": list(d["name"]), "scenario": [sc.name, sc.description], "title": [title]}
