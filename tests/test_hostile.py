@@ -297,7 +297,7 @@ CASES = [
     C("surface-zero-cell", f"surface {NET} {HUBS} --cell-m 0 -o new", "--cell-m"),
     C("surface-bad-extent", f"surface {NET} {HUBS} --extent 1,2,3 -o new", "--extent"),
     C("surface-bad-bands", f"surface {NET} {HUBS} --bands soon,30 -o new", "--bands"),
-    C("surface-huge-population", f"surface {NET} {HUBS} --population huge.tif -o new --quiet", "huge.tif", "GiB"),
+    C("surface-huge-population", f"surface {NET} {HUBS} --population huge.tif -o new", "huge.tif", "GiB"),
     C("surface-output-name-too-long", f"surface {NET} {HUBS} -o {LONG}", "255"),
     # ---- criticality
     C("criticality-output-is-the-network", f"criticality {NET} {HUBS} -o {NET} --overwrite", NET, "input"),
@@ -340,7 +340,7 @@ CASES = [
     C("run-study-no-crs", "run nocrs.toml -o new", "nocrs.gpkg", "crs"),
     C("run-study-missing-raster", "run missing.toml -o new", "gone.tif"),
     C("run-scenario-named-img", "run imgscen.toml -o new", "imgscen.toml", "scenario"),
-    C("run-huge-population", "run hugepop.toml -o new --quiet", "huge.tif", "GiB"),
+    C("run-huge-population", "run hugepop.toml -o new", "huge.tif", "GiB"),
     C("compare-unknown-scenario", "compare study.toml --scenario nowhere -o new", "nowhere"),
     # ---- init
     C("init-output-is-the-input", "init net.gpkg -o net.gpkg --overwrite", "net.gpkg", "input"),

@@ -94,8 +94,8 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
     for n in names:
         if n not in study.scenarios:
             raise InputError(f"scenario '{n}' is not in the study (scenarios: {', '.join(study.scenarios) or 'none'})")
-    # steps: build, rasters, access, metrics, surface, then per scenario 5 more, then writing
-    bar = Progress(progress, total=5 + 5 * len(names) + 1)
+    # steps: build and rasters, access, metrics, surface, then per scenario 5 more, then writing
+    bar = Progress(progress, total=4 + 5 * len(names) + 1)
     timing = {"started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())}
     t0 = time.perf_counter()
     specs = layer_specs(study)
@@ -109,11 +109,10 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
         if study.path is not None and not str(err).startswith("file "):
             raise err.with_message(f"file '{study.path}': {err}") from err
         raise
-    bar("network built")
     rasters = None
-    if study.surface is not None and hubs is not None:
-        bar("reading rasters")
+    if study.surface is not None and hubs is not None:   # a raster too large for memory is refused here, too
         rasters = load_rasters(study, pre.network, hubs)
+    bar("network built" + (", rasters read" if rasters is not None else ""))
     base = analyse(study, specs, hubs, progress=bar, rasters=rasters, prebuilt=pre)
     timing["baseline_s"] = round(time.perf_counter() - t0, 3)
     results = {}
@@ -174,8 +173,8 @@ def run_surface(study: Study, outdir, *, overwrite=False, progress=None) -> dict
     specs = layer_specs(study)
     pre = build_or_read(study, specs)
     hubs = read_hubs(study, study.hubs, pre.network.crs)
-    bar("reading rasters")
-    rasters = load_rasters(study, pre.network, hubs)
+    rasters = load_rasters(study, pre.network, hubs)   # refusals come before any progress line
+    bar("network built, rasters read")
     a = analyse(study, specs, hubs, progress=bar, rasters=rasters, prebuilt=pre, with_profile=False)
     base = summarise(study, a)
     summary = {"tool": TOOL, "version": __version__, "caution": CAUTION,
