@@ -37,7 +37,29 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-__all__ = ["Term", "TERMS", "PARTS", "RENAMED", "lookup", "describe", "markdown", "update_readme", "START", "END"]
+__all__ = ["Term", "TERMS", "PARTS", "RENAMED", "REASON_WORDS", "lookup", "describe", "markdown", "reason_words",
+           "update_readme", "START", "END"]
+
+#: Why a region is weak, in the words every view uses (map, report, style, console).
+REASON_WORDS = {
+    "beyond_threshold": "far from every hub",
+    "single_link": "hangs on one link",
+    "no_hub": "network part with no hub",
+}
+
+
+def reason_words(reason: str, threshold_minutes: float | None = None) -> str:
+    """A weak region's reason in plain words; with the threshold, ``beyond_threshold`` names it.
+
+    >>> reason_words("beyond_threshold", 120)
+    'more than 120 min from every hub'
+    >>> reason_words("single_link")
+    'hangs on one link'
+    """
+    if reason == "beyond_threshold" and threshold_minutes is not None:
+        return f"more than {threshold_minutes:g} min from every hub"
+    return REASON_WORDS.get(str(reason), str(reason).replace("_", " "))
+
 
 #: Markers around the glossary section in README.md (the text between them is :func:`markdown`).
 START = "<!-- glossary:start (generated from geo_reach/glossary.py; python -m geo_reach.glossary) -->"

@@ -50,7 +50,7 @@ from .seeding import entry_points
 __all__ = ["bridges", "BridgeSides", "bridge_sides", "travel_edges", "weak_regions", "REASONS"]
 
 #: The ``reason`` values of the weak-region layer.
-REASONS = ("beyond_threshold", "single_link", "no_hub")
+REASONS = ("beyond_threshold", "single_link", "no_hub")   # their words: glossary.reason_words
 
 
 def travel_edges(network) -> np.ndarray:

@@ -5,6 +5,8 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
+from ..glossary import reason_words
+
 __all__ = ["register", "default_outdir", "run", "run_compare", "print_summary", "scenario_headline"]
 
 
@@ -120,9 +122,10 @@ def print_summary(summary: dict, out: Path, file=None):
         tot = b["population_total"] or 0
         p(f"people: {tot:,.0f} in all; within {largest} min: {bands[largest]:,.0f}; "
           f"beyond {largest} min or unreachable: {b['population_beyond']:,.0f}", file=file)
+    weak_min = ((summary.get("study") or {}).get("surface") or {}).get("weak_minutes")
     for w in b.get("weak_regions", [])[:3]:
-        p(f"  weak region #{w['rank']}: {w['reason']}, {w['population'] or 0:,.0f} people, {w['area_km2']:.1f} km2",
-          file=file)
+        p(f"  weak region #{w['rank']}: {reason_words(w['reason'], weak_min)}, {w['population'] or 0:,.0f} people, "
+          f"{w['area_km2']:.1f} km2", file=file)
     for r in summary.get("scenario_ranking", []):
         s = summary["scenarios"][r["scenario"]]
         p(f"scenario {r['rank']}. {r['scenario']}: {scenario_headline(s, unit)}", file=file)

@@ -58,6 +58,8 @@ from functools import lru_cache
 
 import numpy as np
 
+from ..glossary import REASON_WORDS
+
 __all__ = [
     "ColourClass", "lch_to_hex", "ramp",
     "BACKGROUND", "NO_VALUE", "NEUTRAL", "OUTLINE", "HUB_COLOUR", "WATER", "WATER_EDGE", "PATH_COLOUR",
@@ -163,12 +165,8 @@ REASON_COLOURS = {
     "single_link": lch_to_hex(36, 50, 268),
     "no_hub": lch_to_hex(60, 55, 85),
 }
-#: Plain-language names of the reasons.
-REASON_LABELS = {
-    "beyond_threshold": "far from every hub",
-    "single_link": "hangs on one link",
-    "no_hub": "network part with no hub",
-}
+#: Plain-language names of the reasons (the wording lives with the analysis).
+REASON_LABELS = REASON_WORDS
 _OTHER_REASON = lch_to_hex(45, 0, 0)
 
 #: Least CIEDE2000 difference between two legend entries of different families shown together.

@@ -32,6 +32,7 @@ import numpy as np
 import pandas as pd
 
 from .._meta import CAUTION, TOOL, __version__
+from ..glossary import reason_words
 from .atomic import atomic_path
 
 __all__ = ["Html", "el", "write_report", "render_report", "key_figures", "MAX_DISTRICT_ROWS", "MAX_WEAK_ROWS"]
@@ -383,11 +384,6 @@ def _overview_map(study, a) -> str | None:
 
 
 # ------------------------------------------------------------------ tables
-REASON_WORDS = {
-    "beyond_threshold": "beyond the threshold minutes",
-    "single_link": "one link from being cut off",
-    "no_hub": "no hub reachable",
-}
 
 
 def _weak_rows(a) -> pd.DataFrame:
@@ -420,9 +416,7 @@ def _weak_table(study, a) -> Html | None:
     rows = []
     for _, r in w.iterrows():
         reason = str(r.get("reason", ""))
-        words = REASON_WORDS.get(reason, reason)
-        if reason == "beyond_threshold" and thr is not None:
-            words = f"more than {thr:g} min from a hub"
+        words = reason_words(reason, thr)
         cells = [el("td", f"{int(r['rank'])}"), el("td", words, cls="text"), el("td", _people(r.get("population"))),
                  el("td", _fmt(r.get("area_km2"), 1))]
         if mean_col:

@@ -19,6 +19,7 @@ import math
 import numpy as np
 import pandas as pd
 
+from ...glossary import reason_words
 from .. import palette as P
 from .contract import MapInput, NetworkLayer
 from .encode import encode, frame_for, metric, points_xy
@@ -386,13 +387,13 @@ class _Builder:
             g = f[mask].reset_index(drop=True)
             rs = [str(r) for r in g["reason"]]
             present = [r for r in reasons if r in rs] + sorted({r for r in rs if r not in reasons})
-            legend = [{"sw": "outline", "c": P.reason_colour(r), "t": _reason_label(r, wt), "fam": f"reason:{r}"}
+            legend = [{"sw": "outline", "c": P.reason_colour(r), "t": reason_words(r, wt), "fam": f"reason:{r}"}
                       for r in present]
             legend.append({"sw": "badge", "c": P.OUTLINE, "t": "number: rank by people affected"})
             cls = [present.index(r) for r in rs]
             styles = [{"c": P.reason_colour(r), "w": 2.5, "fo": 0} for r in present]
             gpop = _fnum(g, "population")
-            titles = [f"Weak region {int(k)}: {_reason_label(r, wt)}" for k, r in zip(g["rank"], rs)]
+            titles = [f"Weak region {int(k)}: {reason_words(r, wt)}" for k, r in zip(g["rank"], rs)]
             cols = {"title": titles, "people": _num(gpop, 0), "mean": _num(_fnum(g, "mean_hub_minutes"), 1),
                     "area": _num(_fnum(g, "area_km2"), 1), "rank": [int(k) for k in g["rank"]],
                     "link": [("behind one link, marked with this number" if r == "single_link" else None)
@@ -539,12 +540,6 @@ def _pack(values: list):
         if len(keys) * 2 <= len(values):
             return {"k": list(keys), "i": idx}
     return values
-
-
-def _reason_label(reason: str, minutes: float) -> str:
-    if reason == "beyond_threshold":
-        return f"beyond {minutes:g} min of every hub"
-    return P.REASON_LABELS.get(reason, str(reason).replace("_", " "))
 
 
 def _radius(p: float, pmax: float) -> float:
