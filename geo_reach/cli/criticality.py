@@ -96,31 +96,14 @@ def parse_links(text: str, network):
     """``all`` -> None; a file of ids; or ids separated by commas.  Unknown ids are refused by name."""
     import re
 
-    from ..analysis.criticality import UnknownLinkError, check_links
+    from ..analysis.criticality import UnknownLinkError, check_links, read_link_ids
 
     text = str(text).strip()
     if text == "all":
         return None
     path = Path(text)
     if path.is_file():
-        raw = path.read_text(errors="replace")
-        first = raw.lstrip().splitlines()[0] if raw.strip() else ""
-        if "edge_id" in first:
-            import pandas as pd
-
-            frame = pd.read_csv(path)
-            if "edge_id" not in frame.columns:
-                raise InputError(f"{where(path)}the header mentions edge_id but no column is named exactly "
-                                 "'edge_id'; name the column edge_id")
-            tokens = frame["edge_id"].tolist()
-        else:
-            tokens = [t for t in re.split(r"[\s,;]+", raw) if t]
-        if not tokens:
-            raise InputError(f"{where(path)}holds no link ids; give edge ids, one per line")
-        try:
-            return check_links(network, tokens)
-        except UnknownLinkError as err:
-            raise UnknownLinkError(f"{where(path)}{err}") from err
+        return read_link_ids(path, network)
     tokens = [t.strip() for t in text.split(",")]
     if len(tokens) == 1 and not re.fullmatch(r"[+-]?\d+(\.0*)?", tokens[0]):
         raise MissingInputError(f"{where(text)}not found; --links takes all, a file of edge ids, or ids "

@@ -109,6 +109,15 @@ def _write_surface_rasters(folder: Path, a: Analysis):
         write_result_raster(folder / "connection_m.tif", a.connection_m.astype(np.float32), g, np.nan)
 
 
+def _write_section_rasters(folder: Path, a: Analysis):
+    """The sections' rasters (``<name>.tif``, float32, NaN = no value)."""
+    from ..export.raster import write_result_raster
+
+    for sec in a.sections.values():
+        for name, (values, grid) in sec.rasters.items():
+            write_result_raster(folder / f"{name}.tif", np.asarray(values, np.float32), grid, np.nan)
+
+
 def _write_deltas(folder: Path, base: Analysis, scenarios: dict):
     """``hub_minutes_change_<scenario>.tif``: scenario minus baseline (negative = faster)."""
     from ..export.raster import write_result_raster
@@ -127,8 +136,14 @@ def _write_tables(folder: Path, study: Study, a: Analysis, scenarios: dict | Non
     from ..export.tables import results_tables, write_csv
     from ..export.xlsx import write_workbook
 
+    from ..export.tables import planner_round
+
     tables = results_tables(study, a, {n: sc.get("tables") for n, sc in (scenarios or {}).items()},
                             baseline=baseline)
+    if baseline:
+        for sec in a.sections.values():
+            for stem, t in sec.tables.items():
+                tables[stem] = planner_round(t)
     for stem, t in tables.items():
         write_csv(folder / f"{stem}.csv", t)
     write_workbook(folder / "tables.xlsx", tables, title=study.title)
@@ -174,16 +189,21 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
         layers["settlements"] = base.settlements
     if base.zones is not None:
         layers["zones"] = base.zones
+    descriptions = {}
+    for sec in base.sections.values():
+        layers.update(sec.layers)
+        descriptions.update({k: f"{v}. {CAUTION}" for k, v in sec.descriptions.items()})
     for name, sc in scenarios.items():
         for lname, frame in sc["layers"].items():
             layers[f"{name}_{lname}"] = frame
     gpkg = folder / "results.gpkg"
-    write_layers(gpkg, layers, descriptions={k: CAUTION for k in layers})
+    write_layers(gpkg, layers, descriptions={k: descriptions.get(k, CAUTION) for k in layers})
     write_styles(gpkg, layers, cost_unit=base.weight.unit)
     _write_tables(folder, study, base, scenarios)
     if base.surface is not None:
         _write_surface_rasters(folder, base)
         _write_deltas(folder, base, scenarios)
+    _write_section_rasters(folder, base)
     if base.profile is not None and study.outputs.profile_png:
         from ..export.charts import plot_profile
 
