@@ -172,12 +172,38 @@ TERMS: tuple[Term, ...] = (
     _t("person_minutes_added", "For those who still reach their kind of hub: people times the minutes added, "
                                "summed over kinds.", "person-minutes", "link_criticality"),
     _t("cut_edge", "1 where closing the edge splits the network into more parts.", "", "link_criticality"),
+    _t("person_m_added", "person_minutes_added when the study routes on length: people times the metres added.",
+       "person-metres", "link_criticality"),
+    _t("person_hops_added", "person_minutes_added when the study routes on hops: people times the hops added.",
+       "person-hops", "link_criticality"),
+    _t("person_ms_added", "person_minutes_added when the study routes on latency: people times the ms added.",
+       "person-ms", "link_criticality"),
+    _t("link_criticality", "Layer (and table): one row per link examined, with the people cut off and the time "
+                           "added when it closes, ranked; from the criticality command or a study's [criticality] "
+                           "section.", "", "results.gpkg, tables.xlsx"),
+    _t("link_criticality.csv", "The link_criticality table, rounded; line 1 is the caution.", "", "results folder"),
     # ---------------------------------------------------------------- indices and siting
     _t("measure", "The accessibility measure: cumulative, gravity, 2sfca, e2sfca or bfca.", "", "access_index"),
     _t("index", "The measure's value for the settlement (see the measure's definition).", "as the measure",
        "access_index"),
     _t("hubs_within", "Hubs within the catchment time.", "", "access_index"),
     _t("nearest_minutes", "Minutes to the nearest hub, walk legs included.", "minutes", "access_index"),
+    _t("access_index", "Layer (and table): one row per settlement, measure and hub kind, with the index, the hubs "
+                       "within the catchment and the minutes to the nearest hub; from the indices command or a "
+                       "study's [indices] section.", "", "results.gpkg, tables.xlsx"),
+    _t("access_index.csv", "The access_index table, rounded; line 1 is the caution.", "", "results folder"),
+    _t("hub_catchments", "Layer: one row per hub (and measure in a study): its capacity, the settlements within its "
+                         "catchment and its supply-to-demand ratio.", "", "results.gpkg, indices output"),
+    _t("capacity", "A hub's supply S_j (from the capacity field; 1 per hub when none is given).", "as the field",
+       "hub_catchments"),
+    _t("attached", "1 where the hub joins the network (within the largest access distance).", "", "hub_catchments"),
+    _t("settlements_within", "Settlements whose trip to this hub is within the catchment time.", "",
+       "hub_catchments"),
+    _t("ratio", "The catchment measures' supply-to-demand ratio R_j of the hub (capacity over the people within "
+                "its catchment); empty for the other measures.", "per person", "hub_catchments"),
+    _t("hub_kinds_within.tif", "Raster: per cell, how many hub kinds have a hub within the [indices] catchment "
+                               "(within_minutes), read from each kind's travel-time surface (0 or 1 without kinds); "
+                               "empty outside the surface.", "hub kinds", "results folder"),
     _t("site_id", "Id of a chosen site (candidate id).", "", "chosen_sites"),
     _t("order", "Order in which the site was picked (1 = first).", "", "chosen_sites"),
     _t("people_newly_within", "People newly within the threshold thanks to the change.", "people",
@@ -201,7 +227,8 @@ TERMS: tuple[Term, ...] = (
        "", "results and comparison folders"),
     _t("<scenario>_zones.csv", "Per district and hub kind: before, after and change with the scenario.", "",
        "results and comparison folders"),
-    _t("tables.xlsx", "The tables as a workbook: sheets about (caution, columns), settlements, zones and "
+    _t("tables.xlsx", "The tables as a workbook: sheets about (caution, columns), settlements, zones, "
+                      "link_criticality and access_index (with the study's sections), and "
                       "<scenario>_settlements / <scenario>_zones per scenario.", "", "results and comparison folders"),
     _t("report.html", "The printable report: key figures, charts, district table, weak regions, scenario ranking "
                       "and an overview map; one offline file.", "", "results and comparison folders"),

@@ -498,6 +498,8 @@ def _check_sections(raw: dict, where_: str, loc) -> None:
 
     def fail(dotted, msg):
         n = loc.line_of(dotted) if loc else None
+        if n is None and loc and "." in dotted:          # a missing key: the line of its table
+            n = loc.line_of(dotted.rsplit(".", 1)[0])
         raise InputError(f"{where_}{dotted}{f' (line {n})' if n else ''}: {msg}")
 
     comp = raw.get("compute", {})

@@ -292,8 +292,25 @@ def _write_map(path, study, base, scenarios):
         districts=districts, water=base.barriers, weak=base.weak,
         diameter=diameter if diameter is not None and len(diameter) else None,
         issues=base.build.issues if len(base.build.issues) else None, scenarios=tuple(views),
-        basemap=study.outputs.basemap)
+        basemap=study.outputs.basemap, **_section_map_layers(base))
     write_map(path, m)
+
+
+def _section_map_layers(base) -> dict:
+    """The sections' map layers: links by people cut off, settlements (with their names) by index."""
+    out = {}
+    crit = base.sections.get("criticality")
+    if crit is not None and "link_criticality" in crit.layers:
+        out["criticality"] = crit.layers["link_criticality"]
+    ind = base.sections.get("indices")
+    if ind is not None and "access_index" in ind.layers:
+        ix = ind.layers["access_index"]
+        st = base.settlements
+        if st is not None and "name" in st.columns and len(ix):
+            names = dict(zip(st["settlement_id"].tolist(), st["name"].tolist()))
+            ix = ix.assign(name=[names.get(v) for v in ix["settlement_id"].tolist()])
+        out["indices"] = ix
+    return out
 
 
 def write_surface_outputs(folder: Path, study: Study, a: Analysis, summary: dict) -> None:
