@@ -50,7 +50,7 @@ from scipy.sparse.csgraph import dijkstra
 from ...errors import OptionError
 from ..attach import Attachment, attach_points
 
-__all__ = ["TripCosts", "trip_costs", "DIRECTIONS"]
+__all__ = ["TripCosts", "trip_costs", "bounded_task", "DIRECTIONS"]
 
 #: Trip directions: ``to-hub`` (settlement to hub, the default) or ``from-hub``.
 DIRECTIONS = ("to-hub", "from-hub")
@@ -400,10 +400,41 @@ def _bounded(g: sp.csr_array, sources: np.ndarray, targets: np.ndarray, within: 
             np.concatenate(out_c).astype(np.float64))
 
 
+def bounded_task(chunk, shared: dict):
+    """One chunk of sources of :func:`_bounded` on an executor: ``chunk`` = (offset, sources).
+
+    ``shared`` holds the graph's CSR arrays (``data``, ``indices``,
+    ``indptr``, ``n``), the ``targets`` and the bound ``within``; sent to
+    each worker once.  Returns the pairs with source numbers offset back.
+    """
+    offset, rows = chunk
+    g = sp.csr_array((shared["data"], shared["indices"], shared["indptr"]), shape=(shared["n"], shared["n"]))
+    a, b, c = _bounded(g, rows, shared["targets"], shared["within"])
+    return a + offset, b, c
+
+
+def _bounded_on(executor, g: sp.csr_array, sources: np.ndarray, targets: np.ndarray, within: float):
+    """:func:`_bounded` with the sources in chunks on ``executor``; the same pairs in the same order.
+
+    Each source's search is independent and runs the same code on the same
+    graph, so the pairs (and their costs, to the last bit) equal the
+    in-process run's.
+    """
+    if executor is None or executor.n_workers <= 1 or len(sources) < 2:
+        return _bounded(g, sources, targets, within)
+    n_chunks = min(len(sources), 4 * executor.n_workers)
+    cuts = np.linspace(0, len(sources), n_chunks + 1).astype(np.int64)
+    chunks = [(int(a), sources[a:b]) for a, b in zip(cuts[:-1], cuts[1:]) if b > a]
+    shared = {"data": g.data, "indices": g.indices, "indptr": g.indptr, "n": g.shape[0],
+              "targets": targets, "within": within}
+    parts = executor.map(bounded_task, chunks, shared=shared)
+    return tuple(np.concatenate([p[i] for p in parts]) for i in range(3))
+
+
 def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: float = np.inf,
                weight: str = "minutes", direction: str = "to-hub", max_access_m: float = 5000.0,
                walk_kmh: float = 5.0, pairs: bool = True, nearest: bool = True,
-               nearest_among=None, travel=None, always_join: bool = False) -> TripCosts:
+               nearest_among=None, travel=None, always_join: bool = False, executor=None) -> TripCosts:
     """Least trip costs between settlements and hubs, every pair within ``within``, plus the nearest hub.
 
     Parameters
@@ -444,6 +475,9 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
     always_join : bool, default False
         Settlements farther than ``max_access_m`` from the network join it
         at their nearest places all the same (the settlements layer's rule).
+    executor : geo_reach.parallel.Executor, optional
+        Where the bounded searches run (chunks of sources; default here).
+        The pairs are the same, in the same order, to the last bit.
 
     Returns
     -------
@@ -522,9 +556,9 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
     si, hi, cost = z, z, np.zeros(0)
     if pairs and start.n and end.n:
         if start.n <= end.n:   # forward from each start point
-            a, b, cost = _bounded(graph(False), s_rows, e_rows, within)
+            a, b, cost = _bounded_on(executor, graph(False), s_rows, e_rows, within)
         else:                  # backward from each end point
-            b, a, cost = _bounded(graph(True), e_rows, s_rows, within)
+            b, a, cost = _bounded_on(executor, graph(True), e_rows, s_rows, within)
         si, hi = (a, b) if to_hub else (b, a)
         order = np.lexsort((hi, si))
         si, hi, cost = si[order], hi[order], cost[order]
