@@ -28,6 +28,18 @@ Example (the invented demo region ships one as ``data_samples/study.toml``)::
     [surface]
     cell_m = 100
     bands = [30, 60, 120]
+
+    [criticality]              # every link closed in turn (layer link_criticality)
+    links = "all"              # or a file of edge ids, or [12, 40, 41]
+
+    [indices]                  # accessibility indices (layer access_index)
+    measures = ["2sfca", "gravity"]
+    within_minutes = 60
+    decay = "exponential"
+    decay_param = 0.05
+
+    [compute]                  # where the sections' independent work runs (default: here)
+    workers = 2                # a local cluster; or scheduler = "tcp://host:8786"
 """
 
 from __future__ import annotations

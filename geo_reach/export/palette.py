@@ -519,7 +519,7 @@ def criticality_classes(values) -> list[ColourClass]:
     return _quantile_classes(values, CRITICAL_ANCHORS, "people", 4, 2, lambda v: f"{v:,.10g}")
 
 
-def index_classes(values) -> list[ColourClass]:
+def index_classes(values, unit: str = "") -> list[ColourClass]:
     """Classes of an accessibility index (values above 0; quintiles, three significant figures).
 
     Examples
@@ -527,4 +527,4 @@ def index_classes(values) -> list[ColourClass]:
     >>> [c.label for c in index_classes([0.5, 1, 2, 3, 4, 5, 6, 7, 8, 9])]
     ['under 1.8', '1.8 to under 3.6', '3.6 to under 5.4', '5.4 to under 7.2', '7.2 or more']
     """
-    return _quantile_classes(values, INDEX_ANCHORS, "", 5, 3, lambda v: f"{v:.3g}")
+    return _quantile_classes(values, INDEX_ANCHORS, unit, 5, 3, lambda v: f"{v:.3g}")

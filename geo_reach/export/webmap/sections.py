@@ -18,6 +18,8 @@ __all__ = ["add_criticality", "add_indices", "SECTION_GROUPS"]
 
 #: Group ids these layers use, in the order they are listed (indices groups may add "_2", "_3" ...).
 SECTION_GROUPS = ("criticality", "indices")
+#: The floating catchment measures are supply per person: shown per 1,000 people (common practice).
+PER_1000 = ("2sfca", "e2sfca", "bfca")
 
 
 def add_criticality(b) -> None:
@@ -32,7 +34,7 @@ def add_criticality(b) -> None:
     f = f[np.isfinite(cut) & (cut > 0)].reset_index(drop=True)
     cut = _fnum(f, "people_cut_off")
     classes = P.criticality_classes(cut)
-    legend = [{"sw": "line", "c": k.colour, "t": k.label} for k in classes]
+    legend = [{"sw": "line", "c": k.colour, "t": k.label, "fam": "criticality"} for k in classes]
     b.group("criticality", "Link criticality: people cut off if the link closes", legend, on=False,
             note="Links whose closure cuts nobody off from a hub kind are not drawn. Model estimates.")
     if not len(f):
@@ -65,9 +67,11 @@ def add_indices(b) -> list[str]:
     for n, (m, k) in enumerate(keys):
         sel = np.array([(a, c) == (m, k) for a, c in zip(measure, kind)], bool)
         g = f[sel].reset_index(drop=True)
-        val = _fnum(g, "index")
-        classes = P.index_classes(val)
-        legend = [{"sw": "dot", "c": c.colour, "t": c.label} for c in classes]
+        scale, unit = (1000.0, "per 1,000 people") if m in PER_1000 else (1.0, "")
+        val = _fnum(g, "index") * scale
+        classes = P.index_classes(val, unit)
+        # one family over every measure's group (the browser's colour check compares families)
+        legend = [{"sw": "dot", "c": c.colour, "t": c.label, "fam": "index"} for c in classes]
         legend.append({"sw": "dot", "c": P.NO_VALUE, "t": "0: no hub within the catchment", "fam": "none"})
         gid = "indices" if n == 0 else f"indices_{n + 1}"
         what = " ".join(x for x in (m, f"({k})" if k else None) if x)
@@ -77,12 +81,12 @@ def add_indices(b) -> list[str]:
         styles = [{"fc": c.colour, "c": P.OUTLINE, "w": 1} for c in classes]
         styles.append({"fc": P.NO_VALUE, "c": P.OUTLINE, "w": 1})
         b.add(gid, "today", "pts", "point", g, cls=np.where(idx < 0, len(classes), idx).tolist(), styles=styles,
-              size=[5.0] * len(g), label="name", tip="name",
-              cols={"name": _text(_col(g, "name", None), 80), "index": [float(f"{v:.4g}") if np.isfinite(v) else None
-                                                                         for v in val],
+              size=[5.0] * len(g), tip="name",   # no labels: the settlements layer names the same places
+              cols={"name": _text(_col(g, "name", None), 80), "index": _num(val, 3),
                     "within": _num(_fnum(g, "hubs_within"), 0), "near": _num(_fnum(g, "nearest_minutes"), 1)},
               popup={"head": f"Access index{': ' + what if what else ''}", "title": "name",
-                     "rows": [["Index", "index", _fmt(digits=4)], ["Hubs within the catchment", "within",
+                     "rows": [["Index" + (f" ({unit})" if unit else ""), "index", _fmt(digits=3)],
+                              ["Hubs within the catchment", "within",
                                                                    _fmt(digits=0)],
                               ["Minutes to the nearest hub", "near", _fmt("min", 1, none="no hub reachable")]]})
         ids.append(gid)
