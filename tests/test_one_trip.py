@@ -304,3 +304,14 @@ def test_indices_nearest_minutes_are_the_settlements_and_the_routes_minutes(tmp_
             # one hub per kind: cumulative counts it when the trip is within 60 minutes
             assert rows.loc[s, "hubs_within"] == int(got <= 60.0) and rows.loc[s, "index"] == float(got <= 60.0)
     assert rows.loc[6, "nearest_minutes"] == pytest.approx(minutes(100 * math.sqrt(2)), rel=1e-9)
+    # the indices command with the same walking options prices the same trips
+    run_cli(["indices", tmp_path / "net.gpkg", "--hubs", f"{tmp_path / 'towns.gpkg'}:hubs", "--hub-id-field", "hub_id",
+             "--hub-kind-field", "kind", "--settlements", f"{tmp_path / 'towns.gpkg'}:villages",
+             "--settlement-id-field", "sid", "--population-field", "population", "--measure", "cumulative",
+             "--within-minutes", 60, "--walk-kmh", WALK_KMH, "--max-access-m", REACH, *friction,
+             "-o", tmp_path / "indices.gpkg"], capsys)
+    cmd = pyogrio.read_dataframe(tmp_path / "indices.gpkg", layer="access_index")
+    for kind, hub in (("clinic", "C"), ("market", "M")):
+        got = cmd[cmd["kind"] == kind].set_index("settlement_id")["nearest_minutes"]
+        for s in SETTLEMENTS:
+            assert got.loc[s] == pytest.approx(ref[(s, hub)], rel=1e-6), (kind, s)

@@ -209,3 +209,17 @@ def test_an_unknown_link_id_is_refused_before_the_long_steps(tmp_path, capsys):
     _, err = capsys.readouterr()
     assert code == 2 and "criticality.links" in err and "999" in err
     assert not (tmp_path / "out").exists()
+
+
+@pytest.mark.parametrize("links", ["[2, 0, 2]", '"links.txt"', '"links.csv"'])
+def test_links_as_ids_or_a_file_examine_those_links_only(tmp_path, links):
+    """criticality.links as an array of edge ids (a repeat kept once) or a file (one id per line, or a CSV
+    with an edge_id column): those links only, in rank order; the file is an input the run never replaces."""
+    (tmp_path / "links.txt").write_text("2\n0\n")
+    (tmp_path / "links.csv").write_text("edge_id,note\n2,bridge\n0,main\n")
+    study = _towns(tmp_path, f"\n[criticality]\nlinks = {links}\n")
+    assert cli.main(["run", str(study), "-o", str(tmp_path / "out"), "--quiet"]) == 0
+    layer = pyogrio.read_dataframe(tmp_path / "out" / "results.gpkg", layer="link_criticality")
+    assert sorted(layer["edge_id"]) == [0, 2] and sorted(layer["rank"]) == [1, 2]
+    if links != "[2, 0, 2]":
+        assert load_study(study).input_files().count(tmp_path / links.strip('"')) == 1
