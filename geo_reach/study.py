@@ -91,7 +91,8 @@ SCHEMA: dict = {
                     "population_field": str},
     "zones": {"path": _FILE, "layer": str, "id_field": str, "name_field": str},
     "outputs": {"map": bool, "basemap": bool, "profile_png": bool},
-    "criticality": {"links": ("links",)},
+    "criticality": {"links": ("links",), "hazard": _FILE, "hazard_layer": str, "hazard_raster": _FILE,
+                    "hazard_above": float, "closes_bridges": bool},
     "indices": {"measure": ("choice", _MEASURES), "measures": ("list", ("choice", _MEASURES)), "within_minutes": float,
                 "decay": ("choice", _DECAYS), "decay_param": float, "capacity_field": str,
                 "zone_minutes": ("list", float), "zone_weights": ("list", float)},
@@ -166,7 +167,7 @@ DOTTED_KEYS = {
     "hub_id_field": "hubs.id_field", "hub_kind_field": "hubs.kind_field", "hub_name_field": "hubs.name_field",
     "population_field": "settlements.population_field", "zone_id_field": "zones.id_field",
     **{k: f"compute.{k}" for k in ("workers", "scheduler", "timeout_s")},
-    "links": "criticality.links",
+    **{k: f"criticality.{k}" for k in ("links", "hazard", "hazard_raster", "hazard_above")},
     **{k: f"indices.{k}" for k in ("measure", "measures", "within_minutes", "decay", "decay_param", "capacity_field",
                                    "zone_minutes", "zone_weights")},
 }
@@ -525,6 +526,21 @@ def _check_sections(raw: dict, where_: str, loc) -> None:
     if crit is not None:
         if "hubs" not in raw:
             fail("criticality", "needs hubs: add a [hubs] table")
+    if crit is not None:
+        if "hazard" in crit and "hazard_raster" in crit:
+            fail("criticality.hazard_raster", "give either hazard (polygons) or hazard_raster, not both")
+        if "hazard_raster" in crit and "hazard_above" not in crit:
+            fail("criticality.hazard_raster", "needs hazard_above, the value above which a cell is hazard")
+        if "hazard_above" in crit and "hazard_raster" not in crit:
+            fail("criticality.hazard_above", "is used with hazard_raster; give the raster too")
+        if "hazard_layer" in crit and "hazard" not in crit:
+            fail("criticality.hazard_layer", "is used with hazard; give the hazard file too")
+        hazard = "hazard" in crit or "hazard_raster" in crit
+        if "closes_bridges" in crit and not hazard:
+            fail("criticality.closes_bridges", "is used with hazard or hazard_raster; give a hazard too")
+        if hazard and crit.get("links", "all") != "all":
+            fail("criticality.links", "examines links one at a time; a hazard closes its links together - give "
+                                      "one or the other")
     ind = raw.get("indices")
     if ind is not None:
         for need in ("hubs", "settlements"):

@@ -144,14 +144,14 @@ def test_results_folder_holds_tables_sheets_raster_and_map_layers(demo_run):
     assert '"id":"criticality"' in page.replace(" ", "") and '"id":"indices"' in page.replace(" ", "")
 
 
-def _towns(folder: Path, extra: str) -> Path:
+def _towns(folder: Path, extra: str, river: bool = False) -> Path:
     """The two-town case of tests/test_one_trip.py (its writer), with a section added."""
     import sys
 
     sys.path.insert(0, str(Path(__file__).parent))
     from test_one_trip import write_case
 
-    study = write_case(folder, river=False)
+    study = write_case(folder, river=river)
     study.write_text(study.read_text() + textwrap.dedent(extra))
     assert cli.main(["build", f"{folder / 'towns.gpkg'}:roads", "--speed-field", "speed", "-o",
                      str(folder / "net.gpkg")]) == 0
@@ -190,6 +190,9 @@ def test_compute_workers_run_criticality_on_a_local_cluster_with_the_same_number
     ("[compute]\nthreads = 2\n", "compute.threads", "unknown key"),
     ("[criticality]\nlinks = \"nowhere.txt\"\n", "criticality.links", "not found"),
     ("[criticality]\nlinks = [1, \"a\"]\n", "criticality.links", "whole numbers"),
+    ("[criticality]\nhazard_raster = \"terrain.tif\"\n", "criticality.hazard_raster", "needs hazard_above"),
+    ("[criticality]\nhazard = \"region.gpkg\"\nlinks = [1]\n", "criticality.links", "one or the other"),
+    ("[criticality]\nclose_bridges = true\n", "criticality.close_bridges", "unknown key"),
     ("[indices]\nmeasure = \"gravity\"\n", "indices.decay", "needs decay"),
     ("[indices]\nmeasure = \"2sfca\"\n", "indices.within_minutes", "needs the catchment"),
     ("[indices]\nmeasure = \"3sfca\"\n", "indices.measure", "is not one of"),
@@ -223,3 +226,30 @@ def test_links_as_ids_or_a_file_examine_those_links_only(tmp_path, links):
     assert sorted(layer["edge_id"]) == [0, 2] and sorted(layer["rank"]) == [1, 2]
     if links != "[2, 0, 2]":
         assert load_study(study).input_files().count(tmp_path / links.strip('"')) == 1
+
+
+def test_hazard_section_gives_the_commands_layers(tmp_path, capsys):
+    """[criticality] with hazard = the river polygon (also a barrier to walking): the bridge closes and the
+    east bank loses both hubs; the study's hazard_links and hazard_places equal the command's (--hazard with
+    the same barriers), and the tables are written."""
+    study = _towns(tmp_path, '\n[criticality]\nhazard = "towns.gpkg"\nhazard_layer = "water"\n', river=True)
+    run_cli(["run", study, "-o", tmp_path / "out", "--quiet"], capsys)
+    run_cli(["criticality", tmp_path / "net.gpkg", "--hubs", f"{tmp_path / 'towns.gpkg'}:hubs", "--hub-id-field",
+             "hub_id", "--hub-kind-field", "kind", "--settlements", f"{tmp_path / 'towns.gpkg'}:villages",
+             "--settlement-id-field", "sid", "--population-field", "population", "--walk-kmh", 5,
+             "--max-access-m", 5000, "--barriers", f"{tmp_path / 'towns.gpkg'}:water", "--cell-m", 100,
+             "--hazard", f"{tmp_path / 'towns.gpkg'}:water", "-o", tmp_path / "h.gpkg"],
+            capsys)
+    for layer in ("hazard_links", "hazard_places"):
+        a = pyogrio.read_dataframe(tmp_path / "out" / "results.gpkg", layer=layer).drop(columns="geometry")
+        b = pyogrio.read_dataframe(tmp_path / "h.gpkg", layer=layer).drop(columns="geometry")
+        assert len(a) > 0 and list(a.columns) == list(b.columns)
+        for c in a.columns:
+            np.testing.assert_array_equal(a[c].to_numpy(), b[c].to_numpy(), err_msg=f"{layer}.{c}")
+    places = pyogrio.read_dataframe(tmp_path / "out" / "results.gpkg", layer="hazard_places")
+    places = places.set_index(places["place_id"].astype(int))
+    # settlements 2, 3 and 4 stand on the east bank, outside the river: the bridge closes and they are isolated
+    assert places.loc[[2, 3, 4], "isolated"].tolist() == [1, 1, 1] and places.loc[[1, 5, 6], "isolated"].sum() == 0
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())["criticality"]
+    assert summary["links_closed"] >= 1 and summary["people_isolated"] == 300.0
+    assert (tmp_path / "out" / "hazard_places.csv").exists()

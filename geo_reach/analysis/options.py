@@ -196,15 +196,31 @@ class ComputeOptions:
 
 @dataclass(frozen=True)
 class CriticalityOptions:
-    """The ``[criticality]`` section: every link closed in turn.
+    """The ``[criticality]`` section: every link closed in turn, or one hazard closing many.
 
     Attributes
     ----------
     links : str or tuple of int
         ``"all"``, a file of edge ids (resolved against the study folder), or the ids.
+    hazard, hazard_layer : str or None
+        Hazard polygons (every link they touch closes).
+    hazard_raster : str or None
+        A hazard raster; cells above ``hazard_above`` close the links they touch.
+    hazard_above : float or None
+    closes_bridges : bool
+        Grade-separated links close too.
     """
 
     links: object = "all"
+    hazard: str | None = None
+    hazard_layer: str | None = None
+    hazard_raster: str | None = None
+    hazard_above: float | None = None
+    closes_bridges: bool = False
+
+    @property
+    def is_hazard(self) -> bool:
+        return self.hazard is not None or self.hazard_raster is not None
 
 
 @dataclass(frozen=True)

@@ -56,7 +56,7 @@ class SectionResult:
 
 def check_sections(study: Study, net) -> None:
     """Refuse, before the long steps, what the sections cannot use (unknown link ids)."""
-    if study.criticality is not None:
+    if study.criticality is not None and not study.criticality.is_hazard:
         _links(study, net)
 
 
@@ -132,7 +132,7 @@ def run_criticality(study: Study, base, hubs) -> SectionResult:
     net = base.build.network
     routing = study.routing
     out = SectionResult()
-    links = _links(study, net)
+    links = None if study.criticality.is_hazard else _links(study, net)
     place_xy = people = place_ids = None
     if study.settlements is not None:
         place_xy, place_ids, people, _ = settlement_points(study, net.crs)
@@ -142,6 +142,8 @@ def run_criticality(study: Study, base, hubs) -> SectionResult:
                                  max_access_m=routing.max_access_m, walk_kmh=routing.walk_kmh, travel=base.travel)
     except GeoReachError as err:
         raise err.with_message(f"criticality: {err}") from err
+    if study.criticality.is_hazard:
+        return _hazard(study, trips, out)
     with section_executor(study) as ex:
         res = link_criticality(trips, links, executor=ex)
     out.notes += [f"criticality: {n}" for n in res.notes]
@@ -155,6 +157,47 @@ def run_criticality(study: Study, base, hubs) -> SectionResult:
                    "direction": routing.direction,
                    "people": "settlements" if trips.has_places else "nodes (one person each)",
                    "work": w, "top": res.top(5), "caution": CAUTION}
+    return out
+
+
+def _hazard(study: Study, trips, out: SectionResult) -> SectionResult:
+    """One hazard closing every link it touches: who is affected in place, who is isolated (per district
+    with ``[zones]``); the layers ``geo-reach criticality --hazard`` writes."""
+    from .._meta import CAUTION
+    from ..analysis.criticality import hazard_layers, raster_hazard
+    from ..ingest.layers import parse_layer_ref, read_layer
+    from .inputs import layer_ref
+
+    net = trips.network
+    crit = study.criticality
+    if crit.hazard is not None:
+        ref = parse_layer_ref(layer_ref(study, crit.hazard, crit.hazard_layer))
+        geoms = read_layer(ref, "polygons").to_crs(net.crs).geometry.values
+        source = f"{crit.hazard}{':' + crit.hazard_layer if crit.hazard_layer else ''}"
+    else:
+        geoms = raster_hazard(study.resolve(crit.hazard_raster), crit.hazard_above, net.crs)
+        source = f"{crit.hazard_raster} above {crit.hazard_above:g}"
+    zones = zone_ids = None
+    if study.zones is not None:
+        z = study.zones
+        zones = read_layer(parse_layer_ref(layer_ref(study, z["path"], z.get("layer"))), "polygons").to_crs(net.crs)
+        if z.get("id_field"):
+            if z["id_field"] not in zones.columns:
+                raise InputError(f"zones: no field '{z['id_field']}' for the district ids; check the id field",
+                                 key="zone_id_field")
+            zone_ids = zones[z["id_field"]].to_numpy(object)
+    layers, imp = hazard_layers(trips, geoms, closes_bridges=crit.closes_bridges, zones=zones, zone_ids=zone_ids)
+    out.layers.update(layers)
+    out.descriptions = {"hazard_links": f"links the hazard ({source}) touches; closed = 1 unless grade-separated",
+                        "hazard_places": f"people in the hazard (in place) and those outside it who lose a hub kind "
+                                         f"(isolated), {trips.weight}",
+                        "hazard_districts": "hazard figures per district"}
+    out.tables["hazard_places"] = imp.places
+    if imp.districts is not None:
+        out.tables["hazard_districts"] = imp.districts
+    out.summary = {"hazard": source, "weight": trips.weight, "direction": trips.direction,
+                   "people": "settlements" if trips.has_places else "nodes (one person each)", **imp.summary,
+                   "caution": CAUTION}
     return out
 
 
