@@ -291,8 +291,9 @@ TERMS: tuple[Term, ...] = (
     _t("served_nodes", "Nodes whose nearest hub this is.", "", "hubs"),
     _t("served_length_m", "Network length whose nearest hub this is (half of each edge to each end).", "m",
        "hubs"),
-    _t("isolated", "1 where the hub sits in a part of the network with no other hub, cut off from the largest.",
-       "", "hubs"),
+    _t("isolated", "hubs: 1 where the hub sits in a part of the network with no other hub, cut off from the largest; "
+                   "hazard_places: 1 where the place lies outside the hazard and loses every hub of some kind.",
+       "", "hubs, hazard_places"),
     # ---------------------------------------------------------------- paths and trips
     _t("path_cost", "Cost of the path in the routing weight's unit.", "weight unit", "diameter_path"),
     _t("weight", "The routing weight: minutes, length_m, latency_ms or hops.", "",
@@ -516,6 +517,46 @@ TERMS: tuple[Term, ...] = (
     _t("baseline_s", "Seconds for today's figures.", "s", "summary timing"),
     _t("scenario_<scenario>_s", "Seconds for one scenario.", "s", "summary timing"),
     _t("total_s", "Seconds for the whole run.", "s", "summary timing"),
+    # ---------------------------------------------------------------- study sections [criticality], [indices]
+    _t("person_m_added", "person_minutes_added when the study routes on length: people times the metres added.",
+       "person-metres", "link_criticality"),
+    _t("person_hops_added", "person_minutes_added when the study routes on hops: people times the hops added.",
+       "person-hops", "link_criticality"),
+    _t("person_ms_added", "person_minutes_added when the study routes on latency: people times the ms added.",
+       "person-ms", "link_criticality"),
+    _t("closed", "1 where the hazard closes the link (0: grade-separated and kept open).", "", "hazard_links"),
+    _t("grade_separated", "1 where the link is grade-separated (a non-zero level: a bridge or tunnel) and kept "
+                          "open.", "", "hazard_links"),
+    _t("place_id", "The place: a settlement id, or a node id when no settlements are given.", "", "hazard_places"),
+    _t("people", "People at the place (1 per node when no settlements are given).", "people",
+       "hazard_places, hazard_districts"),
+    _t("in_hazard", "1 where the place lies inside the hazard.", "", "hazard_places"),
+    _t("<kind>_minutes_before", "Minutes to the nearest hub of that kind before the hazard closes its links "
+                                "(<kind>_m_ or _hops_ when the study routes on another weight).", "minutes",
+       "hazard_places"),
+    _t("<kind>_minutes_after", "The same with the hazard's links closed; empty = no hub of that kind reached.",
+       "minutes", "hazard_places"),
+    _t("cut_off_<kind>", "1 where the place loses every hub of that kind when the hazard closes its links.", "",
+       "hazard_places"),
+    _t("cut_off_in_place", "1 where the place lies inside the hazard and loses every hub of some kind.", "",
+       "hazard_places"),
+    _t("zone", "The district the place (or row) is in.", "", "hazard_places, hazard_districts"),
+    _t("people_in_place", "People whose own place lies inside the hazard.", "people", "hazard_districts, summary"),
+    _t("people_isolated", "People outside the hazard who lose every hub of some kind.", "people",
+       "hazard_districts, summary"),
+    _t("people_in_place_cut_off", "People inside the hazard who also lose every hub of some kind.", "people",
+       "hazard_districts, summary"),
+    _t("people_isolated_<kind>", "people_isolated for one hub kind.", "people", "hazard_districts"),
+    _t("people_in_place_cut_off_<kind>", "people_in_place_cut_off for one hub kind.", "people", "hazard_districts"),
+    _t("hazard_places.csv", "The hazard_places table ([criticality] with a hazard); line 1 is the caution.", "",
+       "results folder"),
+    _t("hazard_districts.csv", "The hazard_districts table (a hazard and [zones]); line 1 is the caution.", "",
+       "results folder"),
+    _t("link_criticality.csv", "The link_criticality table, rounded; line 1 is the caution.", "", "results folder"),
+    _t("access_index.csv", "The access_index table, rounded; line 1 is the caution.", "", "results folder"),
+    _t("hub_kinds_within.tif", "Raster: per cell, how many hub kinds have a hub within the [indices] catchment "
+                               "(within_minutes), read from each kind's travel-time surface (0 or 1 without kinds); "
+                               "empty outside the surface.", "hub kinds", "results folder"),
 )
 
 

@@ -28,6 +28,18 @@ Example (the invented demo region ships one as ``data_samples/study.toml``)::
     [surface]
     cell_m = 100
     bands = [30, 60, 120]
+
+    [criticality]              # every link closed in turn (layer link_criticality)
+    links = "all"              # or a file of edge ids, or [12, 40, 41]
+
+    [indices]                  # accessibility indices (layer access_index)
+    measures = ["2sfca", "gravity"]
+    within_minutes = 60
+    decay = "exponential"
+    decay_param = 0.05
+
+    [compute]                  # where the sections' independent work runs (default: here)
+    workers = 2                # a local cluster; or scheduler = "tcp://host:8786"
 """
 
 from __future__ import annotations
@@ -37,7 +49,10 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .analysis.options import DIRECTIONS, MetricsOptions, RoutingOptions, SurfaceOptions
+from .analysis.indices.measures import DECAYS as _DECAYS
+from .analysis.indices.measures import MEASURES as _MEASURES
+from .analysis.options import (DIRECTIONS, ComputeOptions, CriticalityOptions, IndicesOptions, MetricsOptions,
+                               RoutingOptions, SurfaceOptions)
 from .errors import GeoReachError, InputError, MissingInputError
 from .network.build import BuildOptions
 from .network.weights import WEIGHT_NAMES
@@ -76,6 +91,12 @@ SCHEMA: dict = {
                     "population_field": str},
     "zones": {"path": _FILE, "layer": str, "id_field": str, "name_field": str},
     "outputs": {"map": bool, "basemap": bool, "profile_png": bool},
+    "criticality": {"links": ("links",), "hazard": _FILE, "hazard_layer": str, "hazard_raster": _FILE,
+                    "hazard_above": float, "closes_bridges": bool},
+    "indices": {"measure": ("choice", _MEASURES), "measures": ("list", ("choice", _MEASURES)), "within_minutes": float,
+                "decay": ("choice", _DECAYS), "decay_param": float, "capacity_field": str,
+                "zone_minutes": ("list", float), "zone_weights": ("list", float)},
+    "compute": {"workers": int, "scheduler": str, "timeout_s": float},
     "scenarios": ("map", {
         "description": str,
         "add_lines": [_LINE_TABLE],
@@ -104,6 +125,8 @@ def _type_name(t) -> str:
         return "a table"
     if kind == "choice":
         return "one of " + ", ".join(repr(o) for o in t[1])
+    if kind == "links":
+        return '"all", a file of edge ids, or an array of edge ids'
     return str(t)
 
 
@@ -143,6 +166,10 @@ DOTTED_KEYS = {
                                    "landcover", "landcover_speeds", "barriers", "population", "neighbours")},
     "hub_id_field": "hubs.id_field", "hub_kind_field": "hubs.kind_field", "hub_name_field": "hubs.name_field",
     "population_field": "settlements.population_field", "zone_id_field": "zones.id_field",
+    **{k: f"compute.{k}" for k in ("workers", "scheduler", "timeout_s")},
+    **{k: f"criticality.{k}" for k in ("links", "hazard", "hazard_raster", "hazard_above")},
+    **{k: f"indices.{k}" for k in ("measure", "measures", "within_minutes", "decay", "decay_param", "capacity_field",
+                                   "zone_minutes", "zone_weights")},
 }
 
 #: Keys of the ``[surface]`` table that name input files rather than options.
@@ -195,6 +222,9 @@ class Study:
     zones: dict | None = None
     outputs: OutputOptions = field(default_factory=OutputOptions)
     scenarios: dict = field(default_factory=dict)
+    compute: ComputeOptions = field(default_factory=ComputeOptions)
+    criticality: CriticalityOptions | None = None
+    indices: IndicesOptions | None = None
 
     @property
     def name(self) -> str:
@@ -234,7 +264,7 @@ class Study:
             elif isinstance(schema, tuple) and schema[0] == "map" and isinstance(node, dict):
                 for v in node.values():
                     walk(v, schema[1])
-            elif schema == _FILE and isinstance(node, str):
+            elif (schema == _FILE or schema == ("links",)) and isinstance(node, str) and node != "all":
                 out.append(self.resolve(node))
 
         walk(self.raw, SCHEMA)
@@ -276,6 +306,21 @@ def _check(node, schema, dotted, errors, base, loc):
             q = q if q.is_absolute() else base / q
             if not q.exists():
                 return fail(f"file '{node}' not found (paths are relative to the study file)")
+            return None
+        if kind == "links":
+            if isinstance(node, list):
+                if not all(isinstance(v, int) and not isinstance(v, bool) for v in node):
+                    return fail("give edge ids as whole numbers (edge_id of the edges layer)")
+                return None
+            if not isinstance(node, str):
+                return fail(f"must be {_type_name(schema)}")
+            if node == "all" or base is None:
+                return None
+            q = Path(node)
+            q = q if q.is_absolute() else base / q
+            if not q.is_file():
+                return fail(f"file '{node}' not found; give \"all\", a file of edge ids (paths are relative to the "
+                            "study file) or an array of edge ids")
             return None
         if kind == "choice":
             if node not in schema[1]:
@@ -386,6 +431,7 @@ def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str |
                     if k in item and item[k] <= 0:
                         raise InputError(f"{at}.{k}: must be positive; close the features instead")
     _check_names_and_crs(raw, where_, loc)
+    _check_sections(raw, where_, loc)
     study = Study(path=path, raw=raw, base=base, title=raw.get("title", path.stem if path else "geo-reach study"),
                   lines=list(raw.get("lines", [])), hubs=raw.get("hubs"), settlements=raw.get("settlements"),
                   zones=raw.get("zones"), scenarios=dict(raw.get("scenarios", {})))
@@ -401,6 +447,20 @@ def study_from_dict(raw: dict, base: Path, path: Path | None = None, text: str |
             study.surface = SurfaceOptions(**{k: v for k, v in surface.items() if k not in SURFACE_FILES})
             study.surface_files = {k: v for k, v in surface.items() if k in SURFACE_FILES}
         study.outputs = OutputOptions(**raw.get("outputs", {}))
+        study.compute = ComputeOptions(**raw.get("compute", {}))
+        if "criticality" in raw:
+            c = dict(raw["criticality"])
+            if isinstance(c.get("links"), list):
+                c["links"] = tuple(c["links"])
+            study.criticality = CriticalityOptions(**c)
+        if "indices" in raw:
+            t = dict(raw["indices"])
+            one = t.pop("measure", None)
+            t["measures"] = tuple(t.get("measures", ())) or (one,)
+            for k in ("zone_minutes", "zone_weights"):
+                if k in t:
+                    t[k] = tuple(float(v) for v in t[k])
+            study.indices = IndicesOptions(**t)
     except GeoReachError as err:
         blamed = study.blame(err)
         if blamed is err and path is not None:
@@ -444,6 +504,81 @@ def _check_names_and_crs(raw: dict, where_: str, loc) -> None:
                 parse_crs(value, dotted)
             except InputError as err:
                 raise InputError(f"{where_}{dotted}{line(dotted)}: {str(err)[len(dotted) + 1:]}") from err
+
+
+def _check_sections(raw: dict, where_: str, loc) -> None:
+    """``[compute]``, ``[criticality]`` and ``[indices]``: keys that only make sense together (before any work)."""
+
+    def fail(dotted, msg):
+        n = loc.line_of(dotted) if loc else None
+        if n is None and loc and "." in dotted:          # a missing key: the line of its table
+            n = loc.line_of(dotted.rsplit(".", 1)[0])
+        raise InputError(f"{where_}{dotted}{f' (line {n})' if n else ''}: {msg}")
+
+    comp = raw.get("compute", {})
+    if "workers" in comp and "scheduler" in comp:
+        fail("compute.scheduler", "give either workers (a local cluster) or scheduler (a running one), not both")
+    if "workers" in comp and comp["workers"] < 1:
+        fail("compute.workers", f"{comp['workers']}: give 1 or more worker processes (leave it out to run here)")
+    if "timeout_s" in comp and not comp["timeout_s"] > 0:
+        fail("compute.timeout_s", f"{comp['timeout_s']}: give a positive number of seconds")
+    crit = raw.get("criticality")
+    if crit is not None:
+        if "hubs" not in raw:
+            fail("criticality", "needs hubs: add a [hubs] table")
+    if crit is not None:
+        if "hazard" in crit and "hazard_raster" in crit:
+            fail("criticality.hazard_raster", "give either hazard (polygons) or hazard_raster, not both")
+        if "hazard_raster" in crit and "hazard_above" not in crit:
+            fail("criticality.hazard_raster", "needs hazard_above, the value above which a cell is hazard")
+        if "hazard_above" in crit and "hazard_raster" not in crit:
+            fail("criticality.hazard_above", "is used with hazard_raster; give the raster too")
+        if "hazard_layer" in crit and "hazard" not in crit:
+            fail("criticality.hazard_layer", "is used with hazard; give the hazard file too")
+        hazard = "hazard" in crit or "hazard_raster" in crit
+        if "closes_bridges" in crit and not hazard:
+            fail("criticality.closes_bridges", "is used with hazard or hazard_raster; give a hazard too")
+        if hazard and crit.get("links", "all") != "all":
+            fail("criticality.links", "examines links one at a time; a hazard closes its links together - give "
+                                      "one or the other")
+    ind = raw.get("indices")
+    if ind is not None:
+        for need in ("hubs", "settlements"):
+            if need not in raw:
+                fail("indices", f"needs {need}: add a [{need}] table")
+        if "measure" in ind and "measures" in ind:
+            fail("indices.measures", "give either measure (one) or measures (an array), not both")
+        measures = list(ind.get("measures", [])) or ([ind["measure"]] if "measure" in ind else [])
+        if not measures:
+            fail("indices", f"name the measure: measure = one of {', '.join(repr(m) for m in _MEASURES)}")
+        t = ind.get("within_minutes")
+        if t is not None and not t > 0:
+            fail("indices.within_minutes", f"{t}: give a positive number of minutes")
+        for m in measures:
+            if t is None and m not in ("gravity",) and not (m == "e2sfca" and "zone_minutes" in ind):
+                fail("indices.within_minutes", f"missing; measure {m} needs the catchment in minutes, e.g. 30")
+        if "gravity" in measures:
+            if "decay" not in ind or "decay_param" not in ind:
+                fail("indices.decay", "measure gravity needs decay (exponential, power or gaussian) and "
+                                      "decay_param B")
+            if not ind["decay_param"] > 0:
+                fail("indices.decay_param", f"{ind['decay_param']}: give a positive number")
+        elif "decay" in ind or "decay_param" in ind:
+            fail("indices.decay", "decay and decay_param apply to measure gravity only")
+        if ("zone_minutes" in ind or "zone_weights" in ind) and "e2sfca" not in measures:
+            fail("indices.zone_minutes", "zone_minutes and zone_weights apply to measure e2sfca only")
+        if "e2sfca" in measures and ("zone_minutes" in ind or "zone_weights" in ind):
+            from .analysis.indices.measures import E2SFCA_WEIGHTS, E2SFCA_ZONE_FRACTIONS, check_zones
+            from .errors import OptionError
+
+            zw = ind.get("zone_weights", list(E2SFCA_WEIGHTS))
+            tt = t if t is not None else ind["zone_minutes"][-1]
+            zm = ind.get("zone_minutes", [f * tt for f in E2SFCA_ZONE_FRACTIONS])
+            try:
+                check_zones(zm, zw, tt)
+            except OptionError as err:
+                fail("indices.zone_minutes", str(err).replace("--zone-minutes", "zone_minutes")
+                     .replace("--zone-weights", "zone_weights").replace("--within-minutes", "within_minutes"))
 
 
 def load_study(path) -> Study:

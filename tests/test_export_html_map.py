@@ -246,7 +246,8 @@ def test_what_is_shown_at_first(page):
     on = {g["id"]: g["on"] for g in data_of(page)["groups"]}
     assert on == {"rings": True, "districts": False, "settlements": True, "hubs": True, "network": True,
                   "change": True, "proposed": True, "water": True, "district_lines": True, "weak_top": True,
-                  "weak_rest": False, "weak_empty": False, "diameter": False, "issues": False}
+                  "weak_rest": False, "weak_empty": False, "diameter": False, "issues": False,
+                  "criticality": False, "indices": False, "indices_2": False}
     modes = {g["id"]: g["mode"] for g in data_of(page)["groups"]}
     assert modes["rings"] == modes["districts"] == "shade"  # one shading at a time
 
@@ -311,6 +312,41 @@ def test_change_uses_its_own_hues(page):
     net_colours = {s["c"] for s in layers_of(d, "network", "v1")[0]["styles"]}
     assert not ({c.colour for c in classes} - {P.NEUTRAL}) & net_colours
     assert P.PATH_COLOUR not in {c.colour for c in classes}
+
+
+def test_criticality_links_by_people_cut_off_in_their_own_hues(page):
+    """Only links that cut somebody off are drawn, classed by people cut off, in the criticality family
+    (no colour shared with the network's or the travel classes), switched off at first."""
+    d = data_of(page)
+    lay = layers_of(d, "criticality", "today")[0]
+    crit = MI.criticality()
+    cut = crit["people_cut_off"].to_numpy(float)
+    drawn = cut[cut > 0]
+    classes = P.criticality_classes(drawn)
+    assert lay["cls"] == P.classify(drawn, classes).tolist()
+    assert col(lay, "cut") == drawn.tolist() and len(drawn) == 8
+    group = next(g for g in d["groups"] if g["id"] == "criticality")
+    assert group["on"] is False and [e["c"] for e in group["legend"]] == [c.colour for c in classes]
+    others = {s["c"] for s in layers_of(d, "network", "today")[0]["styles"]} | {c.colour for c in P.travel_classes(
+        MI.THRESHOLDS)}
+    assert not {c.colour for c in classes} & others
+
+
+def test_access_index_one_group_per_measure_with_zero_grey(page):
+    d = data_of(page)
+    ids = [g["id"] for g in d["groups"] if g["id"].startswith("indices")]
+    assert ids == ["indices", "indices_2"]
+    titles = [g["title"] for g in d["groups"] if g["id"] in ids]
+    assert titles == ["Access index: 2sfca (clinic)", "Access index: gravity (clinic)"]
+    lay = layers_of(d, "indices_2", "today")[0]
+    vals = np.array([1.2, 0.4, 0.9, 0.0, 2.2, 0.1])
+    classes = P.index_classes(vals)
+    idx = P.classify(np.where(vals > 0, vals, np.nan), classes)
+    assert lay["cls"] == np.where(idx < 0, len(classes), idx).tolist() and lay["cls"][3] == len(classes)
+    assert lay["styles"][-1]["fc"] == P.NO_VALUE
+    # 2SFCA is supply per person: shown per 1,000 people (0.0004 -> 0.4)
+    two = layers_of(d, "indices", "today")[0]
+    assert col(two, "index")[:2] == [0.4, 1.1] and two["popup"]["rows"][0][0] == "Index (per 1,000 people)"
 
 
 # ---------------------------------------------------------------- weak regions: about people

@@ -285,15 +285,18 @@ def _families(n_travel: int, n_net: int) -> dict:
         "change": [c.colour for c in P.change_classes([-100, 100])],
         "proposed": [P.PROPOSED_COLOUR],
         "district edge": ["#4d4d4d"],
+        # the study sections' layers (link criticality, accessibility index): 2 to 5 classes each
+        "criticality": sorted({c for n in range(2, 6) for c in P.ramp(P.CRITICAL_ANCHORS, n)}),
+        "index": sorted({c for n in range(2, 6) for c in P.ramp(P.INDEX_ANCHORS, n)}),
     }
 
 
 #: What can be on screen together: today's view (rings or the district shading) and a scenario's view.
 VIEWS = {
     "today, rings": ["background", "travel", "network", "no value", "water", "hubs", "reasons", "path", "issues",
-                     "district edge"],
+                     "district edge", "criticality", "index"],
     "today, districts": ["background", "share", "travel", "network", "no value", "water", "hubs", "reasons",
-                         "path", "issues", "district edge"],
+                         "path", "issues", "district edge", "criticality", "index"],
     "scenario": ["background", "travel", "network", "no value", "water", "hubs", "change", "proposed",
                  "district edge"],
 }
@@ -314,7 +317,8 @@ def test_families_shown_together_differ_by_ciede2000(n_travel):
 
 @pytest.mark.parametrize("anchors,n", [(P.TRAVEL_ANCHORS, n) for n in range(2, 9)]
                          + [(P.NETWORK_ANCHORS, n) for n in range(2, 8)]
-                         + [(P.SHARE_ANCHORS, 5), (P.FASTER_ANCHORS, 3), (P.SLOWER_ANCHORS, 3)])
+                         + [(P.SHARE_ANCHORS, 5), (P.FASTER_ANCHORS, 3), (P.SLOWER_ANCHORS, 3)]
+                         + [(P.CRITICAL_ANCHORS, n) for n in range(2, 6)] + [(P.INDEX_ANCHORS, n) for n in range(2, 6)])
 def test_ramps_fall_in_lightness_with_visible_steps(anchors, n):
     cols = P.ramp(anchors, n)
     L = [_lab(c)[0] for c in cols]

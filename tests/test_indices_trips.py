@@ -243,3 +243,55 @@ def test_nearest_among_a_subset_of_hubs(seed):
     assert np.isin(got.nearest_hub[has], among).all() and (got.nearest_hub[~has] == -1).all()
     np.testing.assert_allclose(ref[np.nonzero(has)[0], got.nearest_hub[has]], want[has], rtol=1e-9)
     np.testing.assert_allclose(got.dense(), np.where(ref <= within, ref, np.inf), rtol=1e-9)
+
+
+class _Chunked:
+    """An in-process executor that says it has three workers, so trip_costs splits its searches into chunks."""
+
+    n_workers = 3
+    chunks = 0
+
+    def map(self, func, chunks, shared=None, progress=None):
+        self.chunks = len(chunks)
+        return [func(c, shared) for c in chunks]
+
+
+@SETTINGS
+@given(seed=st.integers(0, 2**32 - 1), ns=st.integers(1, 15), nh=st.integers(1, 15),
+       direction=st.sampled_from(["to-hub", "from-hub"]))
+def test_searches_in_chunks_give_the_same_pairs_bit_for_bit(seed, ns, nh, direction):
+    """The sources split over an executor (as on a cluster): the same pairs, in the same order, same costs."""
+    rng = np.random.default_rng(seed)
+    net = random_network(rng, 20, 50, nan_prob=0.05)
+    s_xy = rng.uniform(0, 5000, (ns, 2))
+    h_xy = rng.uniform(0, 5000, (nh, 2))
+    plain = trip_costs(net, s_xy, h_xy, within=20.0, direction=direction)
+    ex = _Chunked()
+    split = trip_costs(net, s_xy, h_xy, within=20.0, direction=direction, executor=ex)
+    assert ex.chunks == (min(ns, nh, 12) if min(ns, nh) >= 2 else 0)
+    for f in ("settlement", "hub", "cost", "nearest_cost", "nearest_hub"):
+        np.testing.assert_array_equal(getattr(plain, f), getattr(split, f), err_msg=f)
+
+
+@SETTINGS
+@given(seed=st.integers(0, 2**32 - 1), direction=st.sampled_from(["to-hub", "from-hub"]))
+def test_with_the_travel_model_costs_equal_its_od_matrix(seed, direction):
+    """One trip, one number: given the run's TravelModel, the pairs and the nearest hub are the model's own
+    od costs - walk legs onto the network and the straight walk between a settlement and a hub within
+    reach (the reference: TravelModel.od, checked against networkx in tests/test_travel.py)."""
+    from geo_reach.analysis.options import RoutingOptions
+    from geo_reach.analysis.travel import TravelModel
+
+    rng = np.random.default_rng(seed)
+    net = random_network(rng, 20, 45, nan_prob=0.05)
+    s_xy = rng.uniform(-300, 5300, (9, 2))
+    h_xy = np.vstack([rng.uniform(-300, 5300, (4, 2)), s_xy[:2] + rng.uniform(-300, 300, (2, 2))])
+    model = TravelModel(RoutingOptions(weight="minutes", direction=direction, max_access_m=1500.0, walk_kmh=4.0))
+    if direction == "to-hub":
+        ref = model.od(net, s_xy, h_xy).cost
+    else:
+        ref = model.od(net, h_xy, s_xy).cost.T
+    within = between_costs(ref)
+    got = trip_costs(net, s_xy, h_xy, within=within, direction=direction, travel=model)
+    check_against(ref, got, within)
+    check_against(ref, trip_costs(net, s_xy, h_xy, direction=direction, travel=model), np.inf)

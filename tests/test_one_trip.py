@@ -274,3 +274,44 @@ def test_settlement_minutes_stay_minutes_when_the_study_routes_on_length(tmp_pat
     ref = reference(read_network(tmp_path / "net.gpkg"), river=False)
     for s in SETTLEMENTS:
         assert table.loc[s, "hub_minutes"] == pytest.approx(min(ref[(s, h)] for h in HUBS), rel=1e-6)
+
+
+@pytest.mark.parametrize("river", [False, True], ids=["flat-no-friction", "river-with-one-bridge"])
+def test_indices_hub_minutes_are_the_settlements_and_the_routes_minutes(tmp_path, capsys, river):
+    """The study's [indices] section prices each settlement's trip to the nearest hub of each kind as the
+    settlements layer, `route` and the reference do (settlement 6 walks straight to the market; with the
+    river, the east bank crosses at the bridge)."""
+    study = write_case(tmp_path, river)
+    study.write_text(study.read_text() + '\n[indices]\nmeasure = "cumulative"\nwithin_minutes = 60\n')
+    run_cli(["build", f"{tmp_path / 'towns.gpkg'}:roads", "--speed-field", "speed", "-o", tmp_path / "net.gpkg"],
+            capsys)
+    run_cli(["run", study, "-o", tmp_path / "out", "--quiet"], capsys)
+    idx = pyogrio.read_dataframe(tmp_path / "out" / "results.gpkg", layer="access_index")
+    table = pyogrio.read_dataframe(tmp_path / "out" / "results.gpkg", layer="settlements").set_index("settlement_id")
+    ref = reference(read_network(tmp_path / "net.gpkg"), river)
+    friction = ["--barriers", f"{tmp_path / 'towns.gpkg'}:water", "--cell-m", "100"] if river else []
+    for kind, hub in (("clinic", "C"), ("market", "M")):
+        rows = idx[idx["kind"] == kind].set_index("settlement_id")
+        assert sorted(rows.index) == sorted(SETTLEMENTS)
+        for s, sp in SETTLEMENTS.items():
+            got = rows.loc[s, "hub_minutes"]
+            assert got == pytest.approx(table.loc[s, f"hub_minutes_{kind}"], rel=1e-9), (kind, s)
+            assert got == pytest.approx(ref[(s, hub)], rel=1e-6), (kind, s)
+            hp = HUBS[hub]
+            out, _ = run_cli(["route", tmp_path / "net.gpkg", "--from", f"{sp[0]},{sp[1]}", "--to", f"{hp[0]},{hp[1]}",
+                              "--crs", CRS, "--walk-kmh", WALK_KMH, "--max-access-m", REACH, *friction], capsys)
+            assert got == pytest.approx(json.loads(out)["properties"]["cost"], rel=1e-6), (kind, s)
+            # one hub per kind: cumulative counts it when the trip is within 60 minutes
+            assert rows.loc[s, "hubs_within"] == int(got <= 60.0) and rows.loc[s, "index"] == float(got <= 60.0)
+    assert rows.loc[6, "hub_minutes"] == pytest.approx(minutes(100 * math.sqrt(2)), rel=1e-9)
+    # the indices command with the same walking options prices the same trips
+    run_cli(["indices", tmp_path / "net.gpkg", "--hubs", f"{tmp_path / 'towns.gpkg'}:hubs", "--hub-id-field", "hub_id",
+             "--hub-kind-field", "kind", "--settlements", f"{tmp_path / 'towns.gpkg'}:villages",
+             "--settlement-id-field", "sid", "--population-field", "population", "--measure", "cumulative",
+             "--within-minutes", 60, "--walk-kmh", WALK_KMH, "--max-access-m", REACH, *friction,
+             "-o", tmp_path / "indices.gpkg"], capsys)
+    cmd = pyogrio.read_dataframe(tmp_path / "indices.gpkg", layer="access_index")
+    for kind, hub in (("clinic", "C"), ("market", "M")):
+        got = cmd[cmd["kind"] == kind].set_index("settlement_id")["hub_minutes"]
+        for s in SETTLEMENTS:
+            assert got.loc[s] == pytest.approx(ref[(s, hub)], rel=1e-6), (kind, s)

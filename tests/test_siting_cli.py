@@ -198,3 +198,20 @@ def test_scenario_file_never_replaces_an_input(case, capsys, monkeypatch):
     assert_refused(code, err, "hubs.gpkg", "is also an input")
     assert (case / "hubs.gpkg").read_bytes() == before
     assert not (case / "out.gpkg").exists()
+
+
+def test_workers_give_the_in_process_result(case, capsys, monkeypatch):
+    """--workers 2: the settlement-candidate searches run on a local cluster of two worker processes; the
+    chosen sites, their gains and the objective equal the in-process run's (the by-hand case above)."""
+    cov = ["--count", 2, "--objective", "coverage", "--within-minutes", 2.5, "--json"]
+    code, here, err = run(args_for(case, *cov), capsys, monkeypatch)
+    assert code == 0, err
+    a = gpd.read_file(case / "out.gpkg", layer="chosen_sites")
+    code, there, err = run(args_for(case, *cov, "--workers", 2, "--overwrite"), capsys, monkeypatch)
+    assert code == 0, err
+    b = gpd.read_file(case / "out.gpkg", layer="chosen_sites")
+    assert a.drop(columns="geometry").equals(b.drop(columns="geometry"))
+    ra, rb = json.loads(here), json.loads(there)
+    assert ra["objective"] == rb["objective"] == pytest.approx(1500.0) and ra["sites"] == rb["sites"]
+    (case / "out.gpkg").unlink()
+    refused(case, capsys, monkeypatch, args_for(case, *cov, "--workers", 0), "--workers 0")

@@ -19,7 +19,8 @@ from dataclasses import dataclass, fields, replace
 from ..errors import OptionError
 from ..network.weights import MINUTES, Weight, as_weight
 
-__all__ = ["DIRECTIONS", "RoutingOptions", "MetricsOptions", "SurfaceOptions", "defaults", "replace"]
+__all__ = ["DIRECTIONS", "RoutingOptions", "MetricsOptions", "SurfaceOptions", "ComputeOptions", "CriticalityOptions",
+           "IndicesOptions", "defaults", "replace"]
 
 #: Which way a trip runs: from each place to its hub, or from the hub out to each place.
 DIRECTIONS = ("to-hub", "from-hub")
@@ -174,3 +175,76 @@ def defaults(cls) -> dict:
     return {f.name: f.default for f in fields(cls)}
 
 
+@dataclass(frozen=True)
+class ComputeOptions:
+    """Where the study's independent work runs (``[compute]``): in-process, a local cluster or a running one.
+
+    Attributes
+    ----------
+    workers : int or None
+        Start a local dask.distributed cluster of this many worker processes.
+    scheduler : str or None
+        Join a running scheduler at this address (``tcp://host:8786``).
+    timeout_s : float
+        Seconds to wait for the scheduler and a worker.
+    """
+
+    workers: int | None = None
+    scheduler: str | None = None
+    timeout_s: float = 30.0
+
+
+@dataclass(frozen=True)
+class CriticalityOptions:
+    """The ``[criticality]`` section: every link closed in turn, or one hazard closing many.
+
+    Attributes
+    ----------
+    links : str or tuple of int
+        ``"all"``, a file of edge ids (resolved against the study folder), or the ids.
+    hazard, hazard_layer : str or None
+        Hazard polygons (every link they touch closes).
+    hazard_raster : str or None
+        A hazard raster; cells above ``hazard_above`` close the links they touch.
+    hazard_above : float or None
+    closes_bridges : bool
+        Grade-separated links close too.
+    """
+
+    links: object = "all"
+    hazard: str | None = None
+    hazard_layer: str | None = None
+    hazard_raster: str | None = None
+    hazard_above: float | None = None
+    closes_bridges: bool = False
+
+    @property
+    def is_hazard(self) -> bool:
+        return self.hazard is not None or self.hazard_raster is not None
+
+
+@dataclass(frozen=True)
+class IndicesOptions:
+    """The ``[indices]`` section: accessibility indices of every settlement (minutes).
+
+    Attributes
+    ----------
+    measures : tuple of str
+        One or more of cumulative, gravity, 2sfca, e2sfca, bfca.
+    within_minutes : float or None
+        The catchment T, minutes (gravity without it sums over every reachable hub).
+    decay, decay_param : str or None, float or None
+        Gravity's decay form and its parameter B.
+    capacity_field : str or None
+        The hubs' capacity field (default 1 per hub).
+    zone_minutes, zone_weights : tuple of float or None
+        E2SFCA's sub-zones (default thirds of T, weights 1, 0.68, 0.22).
+    """
+
+    measures: tuple = ()
+    within_minutes: float | None = None
+    decay: str | None = None
+    decay_param: float | None = None
+    capacity_field: str | None = None
+    zone_minutes: tuple | None = None
+    zone_weights: tuple | None = None

@@ -96,31 +96,14 @@ def parse_links(text: str, network):
     """``all`` -> None; a file of ids; or ids separated by commas.  Unknown ids are refused by name."""
     import re
 
-    from ..analysis.criticality import UnknownLinkError, check_links
+    from ..analysis.criticality import UnknownLinkError, check_links, read_link_ids
 
     text = str(text).strip()
     if text == "all":
         return None
     path = Path(text)
     if path.is_file():
-        raw = path.read_text(errors="replace")
-        first = raw.lstrip().splitlines()[0] if raw.strip() else ""
-        if "edge_id" in first:
-            import pandas as pd
-
-            frame = pd.read_csv(path)
-            if "edge_id" not in frame.columns:
-                raise InputError(f"{where(path)}the header mentions edge_id but no column is named exactly "
-                                 "'edge_id'; name the column edge_id")
-            tokens = frame["edge_id"].tolist()
-        else:
-            tokens = [t for t in re.split(r"[\s,;]+", raw) if t]
-        if not tokens:
-            raise InputError(f"{where(path)}holds no link ids; give edge ids, one per line")
-        try:
-            return check_links(network, tokens)
-        except UnknownLinkError as err:
-            raise UnknownLinkError(f"{where(path)}{err}") from err
+        return read_link_ids(path, network)
     tokens = [t.strip() for t in text.split(",")]
     if len(tokens) == 1 and not re.fullmatch(r"[+-]?\d+(\.0*)?", tokens[0]):
         raise MissingInputError(f"{where(text)}not found; --links takes all, a file of edge ids, or ids "
@@ -226,11 +209,10 @@ def _write(args, layers, descriptions, table):
 
 
 def _run_hazard(args, trips):
-    import geopandas as gpd
     import shapely
 
     from .._meta import CAUTION
-    from ..analysis.criticality import hazard_impact, hazard_links, raster_hazard
+    from ..analysis.criticality import hazard_layers, raster_hazard
     from ..ingest.layers import parse_layer_ref, read_layer
 
     net = trips.network
@@ -243,17 +225,7 @@ def _run_hazard(args, trips):
     else:
         geoms = raster_hazard(args.hazard_raster, args.hazard_above, net.crs)
         source = f"{args.hazard_raster} above {args.hazard_above:g}"
-    hl = hazard_links(net, geoms, closes_bridges=args.hazard_closes_bridges)
-    if trips.has_places:
-        place_xy = trips.place_att.point_xy
-    else:
-        place_xy = np.column_stack([net.node_x, net.node_y])
-    pts = shapely.points(place_xy)
-    inside = np.zeros(len(pts), bool)
-    if len(geoms):
-        pi, _ = shapely.STRtree(geoms).query(pts, predicate="intersects")
-        inside[np.unique(pi)] = True
-    zone = zones = None
+    zones = zid = None
     if args.zones:
         zref = parse_layer_ref(args.zones)
         zones = read_layer(zref, "polygons").to_crs(net.crs)
@@ -263,30 +235,11 @@ def _run_hazard(args, trips):
                 raise MissingInputError(f"{where(zref.path, zref.layer)}has no field '{args.zone_id_field}' "
                                         f"(fields: {', '.join(map(str, cols))}); check --zone-id-field")
             zid = zones[args.zone_id_field].to_numpy(object)
-        else:
-            zid = np.arange(1, len(zones) + 1).astype(object)
-        zone = np.full(len(pts), None, object)
-        zg = np.asarray(zones.geometry.values, dtype=object)
-        pi, zi = shapely.STRtree(zg).query(pts, predicate="intersects")
-        order = np.lexsort((zi, pi))
-        pi, zi = pi[order], zi[order]
-        first = np.r_[True, pi[1:] != pi[:-1]] if len(pi) else np.zeros(0, bool)
-        zone[pi[first]] = zid[zi[first]]
-    imp = hazard_impact(trips, hl, inside, zone)
-    touched = gpd.GeoDataFrame({"edge_id": hl.touched, "closed": np.isin(hl.touched, hl.closed).astype(np.int32),
-                                "grade_separated": np.isin(hl.touched, hl.kept_open).astype(np.int32)
-                                if not args.hazard_closes_bridges else
-                                np.zeros(len(hl.touched), np.int32)},
-                               geometry=net.edge_geometry[hl.touched] if len(hl.touched) else [], crs=net.crs)
-    places = gpd.GeoDataFrame(imp.places, geometry=pts, crs=net.crs)
-    layers = {"hazard_links": touched, "hazard_places": places}
+    layers, imp = hazard_layers(trips, geoms, closes_bridges=args.hazard_closes_bridges, zones=zones, zone_ids=zid)
     desc = {"hazard_links": f"links the hazard ({source}) touches; closed = 1 unless grade-separated. {CAUTION}",
             "hazard_places": f"people in the hazard (in place) and those outside it who lose a hub kind "
                              f"(isolated), {args.weight.name}. {CAUTION}"}
-    if imp.districts is not None and zones is not None:
-        dist = imp.districts
-        zg = gpd.GeoDataFrame({"zone": zid}, geometry=zones.geometry.values, crs=net.crs)
-        layers["hazard_districts"] = zg.merge(dist, on="zone", how="left")
+    if "hazard_districts" in layers:
         desc["hazard_districts"] = f"hazard figures per district. {CAUTION}"
     _write(args, layers, desc, imp.places)
     s = imp.summary

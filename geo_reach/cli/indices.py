@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ._common import add_access, note
+from ._common import add_access, add_friction, friction_inputs, note
 
 __all__ = ["register", "run", "check_options", "parse_numbers"]
 
@@ -54,6 +54,7 @@ def register(sub):
     p.add_argument("--weight", choices=["minutes", "length_m"], default="minutes",
                    help="cost each edge counts (default minutes)")
     add_access(p)
+    add_friction(p)
     p.add_argument("-o", "--output", required=True, metavar="OUT.gpkg", help="output GeoPackage")
     p.add_argument("--csv", metavar="FILE.csv", help="also write the access_index table as CSV")
     p.add_argument("--overwrite", action="store_true", help="replace existing outputs")
@@ -106,10 +107,10 @@ def run(args):
     from ..export.atomic import OutputSet
     from ..export.gpkg import write_layers
     from ..export.guard import check_io
-    from ._common import read_network_arg, report_excluded
+    from ._common import read_network_arg, report_excluded, routing_options, travel_model_for_points
 
     t = check_options(args)
-    check_io(inputs=[args.network, args.hubs, args.settlements],
+    check_io(inputs=[args.network, args.hubs, args.settlements, *friction_inputs(args)],
              files=[(args.output, "GeoPackage"), (args.csv, "CSV file")], overwrite=args.overwrite)
     net = read_network_arg(args.network, args.weight)
     report_excluded(net, args.weight)
@@ -127,10 +128,12 @@ def run(args):
         from ..analysis.indices.measures import E2SFCA_ZONE_FRACTIONS
 
         zones = list(np.asarray(E2SFCA_ZONE_FRACTIONS) * t)
+    # the one travel model: route, od and the study price the same walks (terrain, land cover, barriers)
+    travel = travel_model_for_points(args, net, np.vstack([hubs.xy, st.xy]), routing_options(args))
     layer, hub_layer, notes = index_layer(net, st, hubs, args.measure, within=t, weight=args.weight,
                                           decay=args.decay, decay_param=args.decay_param, zones=zones,
                                           zone_weights=args.zone_weights, max_access_m=args.max_access_m,
-                                          walk_kmh=args.walk_kmh)
+                                          walk_kmh=args.walk_kmh, travel=travel)
     for msg in notes:
         note(msg)
     unit = "minutes" if args.weight == "minutes" else "m"

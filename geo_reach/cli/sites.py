@@ -43,6 +43,9 @@ def register(sub):
                    help="coverage: the radius T in minutes (needed); total-minutes: a new site counts for a "
                         "settlement only within T (bounds the searches; default: no bound)")
     add_access(p)
+    p.add_argument("--workers", type=int, metavar="N",
+                   help="run the settlement-to-candidate searches on a local cluster of N worker processes "
+                        "(default: in this process; the same results either way)")
     p.add_argument("-o", "--output", required=True, metavar="OUT.gpkg", help="output GeoPackage")
     p.add_argument("--scenario-file", metavar="FILE.toml",
                    help="also write a study scenario adding the chosen sites as hubs (for geo-reach compare)")
@@ -70,6 +73,8 @@ def check_options(args):
         raise OptionError("--objective coverage needs --within-minutes T (the people within T minutes are counted)")
     if args.count < 1:
         raise OptionError(f"--count {args.count}: give 1 or more sites")
+    if args.workers is not None and args.workers < 1:
+        raise OptionError(f"--workers {args.workers}: give 1 or more worker processes")
     if args.hub_kind is not None and args.hub_kind_field is None:
         raise OptionError("--hub-kind needs --hub-kind-field (the field holding the hub kinds)")
     if not (args.walk_kmh > 0 and args.walk_kmh < float("inf")):
@@ -179,8 +184,12 @@ def run(args):
     c_xy, c_ids, c_what = candidate_points(args, net, st)
     if args.count > len(c_ids):
         raise OptionError(f"--count {args.count}: larger than {c_what}; give at most {len(c_ids)}")
-    res = choose_sites(net, st.xy, st.values, hubs.xy[open_], c_xy, args.count, args.objective,
-                       within=args.within_minutes, max_access_m=args.max_access_m, walk_kmh=args.walk_kmh)
+    from ..parallel import executor
+
+    with executor(workers=args.workers) as ex:
+        res = choose_sites(net, st.xy, st.values, hubs.xy[open_], c_xy, args.count, args.objective,
+                           within=args.within_minutes, max_access_m=args.max_access_m, walk_kmh=args.walk_kmh,
+                           executor=ex)
     for msg in res.notes:
         note(msg)
     n = len(res.sites)

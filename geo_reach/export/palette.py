@@ -15,6 +15,10 @@ network cost        links by cost to the nearest hub, in the     purple, 305-312
 change              after minus before: faster / slower          blue 266-275 / orange 40-60
 district share      share of people beyond the threshold         sand to brick, 38-78
 weak-region reason  one fixed colour per reason                  magenta, dark blue, ochre
+link criticality    links by the people cut off when each        pink to crimson-violet,
+                    closes (those cutting nobody off not drawn)  318-330
+access index        settlements by their accessibility index     olive to deep green,
+                    (quantile classes of the values above 0)     102-114
 water and barriers  fill                                         light blue, 238
 single symbols      hubs (black shapes by kind), longest         black, green, yellow,
                     shortest trip, proposed line, network issues salmon
@@ -65,8 +69,8 @@ __all__ = [
     "BACKGROUND", "NO_VALUE", "NEUTRAL", "OUTLINE", "HUB_COLOUR", "WATER", "WATER_EDGE", "PATH_COLOUR",
     "ISSUE_COLOUR", "PROPOSED_COLOUR", "REASON_COLOURS", "REASON_LABELS", "MIN_DELTA_E_BETWEEN_FAMILIES",
     "MIN_DELTA_E_WITHIN_RAMP", "TRAVEL_ANCHORS", "NETWORK_ANCHORS", "SHARE_ANCHORS", "FASTER_ANCHORS",
-    "SLOWER_ANCHORS", "HUB_SHAPES", "COST_BOUNDS_MINUTES", "CHANGE_NEUTRAL_MINUTES", "SHARE_BOUNDS",
-    "travel_classes", "cost_classes", "change_classes", "share_classes", "hub_symbols", "reason_colour",
+    "SLOWER_ANCHORS", "CRITICAL_ANCHORS", "INDEX_ANCHORS", "HUB_SHAPES", "COST_BOUNDS_MINUTES", "CHANGE_NEUTRAL_MINUTES", "SHARE_BOUNDS",
+    "travel_classes", "cost_classes", "change_classes", "share_classes", "criticality_classes", "index_classes", "hub_symbols", "reason_colour",
     "classify", "colour_of",
 ]
 
@@ -158,6 +162,12 @@ SHARE_ANCHORS = ((91, 20, 78), (82, 32, 70), (73, 40, 60), (60, 50, 48), (47, 55
 #: Change classes, smallest change first: faster (blue) and slower (orange).
 FASTER_ANCHORS = ((68, 32, 266), (56, 45, 268), (38, 55, 275))
 SLOWER_ANCHORS = ((78, 40, 60), (64, 60, 50), (48, 62, 40))
+
+#: People cut off when a link closes, few (light pink) to many (deep crimson-violet).  Chosen by a search of
+#: CIE LCh anchors for the largest least CIEDE2000 difference to every colour of the other families (13.9).
+CRITICAL_ANCHORS = ((88, 50, 318), (40, 80, 330))
+#: Accessibility index, low (light olive) to high (deep green); found by the same search (12.7).
+INDEX_ANCHORS = ((75, 50, 102), (28, 80, 114))
 
 #: Why a region is weak: a fixed colour per reason (never depends on which reasons occur).
 REASON_COLOURS = {
@@ -464,3 +474,55 @@ def classify(values, classes: list[ColourClass]) -> np.ndarray:
 def colour_of(values, classes: list[ColourClass]) -> list[str]:
     """The colour of each value (``NO_VALUE`` where it is in no class)."""
     return [classes[i].colour if i >= 0 else NO_VALUE for i in classify(values, classes)]
+
+
+def _quantile_bounds(values, k: int, digits: int) -> list[float]:
+    """Up to ``k - 1`` increasing class bounds at the quantiles of the values above 0, rounded to
+    ``digits`` significant figures (bounds that round together are merged)."""
+    a = _finite(values)
+    a = a[a > 0]
+    if not a.size:
+        return []
+    qs = np.quantile(a, np.arange(1, k) / k)
+    out: list[float] = []
+    for q in qs:
+        b = float(f"{q:.{digits}g}")
+        if b > 0 and (not out or b > out[-1]) and b <= a.max():
+            out.append(b)
+    return out
+
+
+def _quantile_classes(values, anchors, unit: str, k: int, digits: int, fmt) -> list[ColourClass]:
+    bounds = _quantile_bounds(values, k, digits)
+    colours = ramp(anchors, len(bounds) + 1) if bounds else ramp(anchors, 2)[-1:]
+    out = []
+    for i, colour in enumerate(colours):
+        lo = bounds[i - 1] if i > 0 else 0.0
+        hi = bounds[i] if i < len(bounds) else None
+        label = f"{fmt(lo)} or more" if hi is None else f"{fmt(lo)} to under {fmt(hi)}"
+        out.append(ColourClass(lo, hi, colour, f"{label} {unit}".strip()))
+    out[0] = ColourClass(None, out[0].hi, out[0].colour,
+                         (f"under {fmt(out[0].hi)} {unit}" if out[0].hi is not None else f"any {unit}").strip())
+    return out
+
+
+def criticality_classes(values) -> list[ColourClass]:
+    """Classes of people cut off when a link closes (values above 0; quartiles, two significant figures).
+
+    Examples
+    --------
+    >>> [c.label for c in criticality_classes([0, 10, 20, 30, 40, 400])]
+    ['under 20 people', '20 to under 30 people', '30 to under 40 people', '40 or more people']
+    """
+    return _quantile_classes(values, CRITICAL_ANCHORS, "people", 4, 2, lambda v: f"{v:,.10g}")
+
+
+def index_classes(values, unit: str = "") -> list[ColourClass]:
+    """Classes of an accessibility index (values above 0; quintiles, three significant figures).
+
+    Examples
+    --------
+    >>> [c.label for c in index_classes([0.5, 1, 2, 3, 4, 5, 6, 7, 8, 9])]
+    ['under 1.8', '1.8 to under 3.6', '3.6 to under 5.4', '5.4 to under 7.2', '7.2 or more']
+    """
+    return _quantile_classes(values, INDEX_ANCHORS, unit, 5, 3, lambda v: f"{v:.3g}")

@@ -137,6 +137,15 @@ def _write_surface_rasters(folder: Path, a: Analysis):
         write_result_raster(folder / "connection_m.tif", a.connection_m.astype(np.float32), g, np.nan)
 
 
+def _write_section_rasters(folder: Path, a: Analysis):
+    """The sections' rasters (``<name>.tif``, float32, NaN = no value)."""
+    from ..export.raster import write_result_raster
+
+    for sec in a.sections.values():
+        for name, (values, grid) in sec.rasters.items():
+            write_result_raster(folder / f"{name}.tif", np.asarray(values, np.float32), grid, np.nan)
+
+
 def _write_deltas(folder: Path, base: Analysis, scenarios: dict):
     """``hub_minutes_change_<scenario>.tif``: scenario minus baseline (negative = faster)."""
     from ..export.raster import write_result_raster
@@ -155,8 +164,14 @@ def _write_tables(folder: Path, study: Study, a: Analysis, scenarios: dict | Non
     from ..export.tables import results_tables, write_csv
     from ..export.xlsx import write_workbook
 
+    from ..export.tables import planner_round
+
     tables = results_tables(study, a, {n: sc.get("tables") for n, sc in (scenarios or {}).items()},
                             baseline=baseline)
+    if baseline:
+        for sec in a.sections.values():
+            for stem, t in sec.tables.items():
+                tables[stem] = planner_round(t)
     for stem, t in tables.items():
         write_csv(folder / f"{stem}.csv", t)
     write_workbook(folder / "tables.xlsx", tables, title=study.title)
@@ -202,16 +217,22 @@ def write_outputs(folder: Path, study: Study, base: Analysis, scenarios: dict, s
         layers["settlements"] = base.settlements
     if base.zones is not None:
         layers["zones"] = base.zones
+    descriptions = {}
+    for sec in base.sections.values():
+        layers.update(sec.layers)
+        descriptions.update({k: f"{v}. {CAUTION}" for k, v in sec.descriptions.items()})
     for name, sc in scenarios.items():
         for lname, frame in sc["layers"].items():
             layers[f"{name}_{lname}"] = frame
     gpkg = folder / "results.gpkg"
-    write_layers(gpkg, layers, descriptions=layer_descriptions(layers, base.weight))
+    described = layer_descriptions(layers, base.weight)
+    write_layers(gpkg, layers, descriptions={k: descriptions.get(k, described[k]) for k in layers})
     write_styles(gpkg, layers, cost_unit=base.weight.unit)
     _write_tables(folder, study, base, scenarios)
     if base.surface is not None:
         _write_surface_rasters(folder, base)
         _write_deltas(folder, base, scenarios)
+    _write_section_rasters(folder, base)
     if base.profile is not None and study.outputs.profile_png:
         from ..export.charts import plot_profile
 
@@ -303,8 +324,25 @@ def _write_map(path, study, base, scenarios):
         districts=districts, water=base.barriers, weak=base.weak,
         diameter=diameter if diameter is not None and len(diameter) else None,
         issues=base.build.issues if len(base.build.issues) else None, scenarios=tuple(views),
-        basemap=study.outputs.basemap)
+        basemap=study.outputs.basemap, **_section_map_layers(base))
     write_map(path, m)
+
+
+def _section_map_layers(base) -> dict:
+    """The sections' map layers: links by people cut off, settlements (with their names) by index."""
+    out = {}
+    crit = base.sections.get("criticality")
+    if crit is not None and "link_criticality" in crit.layers:
+        out["criticality"] = crit.layers["link_criticality"]
+    ind = base.sections.get("indices")
+    if ind is not None and "access_index" in ind.layers:
+        ix = ind.layers["access_index"]
+        st = base.settlements
+        if st is not None and "name" in st.columns and len(ix):
+            names = dict(zip(st["settlement_id"].tolist(), st["name"].tolist()))
+            ix = ix.assign(name=[names.get(v) for v in ix["settlement_id"].tolist()])
+        out["indices"] = ix
+    return out
 
 
 def write_surface_outputs(folder: Path, study: Study, a: Analysis, summary: dict) -> None:

@@ -20,6 +20,7 @@ from ..study import Study
 from .inputs import build_or_read, layer_specs, load_rasters, read_hubs
 from .outputs import sha256, summarise, write_outputs, write_surface_outputs
 from .scenarios import compare, rank_scenarios, scenario_inputs
+from .sections import check_sections, run_sections
 from .steps import analyse
 
 __all__ = ["run_study", "run_surface", "check_outdir", "Progress"]
@@ -94,13 +95,15 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
     for n in names:
         if n not in study.scenarios:
             raise InputError(f"scenario '{n}' is not in the study (scenarios: {', '.join(study.scenarios) or 'none'})")
-    # steps: build and rasters, access, metrics, surface, then per scenario 5 more, then writing
-    bar = Progress(progress, total=4 + 5 * len(names) + 1)
+    # steps: build and rasters, access, metrics, surface, the sections, then per scenario 5 more, then writing
+    n_sections = (study.criticality is not None) + (study.indices is not None)
+    bar = Progress(progress, total=4 + n_sections + 5 * len(names) + 1)
     timing = {"started": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())}
     t0 = time.perf_counter()
     specs = layer_specs(study)
     # Everything that can be refused is checked before the long steps start.
     pre = build_or_read(study, specs)
+    check_sections(study, pre.network)
     crs = pre.network.crs
     hubs = read_hubs(study, study.hubs, crs) if study.hubs else None
     try:
@@ -114,6 +117,7 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
         rasters = load_rasters(study, pre.network, hubs)
     bar("network built" + (", rasters read" if rasters is not None else ""))
     base = analyse(study, specs, hubs, progress=bar, rasters=rasters, prebuilt=pre)
+    run_sections(study, base, hubs, bar, timing)
     timing["baseline_s"] = round(time.perf_counter() - t0, 3)
     results = {}
     for n in names:
@@ -141,6 +145,8 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
                    for p in study.input_files() if p.is_file()},
         "baseline": summarise(study, base),
     }
+    for key, sec in base.sections.items():
+        summary[key] = sec.summary
     if names:
         largest = f"{max(study.surface.bands):g}" if study.surface else ""
         summary["scenarios"] = {n: {k: v for k, v in r.items()

@@ -98,6 +98,7 @@ class Analysis:
     rai: object = None
     connection_m: np.ndarray | None = None
     notes: list = field(default_factory=list)
+    sections: dict = field(default_factory=dict)          # "criticality", "indices" -> SectionResult
 
 
 def _quiet(_step: str) -> None:

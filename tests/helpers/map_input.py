@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import geopandas as gpd
 import numpy as np
+import pandas as pd
 import shapely
 from pyproj import Transformer
 
@@ -147,10 +148,29 @@ def scenario(name="new bridge", description="A bridge over the Mere"):
                         change=change, proposed=prop, rings=rings(), settlements=settlements(shift=-3.0))
 
 
+def criticality():
+    """The grid's links with the people each cuts off when it closes (most cut nobody off: not drawn)."""
+    e = network().edges
+    cut = np.zeros(len(e))
+    cut[[0, 3, 5, 8, 12, 20, 25, 30]] = [5200.0, 830.0, 120.0, 2400.0, 35.0, 610.0, 3000.0, 10.0]
+    return e[["edge_id", "name", "geometry"]].assign(people_cut_off=cut, rank=np.arange(1, len(e) + 1),
+                                                     person_minutes_added=cut * 3.5)
+
+
+def indices():
+    """Two measures' indices for the settlements (one settlement reaches no hub: 0)."""
+    s = settlements()
+    rows = []
+    for m, vals in (("2sfca", [0.0004, 0.0011, 0.0002, 0.0, 0.0009, 0.0006]), ("gravity", [1.2, 0.4, 0.9, 0.0, 2.2, 0.1])):
+        rows.append(s[["name", "geometry"]].assign(measure=m, kind="clinic", index=vals, hubs_within=[2, 3, 1, 0, 2, 1],
+                                                   hub_minutes=s["minutes"].to_numpy()))
+    return gpd.GeoDataFrame(pd.concat(rows, ignore_index=True), crs=CRS)
+
+
 def full(title="Invented test study", **kw) -> MapInput:
     args = dict(title=title, thresholds=THRESHOLDS, network=network(), hubs=hubs(), rings=rings(),
                 settlements=settlements(), districts=districts(), water=water(), weak=weak(), diameter=diameter(),
-                issues=issues(), scenarios=(scenario(),))
+                issues=issues(), scenarios=(scenario(),), criticality=criticality(), indices=indices())
     args.update(kw)
     return MapInput(**args)
 

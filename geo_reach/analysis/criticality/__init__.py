@@ -49,15 +49,16 @@ References
 
 from .forest import HubForest, grow_forest
 from .graph import Places, SearchGraph, Seeds
-from .hazard import HazardImpact, HazardLinks, grade_separated, hazard_impact, hazard_links, raster_hazard
+from .hazard import (HazardImpact, HazardLinks, grade_separated, hazard_impact, hazard_layers, hazard_links,
+                     raster_hazard)
 from .incremental import GraphChange, changed_seeds, network_change, update_forest
-from .links import LinkCriticality, UnknownLinkError, added_field, check_links, link_criticality
+from .links import LinkCriticality, UnknownLinkError, added_field, check_links, link_criticality, read_link_ids
 from .trips import Closure, HubTrips
 
 __all__ = [
     "HubForest", "grow_forest", "SearchGraph", "Seeds", "Places",
     "GraphChange", "network_change", "update_forest", "changed_seeds",
     "HubTrips", "Closure",
-    "LinkCriticality", "link_criticality", "added_field", "check_links", "UnknownLinkError",
-    "HazardLinks", "HazardImpact", "hazard_links", "raster_hazard", "hazard_impact", "grade_separated",
+    "LinkCriticality", "link_criticality", "added_field", "check_links", "read_link_ids", "UnknownLinkError",
+    "HazardLinks", "HazardImpact", "hazard_links", "raster_hazard", "hazard_impact", "grade_separated", "hazard_layers",
 ]

@@ -29,7 +29,8 @@ import pandas as pd
 from ...errors import InputError, where
 from .links import added_field
 
-__all__ = ["HazardLinks", "hazard_links", "raster_hazard", "HazardImpact", "hazard_impact", "grade_separated"]
+__all__ = ["HazardLinks", "hazard_links", "raster_hazard", "HazardImpact", "hazard_impact", "grade_separated",
+           "hazard_layers"]
 
 
 def grade_separated(network) -> np.ndarray:
@@ -230,3 +231,61 @@ def hazard_impact(trips, links: HazardLinks, in_hazard, zone=None) -> HazardImpa
         if out_z.any():
             summary["people_outside_districts"] = float(people[out_z].sum())
     return HazardImpact(pf, summary, districts, int(res.work))
+
+
+def hazard_layers(trips, polygons, *, closes_bridges: bool = False, zones=None, zone_ids=None):
+    """The hazard's layers, as ``geo-reach criticality --hazard`` and a study's ``[criticality]`` write them.
+
+    Parameters
+    ----------
+    trips : HubTrips
+    polygons : array_like of shapely geometries
+        The hazard (working CRS); missing geometries are ignored.
+    closes_bridges : bool
+        Close grade-separated links too.
+    zones : GeoDataFrame of polygons, optional
+        Districts (working CRS), for per-district figures.
+    zone_ids : array_like, optional
+        The districts' ids (default: row number from 1).
+
+    Returns
+    -------
+    layers : dict of str to GeoDataFrame
+        ``hazard_links`` (the links touched: ``edge_id``, ``closed``,
+        ``grade_separated``), ``hazard_places`` (the :class:`HazardImpact`
+        places, one point each) and, with zones, ``hazard_districts``.
+    impact : HazardImpact
+    """
+    import geopandas as gpd
+    import shapely
+
+    net = trips.network
+    geoms = np.asarray(polygons, dtype=object)
+    geoms = geoms[~shapely.is_missing(geoms)] if len(geoms) else geoms
+    hl = hazard_links(net, geoms, closes_bridges=closes_bridges)
+    place_xy = trips.place_att.point_xy if trips.has_places else np.column_stack([net.node_x, net.node_y])
+    pts = shapely.points(place_xy)
+    inside = np.zeros(len(pts), bool)
+    if len(geoms):
+        pi, _ = shapely.STRtree(geoms).query(pts, predicate="intersects")
+        inside[np.unique(pi)] = True
+    zone = zid = None
+    if zones is not None:
+        zid = np.arange(1, len(zones) + 1).astype(object) if zone_ids is None else np.asarray(zone_ids, object)
+        zone = np.full(len(pts), None, object)
+        zg = np.asarray(zones.geometry.values, dtype=object)
+        pi, zi = shapely.STRtree(zg).query(pts, predicate="intersects")
+        order = np.lexsort((zi, pi))
+        pi, zi = pi[order], zi[order]
+        first = np.r_[True, pi[1:] != pi[:-1]] if len(pi) else np.zeros(0, bool)
+        zone[pi[first]] = zid[zi[first]]
+    imp = hazard_impact(trips, hl, inside, zone)
+    grade = np.isin(hl.touched, hl.kept_open) if not closes_bridges else np.zeros(len(hl.touched), bool)
+    touched = gpd.GeoDataFrame({"edge_id": hl.touched, "closed": np.isin(hl.touched, hl.closed).astype(np.int32),
+                                "grade_separated": grade.astype(np.int32)},
+                               geometry=net.edge_geometry[hl.touched] if len(hl.touched) else [], crs=net.crs)
+    layers = {"hazard_links": touched, "hazard_places": gpd.GeoDataFrame(imp.places, geometry=pts, crs=net.crs)}
+    if imp.districts is not None and zones is not None:
+        zg = gpd.GeoDataFrame({"zone": zid}, geometry=zones.geometry.values, crs=net.crs)
+        layers["hazard_districts"] = zg.merge(imp.districts, on="zone", how="left")
+    return layers, imp

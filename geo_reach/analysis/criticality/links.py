@@ -80,7 +80,7 @@ from ...errors import InputError
 from . import _kernels as K
 from .forest import grow_forest
 
-__all__ = ["LinkCriticality", "link_criticality", "added_field", "check_links", "UnknownLinkError"]
+__all__ = ["LinkCriticality", "link_criticality", "added_field", "check_links", "read_link_ids", "UnknownLinkError"]
 
 #: The field of people x added cost, per weight (units in the name).
 ADDED_FIELD = {"minutes": "person_minutes_added", "length_m": "person_m_added", "hops": "person_hops_added",
@@ -122,6 +122,41 @@ def check_links(network, links, what: str = "link") -> np.ndarray:
     arr = np.asarray(out, np.int64)
     _, first = np.unique(arr, return_index=True)
     return arr[np.sort(first)]
+
+
+def read_link_ids(path, network) -> np.ndarray:
+    """The edge ids in a file: one per line (or separated by commas, semicolons, spaces), or a CSV with an
+    ``edge_id`` column; each checked as :func:`check_links` does.
+
+    Raises
+    ------
+    InputError
+        The file holds no ids, or names ``edge_id`` without such a column.
+    UnknownLinkError
+        An id is not an edge (the message names the file and the id).
+    """
+    import re
+    from pathlib import Path
+
+    from ...errors import where
+
+    path = Path(path)
+    raw = path.read_text(errors="replace")
+    first = raw.lstrip().splitlines()[0] if raw.strip() else ""
+    if "edge_id" in first:
+        frame = pd.read_csv(path)
+        if "edge_id" not in frame.columns:
+            raise InputError(f"{where(path)}the header mentions edge_id but no column is named exactly "
+                             "'edge_id'; name the column edge_id")
+        tokens = frame["edge_id"].tolist()
+    else:
+        tokens = [t for t in re.split(r"[\s,;]+", raw) if t]
+    if not tokens:
+        raise InputError(f"{where(path)}holds no link ids; give edge ids, one per line")
+    try:
+        return check_links(network, tokens)
+    except UnknownLinkError as err:
+        raise UnknownLinkError(f"{where(path)}{err}") from err
 
 
 @dataclass

@@ -177,7 +177,8 @@ def access_index(trips: TripCosts, measure: str, supply=None, demand=None, *, de
 
 def index_layer(network, settlements, hubs, measure: str, *, within=None, weight: str = "minutes",
                 decay: str | None = None, decay_param: float | None = None, zones=None, zone_weights=None,
-                max_access_m: float = 5000.0, walk_kmh: float = 5.0, capacity: bool = True):
+                max_access_m: float = 5000.0, walk_kmh: float = 5.0, capacity: bool = True, travel=None,
+                always_join: bool = False):
     """The ``access_index`` layer: one row per settlement (per hub kind when the hubs have kinds).
 
     Parameters
@@ -196,6 +197,11 @@ def index_layer(network, settlements, hubs, measure: str, *, within=None, weight
         As in :func:`access_index`.
     max_access_m, walk_kmh : float
         As in :func:`~geo_reach.analysis.attach.attach_points`.
+    travel : TravelModel, optional
+        The run's travel model; walks are priced as it prices them (see
+        :func:`~geo_reach.analysis.indices.trips.trip_costs`).
+    always_join : bool, default False
+        Settlements beyond ``max_access_m`` join the network all the same.
 
     Returns
     -------
@@ -246,7 +252,7 @@ def index_layer(network, settlements, hubs, measure: str, *, within=None, weight
     frames, tables, notes = [], [], []
     for kind, members in groups:
         tc = trip_costs(network, settlements.xy, hubs.xy[members], within=t, weight=weight,
-                        max_access_m=max_access_m, walk_kmh=walk_kmh)
+                        max_access_m=max_access_m, walk_kmh=walk_kmh, travel=travel, always_join=always_join)
         word = "hub" if kind is None else str(kind)
         res = access_index(tc, measure, hubs.values[members], settlements.values, decay=decay,
                            decay_param=decay_param, zones=zones, zone_weights=zone_weights, hub_word=word)

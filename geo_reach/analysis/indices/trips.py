@@ -26,9 +26,11 @@ points none out, no path can pass through a point.  Searching forward from
 the starts, or backward from the ends, gives the same costs; the side with
 fewer points is searched.
 
-The walk model lives here only through ``attach_points``; swapping it (for
-friction-aware walking) means changing :func:`_side` and the direct-arc costs
-in :func:`_direct_arcs`, nothing else.
+The walk model lives here only through :func:`_side`: straight walks from
+``attach_points``, or, given the run's
+:class:`~geo_reach.analysis.travel.TravelModel`, its walks (terrain, land
+cover, barriers) and its straight walks between a settlement and a hub
+within reach - the trips ``route``, ``od`` and the settlements layer price.
 
 References
 ----------
@@ -46,9 +48,9 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import dijkstra
 
 from ...errors import OptionError
-from ..attach import Attachment, attach_points, walk_cost
+from ..attach import Attachment, attach_points
 
-__all__ = ["TripCosts", "trip_costs", "DIRECTIONS"]
+__all__ = ["TripCosts", "trip_costs", "bounded_task", "DIRECTIONS"]
 
 #: Trip directions: ``to-hub`` (settlement to hub, the default) or ``from-hub``.
 DIRECTIONS = ("to-hub", "from-hub")
@@ -135,8 +137,13 @@ class _Side:
     access_m: np.ndarray
 
 
-def _side(network, xy, nodes, weight, role, max_access_m, walk_kmh) -> _Side:
-    """Virtual arcs joining points to the network: the walk model's single entry point."""
+def _side(network, xy, nodes, weight, role, max_access_m, walk_kmh, travel=None, always_join=False) -> _Side:
+    """Virtual arcs joining points to the network: the walk model's single entry point.
+
+    With ``travel`` (a :class:`~geo_reach.analysis.travel.TravelModel` for
+    this weight) the points walk as it prices walks (terrain, land cover,
+    barriers); else straight lines at ``walk_kmh``.
+    """
     if nodes is not None:
         nodes = np.asarray(nodes, dtype=np.int64)
         bad = (nodes < 0) | (nodes >= network.n_nodes)
@@ -144,8 +151,12 @@ def _side(network, xy, nodes, weight, role, max_access_m, walk_kmh) -> _Side:
             raise OptionError(f"node id {int(nodes[bad][0])} is not in the network (0..{network.n_nodes - 1})")
         n = len(nodes)
         return _Side(n, np.arange(n, dtype=np.int64), nodes, np.zeros(n), None, np.ones(n, bool), np.zeros(n))
-    att = attach_points(network, np.asarray(xy, dtype=np.float64).reshape(-1, 2), weight,
-                        max_access_m=max_access_m, walk_kmh=walk_kmh)
+    pts = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
+    if travel is not None:
+        att = travel.attach(network, pts, roles=(role,), always_join=always_join)
+    else:
+        att = attach_points(network, pts, weight, max_access_m=max_access_m, walk_kmh=walk_kmh,
+                            always_join=always_join)
     point, node, cost, _ = att.arcs(network, role)
     return _Side(att.n_points, point, node, cost, att, att.attached, att.access_m)
 
@@ -179,8 +190,8 @@ def _direct_arcs(network, start: _Side, end: _Side, weight: str):
     df = b.leg_fraction[ib] - a.leg_fraction[ia]
     ok = (df >= 0) | ~network.edge_oneway[e]
     ia, ib, e, df = ia[ok], ib[ok], e[ok], df[ok]
-    cost = (np.abs(df) * network.cost(weight)[e] + walk_cost(a.leg_walk_m[ia], weight, a.walk_kmh)
-            + walk_cost(b.leg_walk_m[ib], weight, b.walk_kmh))
+    # the start side's legs are walked leaving their point, the end side's arriving at theirs
+    cost = np.abs(df) * network.cost(weight)[e] + a.leg_leave_cost[ia] + b.leg_arrive_cost[ib]
     pa, pb = a.leg_point[ia].astype(np.int64), b.leg_point[ib].astype(np.int64)
     keep = _cheapest_pairs(pa, pb, cost, a.n_points, b.n_points)
     return pa[keep], pb[keep], cost[keep]
@@ -280,7 +291,8 @@ def _prune(side: _Side, adj) -> _Side:
 _CHUNK = 20_000
 
 
-def _chunked(network, xy, nodes, weight, role, max_access_m, walk_kmh, other: _Side, big_is_start: bool):
+def _chunked(network, xy, nodes, weight, role, max_access_m, walk_kmh, other: _Side, big_is_start: bool,
+             travel=None, always_join=False):
     """The larger side's pruned arcs, attached chunk by chunk, and the direct arcs to the ``other`` side."""
     adj = network.csr(weight, reverse=not big_is_start)
     if nodes is not None:
@@ -290,7 +302,7 @@ def _chunked(network, xy, nodes, weight, role, max_access_m, walk_kmh, other: _S
     xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
     parts, dparts = [], []
     for s in range(0, max(len(xy), 1), _CHUNK):
-        side = _side(network, xy[s:s + _CHUNK], None, weight, role, max_access_m, walk_kmh)
+        side = _side(network, xy[s:s + _CHUNK], None, weight, role, max_access_m, walk_kmh, travel, always_join)
         pa, pb, dc = _direct_arcs(network, side, other, weight) if big_is_start else \
             _direct_arcs(network, other, side, weight)
         if big_is_start:
@@ -305,6 +317,25 @@ def _chunked(network, xy, nodes, weight, role, max_access_m, walk_kmh, other: _S
                  None, cat([q.attached for q in parts]), cat([q.access_m for q in parts]))
     direct = tuple(cat([d[k] for d in dparts]) for k in range(3))
     return side, direct
+
+
+def _with_straight_walks(direct, travel, s_xy, h_xy, s_joined, h_joined, to_hub: bool):
+    """``direct`` (start point, end point, cost) plus the walks straight between a settlement and a hub.
+
+    Walks within ``max_access_m``, between places that both join the
+    network (a place left out stays out, as :meth:`TravelModel.route` has it).
+    """
+    si, hi = np.nonzero(s_joined)[0], np.nonzero(h_joined)[0]
+    if to_hub:
+        w = travel.direct(s_xy[si], h_xy[hi])
+        pa, pb = si[w.src], hi[w.dst]
+    else:
+        w = travel.direct(h_xy[hi], s_xy[si])
+        pa, pb = hi[w.src], si[w.dst]
+    if not len(w.cost):
+        return direct
+    return (np.concatenate([direct[0], pa.astype(np.int64)]), np.concatenate([direct[1], pb.astype(np.int64)]),
+            np.concatenate([direct[2], w.cost.astype(np.float64)]))
 
 
 def _csr(n: int, base, tail, head, cost) -> sp.csr_array:
@@ -369,10 +400,41 @@ def _bounded(g: sp.csr_array, sources: np.ndarray, targets: np.ndarray, within: 
             np.concatenate(out_c).astype(np.float64))
 
 
+def bounded_task(chunk, shared: dict):
+    """One chunk of sources of :func:`_bounded` on an executor: ``chunk`` = (offset, sources).
+
+    ``shared`` holds the graph's CSR arrays (``data``, ``indices``,
+    ``indptr``, ``n``), the ``targets`` and the bound ``within``; sent to
+    each worker once.  Returns the pairs with source numbers offset back.
+    """
+    offset, rows = chunk
+    g = sp.csr_array((shared["data"], shared["indices"], shared["indptr"]), shape=(shared["n"], shared["n"]))
+    a, b, c = _bounded(g, rows, shared["targets"], shared["within"])
+    return a + offset, b, c
+
+
+def _bounded_on(executor, g: sp.csr_array, sources: np.ndarray, targets: np.ndarray, within: float):
+    """:func:`_bounded` with the sources in chunks on ``executor``; the same pairs in the same order.
+
+    Each source's search is independent and runs the same code on the same
+    graph, so the pairs (and their costs, to the last bit) equal the
+    in-process run's.
+    """
+    if executor is None or executor.n_workers <= 1 or len(sources) < 2:
+        return _bounded(g, sources, targets, within)
+    n_chunks = min(len(sources), 4 * executor.n_workers)
+    cuts = np.linspace(0, len(sources), n_chunks + 1).astype(np.int64)
+    chunks = [(int(a), sources[a:b]) for a, b in zip(cuts[:-1], cuts[1:]) if b > a]
+    shared = {"data": g.data, "indices": g.indices, "indptr": g.indptr, "n": g.shape[0],
+              "targets": targets, "within": within}
+    parts = executor.map(bounded_task, chunks, shared=shared)
+    return tuple(np.concatenate([p[i] for p in parts]) for i in range(3))
+
+
 def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: float = np.inf,
                weight: str = "minutes", direction: str = "to-hub", max_access_m: float = 5000.0,
                walk_kmh: float = 5.0, pairs: bool = True, nearest: bool = True,
-               nearest_among=None) -> TripCosts:
+               nearest_among=None, travel=None, always_join: bool = False, executor=None) -> TripCosts:
     """Least trip costs between settlements and hubs, every pair within ``within``, plus the nearest hub.
 
     Parameters
@@ -402,6 +464,20 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
         The nearest hub is sought among these hubs only (indices; default
         all).  Lets one call serve existing hubs (nearest) and candidate
         sites (pairs) while the settlements are attached once.
+    travel : TravelModel, optional
+        The run's travel model (:class:`~geo_reach.analysis.travel.TravelModel`):
+        every walk is priced as it prices walks (terrain, land cover,
+        barriers), its ``max_access_m`` and ``walk_kmh`` replace those given,
+        and a settlement within ``max_access_m`` of a hub point may also walk
+        straight to it (as ``route`` and the settlements layer allow), so
+        the trips cost what every other view says.  Default: straight walks
+        onto the network only.
+    always_join : bool, default False
+        Settlements farther than ``max_access_m`` from the network join it
+        at their nearest places all the same (the settlements layer's rule).
+    executor : geo_reach.parallel.Executor, optional
+        Where the bounded searches run (chunks of sources; default here).
+        The pairs are the same, in the same order, to the last bit.
 
     Returns
     -------
@@ -444,21 +520,27 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
     if (hub_xy is None) == (hub_nodes is None):
         raise OptionError("give the hubs either as points (hub_xy) or as network nodes (hub_nodes)")
     network.cost(weight)  # validates the weight
+    if travel is not None:
+        travel = travel.for_weight(weight)
+        max_access_m, walk_kmh = travel.max_access_m, travel.walk_kmh
     to_hub = direction == "to-hub"
     s_role, h_role = ("leave", "arrive") if to_hub else ("arrive", "leave")
     s_xy = np.asarray(settlement_xy, dtype=np.float64).reshape(-1, 2)
     ns, nh = len(s_xy), (len(np.atleast_1d(hub_nodes)) if hub_nodes is not None else len(np.reshape(hub_xy, (-1, 2))))
     # the smaller side is attached whole; the larger one by chunks (attach, direct arcs, prune, drop the legs)
     if ns <= nh:
-        settle = _side(network, s_xy, None, weight, s_role, max_access_m, walk_kmh)
+        settle = _side(network, s_xy, None, weight, s_role, max_access_m, walk_kmh, travel, always_join)
         hubs, direct = _chunked(network, hub_xy, hub_nodes, weight, h_role, max_access_m, walk_kmh, settle,
-                                big_is_start=not to_hub)
+                                big_is_start=not to_hub, travel=travel)
         settle = _prune(settle, network.csr(weight, reverse=not to_hub))
     else:
-        hubs = _side(network, hub_xy, hub_nodes, weight, h_role, max_access_m, walk_kmh)
+        hubs = _side(network, hub_xy, hub_nodes, weight, h_role, max_access_m, walk_kmh, travel)
         settle, direct = _chunked(network, s_xy, None, weight, s_role, max_access_m, walk_kmh, hubs,
-                                  big_is_start=to_hub)
+                                  big_is_start=to_hub, travel=travel, always_join=always_join)
         hubs = _prune(hubs, network.csr(weight, reverse=to_hub))
+    if travel is not None and hub_xy is not None:
+        direct = _with_straight_walks(direct, travel, s_xy, np.asarray(hub_xy, np.float64).reshape(-1, 2),
+                                      settle.attached, hubs.attached, to_hub)
     start, end = (settle, hubs) if to_hub else (hubs, settle)
     n = network.n_nodes
     s_rows = n + np.arange(start.n, dtype=np.int64)
@@ -474,9 +556,9 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
     si, hi, cost = z, z, np.zeros(0)
     if pairs and start.n and end.n:
         if start.n <= end.n:   # forward from each start point
-            a, b, cost = _bounded(graph(False), s_rows, e_rows, within)
+            a, b, cost = _bounded_on(executor, graph(False), s_rows, e_rows, within)
         else:                  # backward from each end point
-            b, a, cost = _bounded(graph(True), e_rows, s_rows, within)
+            b, a, cost = _bounded_on(executor, graph(True), e_rows, s_rows, within)
         si, hi = (a, b) if to_hub else (b, a)
         order = np.lexsort((hi, si))
         si, hi, cost = si[order], hi[order], cost[order]

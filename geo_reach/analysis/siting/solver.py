@@ -287,7 +287,8 @@ def site_gains(problem: SitingProblem, sites, demand, existing_cost, i, k, c, wi
 
 def choose_sites(network, settlement_xy, demand, hub_xy, candidate_xy, p: int, objective: str, *,
                  within=None, weight: str = "minutes", max_access_m: float = 5000.0, walk_kmh: float = 5.0,
-                 method: str = "auto", time_limit: float = 300.0, restarts: int = 8) -> SitingResult:
+                 method: str = "auto", time_limit: float = 300.0, restarts: int = 8,
+                 executor=None) -> SitingResult:
     """Where P new hubs should go: the whole chain from points.
 
     Parameters
@@ -311,6 +312,9 @@ def choose_sites(network, settlement_xy, demand, hub_xy, candidate_xy, p: int, o
         As in :func:`~geo_reach.analysis.indices.trips.trip_costs`.
     method, time_limit, restarts
         As in :func:`solve`.
+    executor : geo_reach.parallel.Executor, optional
+        Where the settlement-candidate searches run (default: here); the
+        same costs either way.
 
     Returns
     -------
@@ -357,7 +361,8 @@ def choose_sites(network, settlement_xy, demand, hub_xy, candidate_xy, p: int, o
     notes = []
     # one call: the existing hubs first (nearest among them, unbounded), then the candidates (pairs within T)
     h = len(h_xy)
-    both = trip_costs(network, s_xy, np.vstack([h_xy, c_xy]), within=t, nearest_among=np.arange(h), **kw)
+    both = trip_costs(network, s_xy, np.vstack([h_xy, c_xy]), within=t, nearest_among=np.arange(h),
+                      executor=executor, **kw)
     existing = both.nearest_cost if h else np.full(len(s_xy), np.inf)
     if (~both.hub_attached[:h]).any():
         notes.append(f"{int((~both.hub_attached[:h]).sum())} existing hubs farther than {max_access_m:g} m from the "

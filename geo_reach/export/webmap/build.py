@@ -23,6 +23,7 @@ from ...glossary import reason_words
 from .. import palette as P
 from .contract import MapInput, NetworkLayer
 from .encode import encode, frame_for, metric, points_xy
+from .sections import add_criticality, add_indices
 
 __all__ = ["page_data", "ISSUE_LABELS", "DETAIL_CHARS"]
 
@@ -514,11 +515,14 @@ class _Builder:
         self.settlements()
         self.issues()
         self.hubs()
+        add_criticality(self)
+        extra = add_indices(self)
         views = [{"id": "today", "name": "Today", "text": "The study as it is."}]
         for i, s in enumerate(m.scenarios):
             views.append({"id": f"v{i + 1}", "name": f"With {s.name}", "text": " ".join(str(s.description).split())})
         order = ["rings", "districts", "settlements", "hubs", "network", "change", "proposed", "water",
-                 "district_lines", "weak_top", "weak_rest", "weak_empty", "diameter", "issues"]
+                 "district_lines", "weak_top", "weak_rest", "weak_empty", "diameter", "issues", "criticality",
+                 *extra]
         groups = [self.groups[k] for k in order if k in self.groups]
         data = {"title": " ".join(str(m.title).split()), "caution": " ".join(str(m.caution).split()),
                 "frame": self.fr.to_json(), "bounds": self.bounds, "views": views, "groups": groups,

@@ -39,6 +39,8 @@ FIELDS = {
     "issues": (("kind",), ("detail",)),
     "change": (("delta",), ("before", "after", "mode", "name", "length_m")),
     "proposed": ((), ("name",)),
+    "criticality": (("people_cut_off",), ("edge_id", "rank", "person_minutes_added", "nodes_cut_off", "name")),
+    "indices": (("index",), ("measure", "kind", "name", "hubs_within", "hub_minutes")),
 }
 
 
@@ -171,6 +173,16 @@ class MapInput:
         The longest shortest trip: ``cost`` (cost unit), ``length_m``, ``minutes``.
     issues : GeoDataFrame of points or lines, optional
         Network issues found while building: ``kind``, ``detail``.
+    criticality : GeoDataFrame of lines, optional
+        Links by the people cut off when each closes (``link_criticality``):
+        ``people_cut_off``, optional ``edge_id``, ``rank``,
+        ``person_minutes_added``, ``nodes_cut_off``, ``name``.  Links that
+        cut nobody off are not drawn.
+    indices : GeoDataFrame of points, optional
+        Settlements by their accessibility index (``access_index``):
+        ``index``, optional ``measure`` and ``kind`` (one group per measure
+        and kind; the first shown at first), ``name``, ``hubs_within``,
+        ``hub_minutes``.
     scenarios : tuple of ScenarioView
         One view each, after today's.
     top_weak : int
@@ -195,6 +207,8 @@ class MapInput:
     weak: object = None
     diameter: object = None
     issues: object = None
+    criticality: object = None
+    indices: object = None
     scenarios: tuple = field(default_factory=tuple)
     top_weak: int = 20
     basemap: bool = False
@@ -212,7 +226,8 @@ class MapInput:
             raise OptionError("top_weak must be 0 or more")
         if self.network is not None:
             self.network.check("network")
-        for name in ("hubs", "rings", "settlements", "districts", "water", "weak", "diameter", "issues"):
+        for name in ("hubs", "rings", "settlements", "districts", "water", "weak", "diameter", "issues",
+                     "criticality", "indices"):
             frame = getattr(self, name)
             if frame is not None:
                 _check_frame(name, frame, FIELDS[name][0])
@@ -238,7 +253,7 @@ class MapInput:
     def frames(self):
         """Every GeoDataFrame given (today's and the scenarios')."""
         out = [self.network.edges if self.network else None, self.hubs, self.rings, self.settlements,
-               self.districts, self.water, self.weak, self.diameter, self.issues]
+               self.districts, self.water, self.weak, self.diameter, self.issues, self.criticality, self.indices]
         for s in self.scenarios:
             out += [s.network.edges if s.network else None, s.change, s.proposed, s.rings, s.settlements]
         return out
