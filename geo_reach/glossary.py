@@ -90,6 +90,8 @@ TERMS: tuple[Term, ...] = (
     _t("level", "Vertical level from the input (bridges, tunnels); crossings of different levels are not joined.",
        "", "edges"),
     _t("all_season", "1 where the input marks the road as usable in all seasons.", "", "edges"),
+    _t("closed", "1 where a scenario closes the link: it stays on the map with its length but carries no trip "
+       "(no minutes, latency or cost on any weight); only in a scenario's network.", "", "edges"),
     _t("class", "Road class as given in the input (looked up in the class-to-speed table).", "", "edges"),
     _t("speed_kmh", "Speed used for the edge.", "km/h", "edges"),
     _t("node_id", "Id of a node; the row number in layer nodes.", "", "nodes"),
