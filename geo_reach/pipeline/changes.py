@@ -75,6 +75,7 @@ def changed_network(base, specs, kinds: dict):
     for lab, fids in touched.items():
         s = by_label[lab]
         frame = s.source
+        frame = frame[frame.index.isin(list(fids))]      # a feature's speed depends on its own row only
         if s.mode in DEFAULT_SPEED_KMH:
             speed, _, _, _ = feature_speeds(frame, s.mode, s.speed_field, s.class_field, s.class_speeds, s.speed_kmh)
         else:
