@@ -194,7 +194,7 @@ def _assert_incremental_taken(summary):
         assert "re-costed in place" in r["reuse"], (name, r["reuse"])
 
 
-@settings(max_examples=10, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture,
+@settings(max_examples=8, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture,
                                                                    HealthCheck.too_slow])
 @given(s=studies())
 def test_random_scenarios_write_the_same_figures_incremental_and_full(s, tmp_path_factory):
