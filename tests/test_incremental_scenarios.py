@@ -317,3 +317,30 @@ def test_demo_study_scenarios_identical(tmp_path):
     assert not diffs, diffs[:10]
     assert a["scenarios"]["trunk_closed"]["person_minutes_saved"] < 0
     assert a["scenarios"]["tracks_upgraded"]["person_minutes_saved"] != 0
+
+
+def test_entry_places_are_shared_only_while_the_same_edges_stay_routable():
+    """A network re-costed in place keeps the baseline's spatial indexes of where points join while the
+    same edges stay routable (an upgrade); a closure builds its own, and points then join only open edges
+    - the same legs as on a network made from scratch with that closure."""
+    import dataclasses
+
+    from helpers.routing_nets import grid
+
+    from geo_reach.analysis.attach import _TREES, attach_points, share_entry_places
+
+    net = grid(6, 6, spacing=100.0)
+    xy = np.array([[130.0, 40.0], [310.0, 260.0]])
+    attach_points(net, xy, "minutes")
+    up = dataclasses.replace(net, edge_minutes=net.edge_minutes * 0.5)
+    share_entry_places(net, up)
+    assert _TREES[up]["minutes"] is _TREES[net]["minutes"]
+    shut_mask = np.zeros(net.n_edges, bool)
+    shut_mask[:8] = True
+    shut = dataclasses.replace(net, edge_closed=shut_mask)
+    share_entry_places(net, shut)
+    assert "minutes" not in _TREES.get(shut, {})
+    fresh = dataclasses.replace(net, edge_closed=shut_mask.copy())
+    a, b = attach_points(shut, xy, "minutes"), attach_points(fresh, xy, "minutes")
+    assert not np.isin(a.leg_edge[a.leg_edge >= 0], np.nonzero(shut_mask)[0]).any()
+    assert np.array_equal(a.leg_edge, b.leg_edge) and np.array_equal(a.leg_node, b.leg_node)

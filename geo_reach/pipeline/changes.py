@@ -23,6 +23,7 @@ import dataclasses
 
 import numpy as np
 
+from ..analysis.attach import share_entry_places
 from ..network.assembly import edge_costs
 from ..network.costs import DEFAULT_SPEED_KMH, feature_speeds
 from .inputs import Hubs
@@ -100,6 +101,12 @@ def changed_network(base, specs, kinds: dict):
     edges = np.unique(np.concatenate(changed)) if changed else np.zeros(0, np.int64)
     net = dataclasses.replace(base, edge_minutes=minutes, edge_latency_ms=latency, extra=extra,
                               edge_closed=closed if closed.any() else None)
+    # Same nodes and edges: what depends on them alone is the baseline's (components ignore costs;
+    # the spatial indexes of where points join are shared where the same edges stay routable).
+    for name in ("component", "degree"):
+        if name in base.__dict__:
+            net.__dict__[name] = base.__dict__[name]
+    share_entry_places(base, net)
     return net, edges.astype(np.int64)
 
 
