@@ -8,7 +8,7 @@ for one person.
 
 Measured in one run, medians of ``--repeat`` runs:
 
-* one full nearest-hub pass: the project's ``hub_access`` (attach + scipy Dijkstra per kind and for all
+* one full nearest-hub pass: the project's ``hub_access`` (attach + one compiled forest search per kind and for all
   hubs), and this package's compiled forest search (per kind and for the three kinds);
 * all-link criticality in-process: time, work (node settlements plus arc and seed scans, as equivalent
   full single-kind searches, and per kind), ratios to the passes above;
@@ -189,7 +189,7 @@ def main():
           f"Python {platform.python_version()}, load average at start {load0:.1f}, medians of {a.repeat})\n")
     print(f"- network: {n:,} nodes, {net.n_edges:,} links, {graph.n_arcs:,} arcs; hubs {counts}; "
           f"every node one person; arcs table {t_graph:.2f} s; baseline (attach + 3 forests) {t_prep:.2f} s")
-    print(f"- one full nearest-hub pass: `hub_access` (attach, scipy per kind and all hubs) **{t_access:.3f} s** "
+    print(f"- one full nearest-hub pass: `hub_access` (attach, one forest search per kind and all hubs) **{t_access:.3f} s** "
           f"({fmt(ts_access)}); compiled forests, 3 kinds {t_forests:.3f} s ({fmt(ts_forests)}); per kind "
           + ", ".join(f"{k} {v:.3f} s" for k, v in t_kind.items()))
     w = res.work

@@ -248,6 +248,10 @@ TERMS: tuple[Term, ...] = (
     _t("level", "Vertical level from the input (bridges, tunnels); crossings of different levels are not joined.",
        "", "edges"),
     _t("all_season", "1 where the input marks the road as usable in all seasons.", "", "edges"),
+    _t("closed", "1 where the link is closed: by a scenario (it stays on the map with its length but carries no "
+                 "trip: no minutes, latency or cost on any weight) or by a hazard (in hazard_links; 0 there means "
+                 "grade-separated and kept open).", "", "edges of a scenario network, hazard_links",
+       "a scenario that closes links, or a hazard"),
     _t("class", "Road class as given in the input (looked up in the class-to-speed table).", "", "edges"),
     _t("speed_kmh", "Speed used for the edge.", "km/h", "edges"),
     _t("node_id", "Id of a node; the row number in layer nodes.", "", "nodes"),
@@ -527,8 +531,6 @@ TERMS: tuple[Term, ...] = (
     _t("person_ms_added", "person_minutes_added when the study routes on latency: people times the ms added.",
        "person-ms", "link_criticality",
        "a study routed on latency_ms with [criticality]"),
-    _t("closed", "1 where the hazard closes the link (0: grade-separated and kept open).", "", "hazard_links",
-       "criticality --hazard, or a [criticality] hazard"),
     _t("grade_separated", "1 where the link is grade-separated (a non-zero level: a bridge or tunnel) and kept "
                           "open.", "", "hazard_links",
        "criticality --hazard, or a [criticality] hazard"),

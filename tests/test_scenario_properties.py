@@ -262,18 +262,21 @@ def test_pipeline_added_road_never_slower_and_closure_never_faster(kit_run):
         assert len(d)
         assert (sign * d >= -1e-6).all(), (name, d)
         # Edges, like for like: each edge in the change layer against the baseline edge of the same
-        # geometry.  The closed streets end where the others begin, so no remaining street loses a
-        # junction and every remaining edge keeps its geometry (a closure that removes a junction
-        # merges edges, which are then not comparable: see the note on compare() in the report).
+        # geometry.  A closed street stays in the scenario's network with no cost (its junctions and
+        # every other edge keep their geometry); it carries no trip, so its "after" is empty.
         e = gpd.read_file(out / "results.gpkg", layer=f"{name}_edge_change")
         keys = [shapely.normalize(g).wkb for g in e.geometry]
         same = np.array([k in base_key for k in keys], dtype=bool)
         after = e["hub_cost_after"].to_numpy()[same]
         before = np.array([base_key[k] for k, s_ in zip(keys, same) if s_])
-        assert (sign * (after - before) >= -1e-6).all(), (name, after - before)
+        open_ = np.isfinite(after)
+        assert (sign * (after - before)[open_] >= -1e-6).all(), (name, after - before)
         if name == "shut":
             assert same.all() and len(e) > 0
+            shut_edges = (e["src_fid"].isin([1, 2])).to_numpy()[same]
+            assert np.array_equal(~open_, shut_edges) and shut_edges.any()
         else:
+            assert open_.all()
             assert (~same).sum() == 1 and np.isnan(e["hub_cost_before"].to_numpy()[~same]).all()  # the new road
     summary = json.loads((out / "summary.json").read_text())
     assert summary["scenarios"]["shut"]["person_minutes_saved"] <= 1e-6

@@ -16,9 +16,8 @@ import pandas as pd
 
 from ..errors import LayerError
 from .options import RoutingOptions
-from .routing import nearest_hub
 
-__all__ = ["HubAccess", "hub_access", "kind_name", "kind_groups"]
+__all__ = ["HubAccess", "Repair", "hub_access", "kind_name", "kind_groups"]
 
 
 def kind_name(kind) -> str:
@@ -82,6 +81,14 @@ class HubAccess:
     notes : list of str
         What was left out or is suspect (hubs beyond reach, hubs alone in a
         component, nodes reaching no hub).
+    forests : dict
+        Per group (``None`` = all hubs, else the kind's field-name part):
+        ``(graph, seeds, forest)`` - the search graph (None when the forest
+        was repaired), the hubs' legs and the
+        :class:`~geo_reach.analysis.criticality.forest.HubForest` the costs
+        come from.  A scenario repairs them (:class:`Repair`).
+    work : int
+        Node settlements plus arc and seed scans of the searches or repairs.
     """
 
     node_fields: dict
@@ -91,6 +98,32 @@ class HubAccess:
     hubs: pd.DataFrame
     weight: object = None
     notes: list = field(default_factory=list)
+    forests: dict = field(default_factory=dict)
+    work: int = 0
+
+
+@dataclass(frozen=True, eq=False)
+class Repair:
+    """What :func:`hub_access` needs to repair a baseline's forests instead of searching a changed network.
+
+    Attributes
+    ----------
+    base : HubAccess
+        The baseline's access (its ``forests``, grown on ``network``).
+    network : Network
+        The baseline network.  The changed network keeps its node and edge
+        ids (see :mod:`geo_reach.analysis.criticality.incremental`).
+    edges : ndarray of int64
+        The base edges whose cost, direction or ends changed.
+    hub_map : ndarray of int64
+        Each base hub's index among the new hubs (-1 = removed), keeping the
+        order of the hubs that stay.
+    """
+
+    base: HubAccess
+    network: object
+    edges: np.ndarray
+    hub_map: np.ndarray
 
 
 def _id_column(values, present):
@@ -102,7 +135,8 @@ def _id_column(values, present):
     return pd.Series(np.where(present, vals, None), dtype=object).to_numpy()
 
 
-def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = None, *, travel=None) -> HubAccess:
+def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = None, *, travel=None,
+               repair: Repair | None = None) -> HubAccess:
     """Nearest hub and cost for every node, for all hubs and per hub kind.
 
     Parameters
@@ -120,10 +154,31 @@ def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = No
     travel : TravelModel, optional
         The run's travel model: how each hub's walk to and from the network
         is priced (default: straight-line walking with ``options``).
+    repair : Repair, optional
+        ``network`` is a baseline's network changed in place (ids kept):
+        each group's forest is repaired from the baseline's
+        (:func:`~geo_reach.analysis.criticality.incremental.update_forest`)
+        instead of grown again.  Every result is identical to the search
+        from scratch.
 
     Returns
     -------
     HubAccess
+
+    Notes
+    -----
+    One multi-source Dijkstra search [1]_ per group (all hubs, then each
+    kind), compiled (:func:`~geo_reach.analysis.criticality.forest.grow_forest`):
+    O((n + m) log n) each.  Ties between equally cheap hubs go to the lowest
+    hub index.  A repair touches only the nodes whose trip changes [2]_.
+
+    References
+    ----------
+    .. [1] Dijkstra, E. W. (1959). A note on two problems in connexion with
+       graphs. Numerische Mathematik 1, 269-271.
+    .. [2] Ramalingam, G. and Reps, T. (1996). An incremental algorithm for a
+       generalization of the shortest-path problem. Journal of Algorithms
+       21(2), 267-305 (from memory).
 
     Raises
     ------
@@ -152,12 +207,14 @@ def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = No
     kind_costs = {}
     role = "arrive" if opt.reverse else "leave"
     every = travel.attach(net, np.asarray(xy, np.float64).reshape(-1, 2), roles=(role,))   # each hub walks once
+    forests, work = _forests(net, every, groups, weight, opt.direction, repair)
     for name, members in groups:
         att = every if name is None else every.subset(members)
-        cost, hub = nearest_hub(net, att, weight, opt.direction)
-        has = (hub >= 0) & np.isfinite(cost)
+        f = forests[name][2]
+        cost, hub_all = f.cost, f.hub          # hub: index into all hubs (the seeds' labels)
+        has = (hub_all >= 0) & np.isfinite(cost)
         cost = np.where(has, cost, np.nan)
-        hub_all = np.where(has, members[np.maximum(hub, 0)], -1)
+        hub_all = np.where(has, hub_all, -1)
         col_id = "nearest_hub" if name is None else f"nearest_hub_{name}"
         col_cost = "hub_cost" if name is None else f"hub_cost_{name}"
         per_node = np.empty(net.n_nodes, dtype=object)
@@ -215,4 +272,26 @@ def hub_access(network, xy, ids, kinds=None, options: RoutingOptions | None = No
     frame = pd.DataFrame(data)
     if all(isinstance(v, (int, np.integer)) for v in ids):
         frame["hub_id"] = frame["hub_id"].astype(np.int64)
-    return HubAccess(fields, node_cost, node_hub, kind_costs, frame, weight, notes)
+    return HubAccess(fields, node_cost, node_hub, kind_costs, frame, weight, notes, forests, work)
+
+
+def _forests(net, every, groups, weight, direction, repair):
+    """Per group, ``(graph, seeds, forest)``: grown from scratch, or repaired from ``repair.base``."""
+    from .criticality import SearchGraph, Seeds, grow_forest, network_change, update_forest
+
+    out, work, graph, change = {}, 0, None, None
+    for name, members in groups:
+        seeds = Seeds.from_attachment(net, every, direction, hubs=members)
+        old = repair.base.forests.get(name) if repair is not None else None
+        if old is not None and old[0] is not None:
+            if change is None:
+                change = network_change(repair.network, net, weight.name, direction, repair.edges)
+            f = update_forest(old[0], old[2], change, seeds, repair.hub_map, old_seeds=old[1])
+            out[name] = (None, seeds, f)
+        else:
+            if graph is None:
+                graph = SearchGraph.from_network(net, weight.name, direction)
+            f = grow_forest(graph, seeds)
+            out[name] = (graph, seeds, f)
+        work += f.work
+    return out, int(work)

@@ -73,7 +73,7 @@ from ..network.weights import Weight, as_weight
 from .legs import ROLES, ArcDetail, Attachment, DirectWalks, Priced, StraightWalk, walk_cost
 
 __all__ = ["Attachment", "ArcDetail", "DirectWalks", "Priced", "StraightWalk", "attach_points", "walk_cost",
-           "ROLES", "EXTRA_WALK_M"]
+           "ROLES", "EXTRA_WALK_M", "share_entry_places"]
 
 #: Edge modes a point may enter anywhere along (common practice: roads and
 #: tracks are walkable to; rail and cable only at stations or access nodes).
@@ -118,6 +118,28 @@ def _entry_places(network: Network, weight: Weight) -> dict:
             "kd": cKDTree(np.column_stack([network.node_x[nodes], network.node_y[nodes]])) if len(nodes) else None,
         }
     return per_net[weight.name]
+
+
+def share_entry_places(base: Network, new: Network) -> None:
+    """Let ``new`` use ``base``'s cached spatial indexes of the places points join, where they are the same.
+
+    ``new`` must have ``base``'s nodes and edges (same ids, positions,
+    geometry, modes, entry flags and components: a network re-costed in
+    place, :func:`geo_reach.pipeline.changes.changed_network`).  An index
+    for a weight is shared only when the same edges are routable on it in
+    both (no edge closed or opened), since the indexes hold the routable
+    edges; otherwise ``new`` builds its own on first use.
+    """
+    per_base = _TREES.get(base)
+    if not per_base or new is base:
+        return
+    per_new = _TREES.setdefault(new, {})
+    for key, value in per_base.items():
+        name = key if isinstance(key, str) else key[1]
+        if key in per_new:
+            continue
+        if np.array_equal(np.isnan(base.cost(name)), np.isnan(new.cost(name))):
+            per_new[key] = value
 
 
 def _edge_samples(network: Network, weight: Weight, spacing_m: float):

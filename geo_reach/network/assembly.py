@@ -43,7 +43,7 @@ from .overshoots import report_dead_ends
 from .stations import AccessPlan, mark_entries, transfer_links
 from .table import NOISE_M, LineTable, union_find_labels
 
-__all__ = ["assemble", "line_rows", "cluster_nodes", "duplicate_edges"]
+__all__ = ["assemble", "line_rows", "cluster_nodes", "duplicate_edges", "edge_costs"]
 
 
 def _run_bounds(line: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -198,22 +198,41 @@ def _clean_edges(tab: LineTable, lines: pd.DataFrame, e: dict, snap_m: float, is
     return keep
 
 
+def edge_costs(length: np.ndarray, speed: np.ndarray, cable: np.ndarray, closed: np.ndarray,
+               all_season: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Minutes, latency and all-season flag of line edges: the one costing rule of the build.
+
+    Minutes from ``length`` (m) at ``speed`` (km/h) for road and rail;
+    latency for cable; a closed edge (a scenario's closure) has neither and
+    counts as no all-season road.  Scenarios re-cost edges in place with it
+    (:mod:`geo_reach.pipeline.changes`), so a changed network equals a rebuild.
+    """
+    minutes = np.where(np.isnan(speed), np.nan, minutes_from_length(length, speed))
+    minutes = np.where(cable | closed, np.nan, minutes)
+    latency = np.where(cable & ~closed, latency_from_length(length), np.nan)
+    return minutes, latency, np.where(closed, np.nan, all_season)
+
+
 def _costs(lines: pd.DataFrame, labels: list[str], eline: np.ndarray, length: np.ndarray) -> dict[str, Any]:
     """Per-edge costs and source fields from the edges' lines."""
     speed = lines["speed"].to_numpy()[eline]
     mode_names = np.array(MODES, dtype=object)[lines["mode"].to_numpy()[eline]]
     cable = mode_names == "cable"
-    minutes = np.where(np.isnan(speed), np.nan, minutes_from_length(length, speed))
+    closed = (lines["closed"].to_numpy(bool)[eline] if "closed" in lines.columns
+              else np.zeros(len(eline), bool))
+    minutes, latency, all_season = edge_costs(length, speed, cable, closed,
+                                              lines["all_season"].to_numpy()[eline].astype(float))
     return {
-        "minutes": np.where(cable, np.nan, minutes),
-        "latency": np.where(cable, latency_from_length(length), np.nan),
+        "minutes": minutes,
+        "latency": latency,
+        "closed": closed,
         "oneway": lines["oneway"].to_numpy()[eline],
         "mode": mode_names,
         "src_layer": np.array(labels, dtype=object)[lines["layer"].to_numpy()[eline]],
         "src_fid": lines["fid"].to_numpy()[eline].astype(np.int64),
         "extra": {
             "level": lines["level"].to_numpy()[eline].astype(float),
-            "all_season": lines["all_season"].to_numpy()[eline].astype(float),
+            "all_season": all_season,
             "class": lines["klass"].to_numpy()[eline],
             "speed_kmh": speed,
         },
@@ -232,6 +251,7 @@ def _append_transfers(c: dict, efrom: np.ndarray, eto: np.ndarray, geom: np.ndar
     c["mode"] = np.concatenate([c["mode"], np.full(k, "transfer", object)])
     c["src_layer"] = np.concatenate([c["src_layer"], np.full(k, "", object)])
     c["src_fid"] = np.concatenate([c["src_fid"], np.full(k, -1, np.int64)])
+    c["closed"] = np.concatenate([c["closed"], np.zeros(k, bool)])
     c["extra"] = {kk: np.concatenate([v, np.full(k, np.nan if v.dtype.kind == "f" else None, dtype=v.dtype)])
                   for kk, v in c["extra"].items()}
     return (np.concatenate([efrom, tf["from"]]).astype(np.int64), np.concatenate([eto, tf["to"]]).astype(np.int64),
@@ -287,7 +307,7 @@ def assemble(tab: LineTable, lines: pd.DataFrame, labels: list[str], specs: list
         edge_from=efrom.astype(np.int64), edge_to=eto.astype(np.int64), edge_geometry=geom,
         edge_length_m=length, edge_minutes=c["minutes"], edge_latency_ms=c["latency"],
         edge_oneway=c["oneway"].astype(bool), edge_mode=c["mode"], edge_src_layer=c["src_layer"],
-        edge_src_fid=c["src_fid"], extra=c["extra"],
+        edge_src_fid=c["src_fid"], extra=c["extra"], edge_closed=c["closed"] if c["closed"].any() else None,
     )
     report_dead_ends(net, options.snap_m, options.dangle_m, issues)
     return net

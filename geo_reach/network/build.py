@@ -105,6 +105,10 @@ class LayerSpec:
         Rail: penalty paid on each boarding, on the transfer link from road to rail.
     assume_crs : CRS-like, optional
         CRS to assume when the layer has none.
+    closed_field : str, optional
+        A field that is true for features closed to traffic (a scenario's
+        closures): they stay in the network (same nodes and edges as without
+        the closure) with no cost on any weight (``closed`` = 1 on their edges).
     """
 
     source: Any
@@ -120,6 +124,7 @@ class LayerSpec:
     access_points: Any = None
     boarding_minutes: float = 0.0
     assume_crs: Any = None
+    closed_field: str | None = None
 
 
 @dataclass

@@ -119,6 +119,11 @@ class Network:
         the builder made, such as transfers).
     extra : dict of str to ndarray
         Further per-edge columns (``level``, ``all_season``, ``class`` ...).
+    edge_closed : ndarray of bool, optional
+        Edges closed to traffic (a scenario's closures): kept with their
+        geometry and length, but no cost on any weight (:meth:`cost` gives
+        ``NaN``; ``minutes`` and ``latency_ms`` are ``NaN``).  ``None`` when
+        nothing is closed.
     """
 
     crs: CRS
@@ -136,6 +141,7 @@ class Network:
     edge_src_layer: np.ndarray
     edge_src_fid: np.ndarray
     extra: dict = field(default_factory=dict)
+    edge_closed: np.ndarray | None = None
 
     def __post_init__(self):
         n, m = len(self.node_x), len(self.edge_from)
@@ -146,6 +152,8 @@ class Network:
                      "edge_oneway", "edge_mode", "edge_src_layer", "edge_src_fid"):
             if len(getattr(self, name)) != m:
                 raise ValueError(f"{name} has {len(getattr(self, name))} rows, expected {m}")
+        if self.edge_closed is not None and len(self.edge_closed) != m:
+            raise ValueError(f"edge_closed has {len(self.edge_closed)} rows, expected {m}")
         if m and (self.edge_from.min() < 0 or self.edge_to.min() < 0
                   or self.edge_from.max() >= n or self.edge_to.max() >= n):
             raise ValueError("edge endpoints refer to nodes that do not exist")
@@ -275,6 +283,8 @@ class Network:
         }
         for k, v in self.extra.items():
             data[k] = v
+        if self.edge_closed is not None:
+            data["closed"] = self.edge_closed.astype(np.int32)
         return gpd.GeoDataFrame(pd.DataFrame(data), geometry=self.edge_geometry, crs=self.crs)
 
     def nodes_frame(self):
@@ -325,7 +335,7 @@ class Network:
         geom = np.asarray(edges.geometry.values, dtype=object)
         length = col("length_m", np.nan)
         xy = shapely.get_coordinates(nodes.geometry.values)
-        known = set(EDGE_FIELDS) | {edges.geometry.name}
+        known = set(EDGE_FIELDS) | {edges.geometry.name, "closed"}
         extra = {c: edges[c].to_numpy() for c in edges.columns if c not in known}
         mode = edges["mode"].astype(str).to_numpy(object) if "mode" in edges else np.full(len(edges), "road", object)
         return cls(
@@ -341,4 +351,5 @@ class Network:
             edge_src_layer=edges["src_layer"].astype(str).to_numpy(object) if "src_layer" in edges else np.full(len(edges), "", object),
             edge_src_fid=edges["src_fid"].fillna(-1).to_numpy(np.int64) if "src_fid" in edges else np.full(len(edges), -1, np.int64),
             extra=extra,
+            edge_closed=(edges["closed"].fillna(0).to_numpy() == 1) if "closed" in edges else None,
         )

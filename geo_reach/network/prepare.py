@@ -238,8 +238,10 @@ def _attributes(spec: Any, lay: _Layer) -> dict[str, Any]:
         _refuse(lay, spec.all_season_field, bad, "all-season value",
                 f"numbers (above 0 = all-season), {'/'.join(_YES)}, {'/'.join(_NO)} or empty (unknown)")
     klass = gdf[spec.class_field].astype(object).to_numpy() if spec.class_field else np.full(n, None, object)
+    closed_field = getattr(spec, "closed_field", None)
+    closed = (gdf[closed_field].fillna(False).to_numpy(bool) if closed_field else np.zeros(n, bool))
     return {"speed": speed, "defaulted": defaulted, "why": why, "oneway": oneway, "level": level,
-            "all_season": aval, "klass": klass}
+            "all_season": aval, "klass": klass, "closed": closed}
 
 
 def _line_parts(lay: _Layer, geoms: np.ndarray, keep: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -329,6 +331,7 @@ def _layer_lines(li: int, spec: Any, lay: _Layer, crs: CRS) -> pd.DataFrame:
         "geom": part, "layer": li, "fid": lay.fids[owner], "mode": MODES.index(spec.mode),
         "level": att["level"][owner], "oneway": ow != 0, "speed": att["speed"][owner],
         "all_season": att["all_season"][owner], "klass": att["klass"][owner], "len": plen,
+        "closed": att["closed"][owner],
     })
 
 

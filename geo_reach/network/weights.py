@@ -65,10 +65,13 @@ class Weight:
         return self.walk != "free"
 
     def edge_cost(self, network) -> np.ndarray:
-        """Per-edge cost on ``network`` (``NaN``: the edge has no value and is not routable)."""
-        if self.edge_field is None:
-            return np.ones(network.n_edges, dtype=np.float64)
-        return network.edge_column(self.edge_field)
+        """Per-edge cost on ``network`` (``NaN``: the edge has no value, or is closed, and is not routable)."""
+        cost = (np.ones(network.n_edges, dtype=np.float64) if self.edge_field is None
+                else network.edge_column(self.edge_field))
+        closed = getattr(network, "edge_closed", None)
+        if closed is not None:   # a scenario's closed links: no cost on any weight
+            cost = np.where(closed, np.nan, cost)
+        return cost
 
     def walk_cost(self, walk_m, walk_kmh: float) -> np.ndarray:
         """Cost of walking ``walk_m`` metres at ``walk_kmh`` km/h, in this weight's unit.

@@ -57,7 +57,7 @@ def check_outdir(study: Study, outdir, overwrite: bool) -> None:
 
 
 def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_comparison=False,
-              progress=None) -> dict:
+              progress=None, incremental: bool = True) -> dict:
     """Run the study into ``outdir`` and return the summary.
 
     Parameters
@@ -74,6 +74,13 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
         Write the comparison outputs only (``geo-reach compare``).
     progress : callable, optional
         Called with a short text as each step starts.
+    incremental : bool, default True
+        A scenario that closes or upgrades features or changes hubs (and
+        adds no line layer) takes the baseline network with those edges
+        re-costed in place and repairs the baseline's nearest-hub forests
+        (:mod:`geo_reach.pipeline.changes`).  ``False`` rebuilds and
+        searches every scenario in full: the reference, with identical
+        results.
 
     Raises
     ------
@@ -82,12 +89,12 @@ def run_study(study: Study, outdir, *, overwrite=False, scenarios=None, only_com
         long steps wherever they can be found early.
     """
     try:
-        return _run_study(study, Path(outdir), overwrite, scenarios, only_comparison, progress)
+        return _run_study(study, Path(outdir), overwrite, scenarios, only_comparison, progress, incremental)
     except GeoReachError as err:
         raise study.blame(err) from err
 
 
-def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
+def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress, incremental=True):
     from ..export.atomic import atomic_dir
 
     check_outdir(study, outdir, overwrite)
@@ -126,7 +133,9 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
         sspecs, shubs, changes, kinds = planned[n]
         if not changes:
             log.warning("scenario %s: changes nothing (reported, still mapped)", n)
-        scen = analyse(study, sspecs, shubs, progress=bar, with_profile=False, rasters=rasters)
+        pre_s, repair, how = _scenario_network(study, n, base, hubs, planned[n], incremental)
+        scen = analyse(study, sspecs, shubs, progress=bar, with_profile=False, rasters=rasters, prebuilt=pre_s,
+                       repair=repair)
         results[n] = compare(study, n, base, scen, changes, kinds)
         results[n]["node_cost"] = scen.node_cost            # for the map's scenario view
         if scen.rings is not None:
@@ -136,8 +145,7 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
             f"{k} of {v} issue spots in the scenario network" for k, v in scen.build.report["issues"].items()
             if v and v != base.build.report["issues"].get(k)]
         timing[f"scenario_{n}_s"] = round(time.perf_counter() - t1, 3)
-        results[n]["reuse"] = ("the scenario network was rebuilt and routed in full; the grid, rasters and "
-                               "hub reading were reused from the baseline")
+        results[n]["reuse"] = how
     summary = {
         "tool": TOOL, "version": __version__, "caution": CAUTION, "title": study.title,
         "study": study.raw,
@@ -159,6 +167,30 @@ def _run_study(study, outdir, overwrite, scenarios, only_comparison, progress):
         summary["timing"] = timing
         write_outputs(tmp, study, base, results, summary, only_comparison=only_comparison)
     return summary
+
+
+def _scenario_network(study, name, base, hubs, planned, incremental):
+    """(prebuilt BuildResult or None, Repair or None, what was reused) for one scenario."""
+    from ..analysis.access import Repair
+    from ..network.build import BuildResult
+    from .changes import can_change_in_place, changed_network, hub_map
+
+    full = ("the scenario network was rebuilt and routed in full; the grid, rasters and hub reading were "
+            "reused from the baseline")
+    sspecs, shubs, _, kinds = planned
+    if not incremental or not can_change_in_place(study, kinds):
+        return None, None, full
+    net, edges = changed_network(base.build.network, sspecs, kinds)
+    pre = BuildResult(net, base.build.issues, base.build.report)
+    how = (f"the scenario network is the baseline's with {len(edges)} edge(s) re-costed in place (no rebuild); "
+           "the grid, rasters and hub reading were reused from the baseline")
+    if base.access is None or shubs is None:
+        return pre, None, how
+    hm = hub_map(hubs, shubs, study.scenarios[name].get("remove_hubs", []))
+    if hm is None:
+        return pre, None, how + "; the nearest hubs were searched in full"
+    return pre, Repair(base.access, base.build.network, edges, hm), (
+        how + "; the nearest hubs were repaired from the baseline's (only the trips that change were searched)")
 
 
 def run_surface(study: Study, outdir, *, overwrite=False, progress=None) -> dict:

@@ -27,7 +27,10 @@ def edges_layer(a: Analysis):
     e = net.edges_frame()
     if a.node_cost is not None:
         c = a.node_cost
-        e["hub_cost"] = np.fmin(c[net.edge_from], c[net.edge_to])
+        cost = np.fmin(c[net.edge_from], c[net.edge_to])
+        if net.edge_closed is not None:   # a closed link carries no trip
+            cost = np.where(net.edge_closed, np.nan, cost)
+        e["hub_cost"] = cost
     return e
 
 
@@ -48,6 +51,7 @@ def scenario_inputs(study: Study, name: str, base_specs, base_hubs: Hubs | None)
             index.setdefault(t["layer"], i)
     changes = []
     upgraded = {}
+    closed = {}
     for key in ("upgrade", "close"):   # upgrades first, so a scenario may upgrade and close one feature
         for i, item in enumerate(sc.get(key, [])):
             lab = item.get("layer")
@@ -73,8 +77,15 @@ def scenario_inputs(study: Study, name: str, base_specs, base_hubs: Hubs | None)
                 raise InputError(f"scenarios.{name}.{key}[{i}].fids: feature {missing[0]} does not exist in layer "
                                  f"'{lab}'; use the feature ids shown as src_fid in the edges layer")
             if key == "close":
-                frame = frame.drop(index=fids)
+                # closed features stay in the network (same nodes and edges) with no cost on any weight
+                frame = frame.copy()
+                col = "__closed"
+                if col not in frame.columns:
+                    frame[col] = False
+                frame.loc[frame.index.isin(fids), col] = True
+                s.closed_field = col
                 changes.append(f"closed {len(fids)} feature(s) of {lab} {how}")
+                closed.setdefault(lab, []).extend(int(f) for f in fids)
             else:
                 from ..network.costs import feature_speeds
 
@@ -116,7 +127,7 @@ def scenario_inputs(study: Study, name: str, base_specs, base_hubs: Hubs | None)
         if sc.get("remove_hubs"):
             changes.append(f"removed {len(sc['remove_hubs'])} hub(s)")
     kinds = {"lines": bool(added) or any(k in sc for k in ("upgrade",)), "closure": "close" in sc,
-             "hubs": "add_hubs" in sc or bool(sc.get("remove_hubs")), "upgraded": upgraded,
+             "hubs": "add_hubs" in sc or bool(sc.get("remove_hubs")), "upgraded": upgraded, "closed": closed,
              "added_layers": [s.name or parse_layer_ref(s.source).label for s in added]}
     return specs, hubs, changes, kinds
 

@@ -99,6 +99,7 @@ class Analysis:
     connection_m: np.ndarray | None = None
     notes: list = field(default_factory=list)
     sections: dict = field(default_factory=dict)          # "criticality", "indices" -> SectionResult
+    access: object = None                                 # the HubAccess (its forests repair a scenario's)
 
 
 def _quiet(_step: str) -> None:
@@ -106,7 +107,7 @@ def _quiet(_step: str) -> None:
 
 
 def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profile=True,
-            rasters=None, prebuilt=None, steps=ALL_STEPS) -> Analysis:
+            rasters=None, prebuilt=None, steps=ALL_STEPS, repair=None) -> Analysis:
     """Compute everything the study describes for these line layers and hubs.
 
     Parameters
@@ -126,6 +127,11 @@ def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profi
         ``specs`` already built (the baseline's, built once to learn the CRS).
     steps : set of str
         Some of :data:`ALL_STEPS`.
+    repair : Repair, optional
+        ``prebuilt`` is a baseline's network changed in place (a scenario):
+        the nearest hubs are repaired from the baseline's forests
+        (:class:`~geo_reach.analysis.access.Repair`), with results identical
+        to a search from scratch.
     """
     from ..analysis import metrics as M
 
@@ -147,7 +153,8 @@ def analyse(study: Study, specs, hubs: Hubs | None, *, progress=None, with_profi
         from ..analysis.access import hub_access
 
         step("routing to hubs")
-        acc = hub_access(net, hubs.xy, hubs.ids, hubs.kinds, travel=out.travel)
+        acc = hub_access(net, hubs.xy, hubs.ids, hubs.kinds, travel=out.travel, repair=repair)
+        out.access = acc
         out.notes += list(hubs.notes) + acc.notes
         out.node_cost, out.node_hub = acc.node_cost, acc.node_hub
         out.kind_costs = acc.kind_costs
