@@ -46,11 +46,10 @@ class GeoReachError(Exception):
 
     def with_message(self, message: str) -> "GeoReachError":
         """A copy of this error (same class and key) with another message."""
-        import copy
-
-        err = copy.copy(self)
-        err.args = (message,)
-        err.key = self.key
+        # Built afresh rather than copied: copy.copy goes through __reduce_ex__, which libraries may patch
+        # (distributed installs tblib's pickling support, which cannot rebuild a class with two builtin bases).
+        err = type(self)(message, key=self.key)
+        err.__dict__.update({k: v for k, v in self.__dict__.items() if k != "key"})
         return err
 
 
