@@ -49,12 +49,18 @@ def road_like(side: int, seed: int = 0):
 
 
 def timed(fn, repeat):
+    """Run ``fn`` ``repeat`` times: its last result, the median wall time and every time (shared by the benches)."""
     out, ts = None, []
     for _ in range(repeat):
         t = time.perf_counter()
         out = fn()
         ts.append(time.perf_counter() - t)
     return out, statistics.median(ts), ts
+
+
+def fmt(ts):
+    """Times as a short comma-separated list, for RESULTS.md."""
+    return ", ".join(f"{t:.3g}" for t in ts)
 
 
 def main():

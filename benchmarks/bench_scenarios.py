@@ -25,7 +25,6 @@ from __future__ import annotations
 import argparse
 import os
 import platform
-import statistics
 import sys
 import tempfile
 import textwrap
@@ -37,17 +36,7 @@ import numpy as np
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
 
-def timed(fn, repeat):
-    out, ts = None, []
-    for _ in range(repeat):
-        t = time.perf_counter()
-        out = fn()
-        ts.append(time.perf_counter() - t)
-    return out, statistics.median(ts), ts
-
-
-def fmt(ts):
-    return ", ".join(f"{t:.3g}" for t in ts)
+from bench_routing import fmt, timed  # noqa: E402  (the shared timing helpers)
 
 
 def cpu_model() -> str:
