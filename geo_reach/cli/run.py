@@ -126,6 +126,14 @@ def print_summary(summary: dict, out: Path, file=None):
     for w in b.get("weak_regions", [])[:3]:
         p(f"  weak region #{w['rank']}: {reason_words(w['reason'], weak_min)}, {w['population'] or 0:,.0f} people, "
           f"{w['area_km2']:.1f} km2", file=file)
+    crit = summary.get("criticality") or {}
+    for t in (crit.get("top") or [])[:3]:
+        p(f"  critical link #{t['rank']}: edge {t['edge_id']}, {t['people_cut_off'] or 0:,.0f} people cut off "
+          f"(summed over hub kinds), {t.get('person_minutes_added') or 0:,.0f} person-minutes added", file=file)
+    ind = summary.get("indices") or {}
+    for measure, n in (ind.get("rows_reaching_a_hub") or {}).items():
+        p(f"access index {measure} (within {ind.get('within_minutes')} min): {n:,} of {ind.get('rows', 0):,} "
+          "settlement rows reach a hub (layer access_index)", file=file)
     for r in summary.get("scenario_ranking", []):
         s = summary["scenarios"][r["scenario"]]
         p(f"scenario {r['rank']}. {r['scenario']}: {scenario_headline(s, unit)}", file=file)
