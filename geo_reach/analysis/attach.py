@@ -152,7 +152,7 @@ def _check_options(max_access_m, walk_kmh):
 
 def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max_access_m: float = 5000.0,
                   walk_kmh: float = 5.0, extra_walk_m: float = EXTRA_WALK_M, walk=None, roles=ROLES,
-                  always_join: bool = False) -> Attachment:
+                  always_join: bool = False, reach_m=None) -> Attachment:
     """Find where each point may join the network.
 
     Parameters
@@ -186,6 +186,12 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
         however far it lies (for places whose people count, such as
         settlements, as every cell of the travel-time surface counts).  Its
         ``access_m`` stays above ``max_access_m``, so callers can report it.
+    reach_m : array_like of float, shape (n_points,), optional
+        A reach fixed by the caller, metres (straight line): the point is
+        offered *every* entry within it, and no rule above prunes them
+        (NaN: the rules above, for that point).  For walk-costed weights
+        only; :meth:`~geo_reach.analysis.travel.TravelModel.hub_trips` uses it
+        to price a settlement's trip exactly (see there).
 
     Returns
     -------
@@ -240,6 +246,13 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
         else:                                  # no road on it: up to the nearest place, and the extra walk
             far = np.isfinite(access) & (access > max_access_m)
             lim[far] = access[far] + min(extra_walk_m, max_access_m) + TIE_M
+    fixed = np.zeros(p, bool)
+    if reach_m is not None:
+        reach_m = np.asarray(reach_m, np.float64).reshape(-1)
+        if reach_m.shape != (p,):
+            raise OptionError(f"reach_m has {reach_m.size} values for {p} points")
+        fixed = np.isfinite(reach_m) & weight.walk_costed
+        lim[fixed] = np.maximum(reach_m[fixed], 0.0) + TIE_M
     # --- road edges: every edge within reach of the nearest
     if p and places["tree"] is not None:
         ok = near <= lim
@@ -324,6 +337,7 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
             np.minimum.at(first_main, leg_point[main_leg], sel[main_leg])
         offered |= main_leg & (sel <= first_main[leg_point] + 1e-12)
         offered |= reach & _faster_than_every_cheaper(network, weight, leg_point, leg_edge, sel, reach)
+        offered |= fixed[leg_point]   # a reach fixed by the caller: every entry within it
     else:
         offered = sel <= best[leg_point] + TIE_M   # free walking: the nearest entries only
     keep = reach & offered

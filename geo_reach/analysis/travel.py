@@ -158,7 +158,7 @@ class TravelModel:
         return self._pricer
 
     def attach(self, network: Network, xy, *, roles=ROLES, always_join: bool = False,
-               extra_walk_m: float = EXTRA_WALK_M) -> Attachment:
+               extra_walk_m: float = EXTRA_WALK_M, reach_m=None) -> Attachment:
         """Where each point joins ``network``, every leg priced by this model.
 
         Parameters
@@ -171,9 +171,34 @@ class TravelModel:
         always_join : bool, default False
             Points farther than ``max_access_m`` join at their nearest places
             all the same (settlements: their people count).
+        reach_m : array_like of float, shape (n,), optional
+            Offer each point every entry within this many metres, unpruned
+            (see :func:`~geo_reach.analysis.attach.attach_points`).
         """
         return attach_points(network, xy, self.weight, max_access_m=self.max_access_m, walk_kmh=self.walk_kmh,
-                             extra_walk_m=extra_walk_m, walk=self._pricer, roles=roles, always_join=always_join)
+                             extra_walk_m=extra_walk_m, walk=self._pricer, roles=roles, always_join=always_join,
+                             reach_m=reach_m)
+
+    def least_walk_cost_per_m(self) -> float:
+        """A lower bound on the cost of walking one metre of straight-line distance, in the weight's unit.
+
+        Straight walks cost exactly ``weight.walk_cost(1 m)``.  On a friction
+        grid a walk is a chain of pieces no shorter in all than the straight
+        line, each at most as fast as the fastest cell (land cover) on its
+        best slope (Tobler 1993), so the bound divides by that speed; a
+        walked length (``length_m``) is never shorter than the straight line.
+        0 where walking is free.
+        """
+        w = self.weight
+        if not w.walk_costed:
+            return 0.0
+        if self.walk_grid is None or w.walk != "time":
+            return float(w.walk_cost(1.0, self.walk_kmh))
+        from .friction import TOBLER_BEST_SLOPE, slope_factor
+
+        kmh = np.asarray(self.walk_grid.kmh, np.float64)
+        top = max(float(np.nanmax(kmh)) if kmh.size else 0.0, self.walk_kmh) * float(slope_factor(TOBLER_BEST_SLOPE))
+        return float(w.walk_cost(1.0, top))
 
     def walk(self, from_xy, to_xy):
         """Cost and walked length of walking from each ``from_xy[i]`` to ``to_xy[i]``.
@@ -274,6 +299,23 @@ class TravelModel:
         to_hub = self.options.reverse
         p_att = self._attached(network, places, "leave" if to_hub else "arrive")
         h_att = self._attached(network, hubs, "arrive" if to_hub else "leave")
+        out = self._hub_trips(network, p_att, h_att, groups)
+        per_m = self.least_walk_cost_per_m()
+        if per_m <= 0 or not p_att.n_points:
+            return out
+        # Second pass: every entry whose walk alone costs no more than a trip already found (the dearest
+        # over all hubs and every group, so each group's trip is exact too).
+        costs = np.column_stack([t.cost for t in out.values()])
+        bound = np.where(np.isfinite(costs), costs, -np.inf).max(axis=1)
+        redo = p_att.attached & np.isfinite(bound) & (bound >= 0)
+        if not redo.any():
+            return out
+        reach = np.where(redo, bound / per_m, np.nan)
+        exact = self.attach(network, p_att.point_xy, roles=("leave",) if to_hub else ("arrive",), reach_m=reach)
+        return self._hub_trips(network, _keep_rows(p_att, exact, redo), h_att, groups)
+
+    def _hub_trips(self, network, p_att, h_att, groups) -> dict:
+        to_hub = self.options.reverse
         direct = self._direct_between(p_att, h_att) if to_hub else self._direct_between(h_att, p_att)
         out = {None: nearest_hub_trips(network, p_att, h_att, self.weight, self.direction, direct=direct)}
         for name, members in (groups or {}).items():
@@ -283,3 +325,14 @@ class TravelModel:
             hub = np.where(t.hub >= 0, members[np.maximum(t.hub, 0)], -1)
             out[name] = HubTrips(t.cost, hub, t.network_m)
         return out
+
+
+def _keep_rows(first: Attachment, second: Attachment, rows) -> Attachment:
+    """``first``'s legs plus ``second``'s legs of the points in ``rows`` (mask), sorted by point."""
+    take = np.asarray(rows, bool)[second.leg_point]
+    cols = [np.concatenate([getattr(first, f), getattr(second, f)[take]])
+            for f in ("leg_point", "leg_edge", "leg_node", "leg_fraction", "leg_walk_m", "leg_leave_cost",
+                      "leg_arrive_cost")]
+    order = np.argsort(cols[0], kind="stable")
+    return Attachment(first.weight, first.walk_kmh, first.max_access_m, first.point_xy, first.access_m,
+                      *(c[order] for c in cols), blocked=first.blocked)
