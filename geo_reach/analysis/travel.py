@@ -303,15 +303,33 @@ class TravelModel:
         per_m = self.least_walk_cost_per_m()
         if per_m <= 0 or not p_att.n_points:
             return out
+        role = ("leave",) if to_hub else ("arrive",)
+        # A place whose pruned entries reach no hub (of some group): add every entry out to the nearest
+        # one from which that group's hubs can be reached, so that a trip is found if one exists.
+        costs = np.column_stack([t.cost for t in out.values()])
+        need = p_att.attached & ~np.isfinite(costs).all(axis=1)
+        if need.any():
+            far = np.full(p_att.n_points, np.nan)
+            for j, members in enumerate([None] + [np.asarray(m, np.int64) for m in (groups or {}).values()]):
+                rows = need & ~np.isfinite(costs[:, j])
+                if rows.any():
+                    sub = h_att if members is None else h_att.subset(members)
+                    d = _nearest_useful(network, self, sub, p_att.point_xy[rows])
+                    far[rows] = np.fmax(far[rows], np.where(np.isfinite(d), d, np.nan))
+            more = np.isfinite(far)
+            if more.any():
+                wide = self.attach(network, p_att.point_xy, roles=role, reach_m=np.where(more, far, np.nan))
+                p_att = _keep_rows(p_att, wide, more)
+                out = self._hub_trips(network, p_att, h_att, groups)
+                costs = np.column_stack([t.cost for t in out.values()])
         # Second pass: every entry whose walk alone costs no more than a trip already found (the dearest
         # over all hubs and every group, so each group's trip is exact too).
-        costs = np.column_stack([t.cost for t in out.values()])
         bound = np.where(np.isfinite(costs), costs, -np.inf).max(axis=1)
         redo = p_att.attached & np.isfinite(bound) & (bound >= 0)
         if not redo.any():
             return out
         reach = np.where(redo, bound / per_m, np.nan)
-        exact = self.attach(network, p_att.point_xy, roles=("leave",) if to_hub else ("arrive",), reach_m=reach)
+        exact = self.attach(network, p_att.point_xy, roles=role, reach_m=reach)
         return self._hub_trips(network, _keep_rows(p_att, exact, redo), h_att, groups)
 
     def _hub_trips(self, network, p_att, h_att, groups) -> dict:
@@ -336,3 +354,37 @@ def _keep_rows(first: Attachment, second: Attachment, rows) -> Attachment:
     order = np.argsort(cols[0], kind="stable")
     return Attachment(first.weight, first.walk_kmh, first.max_access_m, first.point_xy, first.access_m,
                       *(c[order] for c in cols), blocked=first.blocked)
+
+
+def _nearest_useful(network: Network, model: "TravelModel", hubs: Attachment, xy) -> np.ndarray:
+    """Straight distance (m) from each point to the nearest entry from which a trip reaches ``hubs``.
+
+    An entry is useful when the leg's arcs (see ``Attachment.arc_detail``) lead to a node with a finite
+    cost to (``to-hub``) or from (``from-hub``) the nearest hub.  ``inf`` where there is none.
+    """
+    import shapely
+
+    from .attach import _entry_places
+
+    if not len(xy):
+        return np.zeros(0)
+    node_cost = model.nearest_hub(network, hubs).cost
+    ok = np.isfinite(node_cost)
+    places = _entry_places(network, model.weight)
+    along, nodes = places["along"], places["nodes"]
+    one = network.edge_oneway[along]
+    ahead, back = (network.edge_to, network.edge_from) if model.options.reverse else \
+        (network.edge_from, network.edge_to)
+    useful = along[ok[ahead[along]] | (~one & ok[back[along]])]
+    pts = shapely.points(xy[:, 0], xy[:, 1])
+    d = np.full(len(xy), np.inf)
+    if len(useful):
+        tree = shapely.STRtree(network.edge_geometry[useful])
+        (qi, _), dist = tree.query_nearest(pts, return_distance=True, all_matches=False)
+        d[qi] = np.minimum(d[qi], dist)
+    good = nodes[ok[nodes]]
+    if len(good):
+        from scipy.spatial import cKDTree
+
+        d = np.minimum(d, cKDTree(np.column_stack([network.node_x[good], network.node_y[good]])).query(xy)[0])
+    return d
