@@ -305,8 +305,9 @@ def test_an_added_road_never_makes_a_settlements_trip_dearer(run):
     Cormen, Leiserson, Rivest and Stein (2009), Introduction to Algorithms, 3rd ed., ch. 24 (from memory):
     a shortest-path weight is a minimum over paths and adding a road only adds paths.  Regression: on
     length_m the settlements farther than max_access_m from every road lost the long walk they used when
-    the new road came within reach (three villages 8 to 10 km dearer).  Hops and latency price the walk at
-    nothing and join at the nearest entry (see the report of this change), so only the costed weights count.
+    the new road came within reach (three villages 8 to 10 km dearer).  On hops and latency the walk is
+    free and a place joins at its nearest entries only, a rule not proven monotone (a new road nearer than
+    the old entry moves the place onto it); the demo is checked on them all the same.
     """
     w = run["weight"]
     st = layer(run, "proposed_road_settlements")
@@ -316,7 +317,8 @@ def test_an_added_road_never_makes_a_settlements_trip_dearer(run):
     rise = a - b
     worse = np.isfinite(b) & (rise > 1e-6 * (1 + np.abs(np.nan_to_num(b))))
     assert not worse.any(), list(zip(np.nonzero(worse)[0], b[worse], a[worse]))
-    assert np.nanmin(rise) < 0     # the road does help someone
+    if w == "minutes":
+        assert np.nanmin(rise) < -1.0     # the road does help someone (more than a minute)
 
 
 def test_the_ranking_orders_by_the_weights_own_change(run):

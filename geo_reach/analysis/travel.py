@@ -330,6 +330,12 @@ class TravelModel:
             return out
         reach = np.where(redo, bound / per_m, np.nan)
         exact = self.attach(network, p_att.point_xy, roles=role, reach_m=reach)
+        # the hubs' side of every such trip walks no more than the dearest of these trips either
+        h_role = ("arrive",) if to_hub else ("leave",)
+        h_redo = h_att.attached
+        if h_redo.any():
+            h_reach = np.where(h_redo, bound[redo].max() / per_m, np.nan)
+            h_att = _keep_rows(h_att, self.attach(network, h_att.point_xy, roles=h_role, reach_m=h_reach), h_redo)
         return self._hub_trips(network, _keep_rows(p_att, exact, redo), h_att, groups)
 
     def _hub_trips(self, network, p_att, h_att, groups) -> dict:
@@ -360,7 +366,8 @@ def _nearest_useful(network: Network, model: "TravelModel", hubs: Attachment, xy
     """Straight distance (m) from each point to the nearest entry from which a trip reaches ``hubs``.
 
     An entry is useful when the leg's arcs (see ``Attachment.arc_detail``) lead to a node with a finite
-    cost to (``to-hub``) or from (``from-hub``) the nearest hub.  ``inf`` where there is none.
+    cost to (``to-hub``) or from (``from-hub``) the nearest hub; where there is none, the farthest edge a
+    hub stands on (a trip along that edge only).  ``inf`` where there is neither.
     """
     import shapely
 
@@ -387,4 +394,11 @@ def _nearest_useful(network: Network, model: "TravelModel", hubs: Attachment, xy
         from scipy.spatial import cKDTree
 
         d = np.minimum(d, cKDTree(np.column_stack([network.node_x[good], network.node_y[good]])).query(xy)[0])
+    # no such node: the trip can only ride the edge a hub stands on (one-way, from its start); offer every
+    # edge out to the farthest of those
+    on = np.unique(hubs.leg_edge[hubs.leg_edge >= 0])
+    lost = ~np.isfinite(d)
+    if lost.any() and len(on):
+        far = shapely.distance(pts[lost][:, None], network.edge_geometry[on][None, :]).max(axis=1)
+        d[lost] = far
     return d
