@@ -306,14 +306,17 @@ def test_an_added_road_never_makes_a_settlements_trip_dearer(run):
     a shortest-path weight is a minimum over paths and adding a road only adds paths.  Regression: on
     length_m the settlements farther than max_access_m from every road lost the long walk they used when
     the new road came within reach (three villages 8 to 10 km dearer).  On hops and latency the walk is
-    free and a place joins at its nearest entries only, a rule not proven monotone (a new road nearer than
-    the old entry moves the place onto it); the demo is checked on them all the same.
+    free and a place joins at its nearest entries only: a new road nearer than the old entry moves the
+    place onto it, which can cost more links (settlement 49 of the demo on hops: 4.3 -> 5.2), so there
+    only "no trip is lost" is checked; the rule for free walks is an open question (see the report).
     """
     w = run["weight"]
     st = layer(run, "proposed_road_settlements")
     c = "hub_minutes" if w == "minutes" else "hub_cost"
     b, a = st[f"{c}_before"].to_numpy(float), st[f"{c}_after"].to_numpy(float)
-    assert np.isfinite(b).sum() >= 10 and np.isfinite(a).sum() >= np.isfinite(b).sum()
+    assert np.isfinite(b).sum() >= 10 and np.all(np.isfinite(a[np.isfinite(b)]))
+    if w in ("hops", "latency_ms"):
+        return
     rise = a - b
     worse = np.isfinite(b) & (rise > 1e-6 * (1 + np.abs(np.nan_to_num(b))))
     assert not worse.any(), list(zip(np.nonzero(worse)[0], b[worse], a[worse]))

@@ -279,7 +279,7 @@ class TravelModel:
         role = "arrive" if self.options.reverse else "leave"
         return nearest_hub(network, self._attached(network, hubs, role), self.weight, self.direction)
 
-    def hub_trips(self, network: Network, places, hubs, groups=None) -> dict:
+    def hub_trips(self, network: Network, places, hubs, groups=None, *, exact: bool = False) -> dict:
         """Each place's trip to its nearest hub (in the model's direction), for all hubs and per group.
 
         Parameters
@@ -290,18 +290,52 @@ class TravelModel:
         groups : dict of name to array_like of int, optional
             Hub indices per group (e.g. per hub kind).
 
+        exact : bool, default False
+            Price each joined place's trip over *every* entry, however far
+            (settlements, attached with ``always_join``): adding a road then
+            never makes a trip dearer.  ``False``: the entries of
+            :func:`~geo_reach.analysis.attach.attach_points` only.
+
         Returns
         -------
         dict of name to HubTrips
             ``None`` for all hubs, then each group (hub indices into
             ``hubs``, not the group).
+
+        Notes
+        -----
+        With ``exact``, on weights where walking is costed, the trip is
+        ``T*(p) = min over every entry a of the place and b of a hub of
+        walk(a) + network(a, b) + walk(b)`` (and the direct walk), found in
+        at most three passes:
+
+        1. the pruned entries give a trip ``U(p)`` for all hubs and for each
+           group (``inf`` if none);
+        2. a place with no trip to some group is also offered every entry
+           out to the nearest one from which that group's hubs are reached
+           (node costs of :meth:`nearest_hub`), so ``U(p)`` is finite
+           wherever ``T*(p)`` is;
+        3. every entry whose straight distance is at most
+           ``max U(p) / c`` is offered to the place, and to every hub out to
+           ``max over places of U / c``, with ``c`` the least cost of
+           walking a metre (:meth:`least_walk_cost_per_m`), unpruned.
+
+        Exactness: a walk costs at least ``c`` per metre of straight
+        distance, and a trip costs at least its walks, so the best trip's
+        entries lie within ``T*(p) / c <= U(p) / c`` of the place and of its
+        hub; pass 3 offers them all, and the search takes the cheapest.
+        Monotonicity: a network with lines added keeps every old entry at
+        the same walk, and no network cost between old entries grows
+        (Cormen et al. 2009, ch. 24), so ``T*`` can only fall.  Hops and
+        latency (free walks) keep the nearest-entry rule, which is not
+        monotone.  Cost: up to two more attachments and searches per call.
         """
         to_hub = self.options.reverse
         p_att = self._attached(network, places, "leave" if to_hub else "arrive")
         h_att = self._attached(network, hubs, "arrive" if to_hub else "leave")
         out = self._hub_trips(network, p_att, h_att, groups)
         per_m = self.least_walk_cost_per_m()
-        if per_m <= 0 or not p_att.n_points:
+        if not exact or per_m <= 0 or not p_att.n_points:
             return out
         role = ("leave",) if to_hub else ("arrive",)
         # A place whose pruned entries reach no hub (of some group): add every entry out to the nearest
