@@ -33,7 +33,12 @@ than every leg cheaper to walk to (a trunk road 1.5 km away beats a track
 well be reached by the road.  Adding a road never makes a trip dearer unless
 the new road is cheaper to walk to than the old cheapest entry, *and* an
 entry more than ``extra_walk_m`` of walking beyond the new cheapest, on a
-road no faster than a nearer one, was the cheapest trip.  Legs are directed (a trip only leaves an origin and only
+road no faster than a nearer one, was the cheapest trip (or the place's
+reach shrank: a far place's reach follows its nearest road).  Settlements
+are therefore priced with ``reach_m`` (every entry within a reach fixed by
+a trip already found, unpruned) by
+:meth:`~geo_reach.analysis.travel.TravelModel.hub_trips` with ``exact``,
+which never gets dearer when a road is added.  Legs are directed (a trip only leaves an origin and only
 arrives at a destination or hub), so no trip can cut across country from
 one edge to another through a point.  For ``hops`` and ``latency_ms`` the
 walk is free, so "cheapest" would let a point jump to any edge within reach:
