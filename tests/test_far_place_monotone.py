@@ -72,3 +72,33 @@ def test_the_long_way_round_is_taken_when_it_is_cheaper():
     cost = model.hub_trips(net, places, HUB, exact=True)[None].cost[0]
     # 1 km walk (12 min), R2 (10 min), R1 from its east end to x = 0 (0.5 min), 50 m walk (0.6 min)
     assert cost == pytest.approx(12.0 + 10.0 + 0.5 + 0.6, rel=1e-9)
+
+
+def test_route_and_od_price_the_settlements_trip_with_the_same_exact_rule():
+    """One trip, one number: a village at (0, 4900), 2,000 m from a track (x = -2000) that leads to the hub
+    the long way round, and 4,900 m from the hub's road R1; the hub stands 150 m south of R1, 5,050 m from
+    the village (beyond max_access_m: no direct walk).  Both entries lie within max_access_m, but the road
+    is 2,900 m of walking beyond the track, so on length_m (a metre walked costs a metre ridden, no road
+    is "faster") the pruned entries drop it and the trip rides the track: 2,000 m of walk, 7,900 + 1,500
+    m round, 2,850 m up the link x = -500 to y = -150 and 500 m on foot east to the hub: 14,750 m.  The exact rule walks to the road: 4,900 m + 150 m = 5,050 m, for the
+    settlement, route and od alike.  On minutes the road is kept as the faster one: 5,050 m at 5 km/h."""
+    xy = [(-500.0, 0.0), (500.0, 0.0), (-2000.0, 4900.0), (-2000.0, -3000.0), (-500.0, -3000.0)]
+    hub = np.array([[0.0, -150.0]])
+    net = net_from_edges(xy, [(0, 1), (2, 3), (3, 4), (4, 0)], minutes=[1.0, 20.0, 20.0, 20.0])
+    village = np.array([[0.0, 4900.0]])
+    for weight in ("length_m", "minutes"):
+        model = TravelModel(RoutingOptions(weight=weight, walk_kmh=5.0))
+        places = model.attach(net, village, roles=("leave",), always_join=True)
+        hub_cost = model.hub_trips(net, places, hub, exact=True)[None].cost[0]
+        want = float(model.weight.walk_cost(4900.0 + 150.0, 5.0))
+        assert hub_cost == pytest.approx(want, rel=1e-9)
+        o = model.attach(net, village, roles=("leave",))
+        h = model.attach(net, hub, roles=("arrive",))
+        assert model.route(net, o, h, exact=True).cost == pytest.approx(hub_cost, rel=1e-9)
+        assert model.od(net, o, h, exact=True).cost[0, 0] == pytest.approx(hub_cost, rel=1e-9)
+        pruned = model.route(net, o, h).cost
+        if weight == "length_m":   # the case does exercise the pruning: without exact, the long way round
+            assert pruned == pytest.approx(14750.0, rel=1e-9)
+            assert model.hub_trips(net, places, hub)[None].cost[0] == pytest.approx(14750.0, rel=1e-9)
+        else:
+            assert pruned == pytest.approx(hub_cost, rel=1e-9)

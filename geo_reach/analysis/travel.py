@@ -252,23 +252,51 @@ class TravelModel:
         d = self.direct(a.point_xy[ia], b.point_xy[ib])
         return DirectWalks(ia[d.src], ib[d.dst], d.cost, d.walk_m)
 
-    def route(self, network: Network, origin, destination) -> Route:
-        """The cheapest trip between two places (coordinates, or one-point attachments from :meth:`attach`)."""
+    def route(self, network: Network, origin, destination, *, exact: bool = False) -> Route:
+        """The cheapest trip between two places (coordinates, or one-point attachments from :meth:`attach`).
+
+        ``exact``: over every entry of both places, however far, as
+        :meth:`hub_trips` with ``exact`` prices a settlement (one trip, one
+        number); a trip the pruned entries do not find stays unfound.
+        """
         o = self._attached(network, np.asarray(origin, np.float64).reshape(1, 2)
                            if not isinstance(origin, Attachment) else origin, "leave")
         d = self._attached(network, np.asarray(destination, np.float64).reshape(1, 2)
                            if not isinstance(destination, Attachment) else destination, "arrive")
+        r = shortest_path(network, o, d, self.weight, direct=self._direct_between(o, d))
+        per_m = self.least_walk_cost_per_m()
+        if not exact or per_m <= 0 or not np.isfinite(r.cost):
+            return r
+        o, d = self._widened(network, o, [r.cost], "leave"), self._widened(network, d, [r.cost], "arrive")
         return shortest_path(network, o, d, self.weight, direct=self._direct_between(o, d))
 
-    def od(self, network: Network, origins, destinations, *, batch: int | None = None) -> ODMatrix:
+    def _widened(self, network, att: Attachment, bound, role) -> Attachment:
+        """``att`` plus every entry within ``bound / c`` metres of each joined point (``bound`` finite)."""
+        bound = np.asarray(bound, np.float64)
+        rows = att.attached & np.isfinite(bound) & (bound >= 0)
+        if not rows.any():
+            return att
+        reach = np.where(rows, bound / self.least_walk_cost_per_m(), np.nan)
+        return _keep_rows(att, self.attach(network, att.point_xy, roles=(role,), reach_m=reach), rows)
+
+    def od(self, network: Network, origins, destinations, *, batch: int | None = None,
+           exact: bool = False) -> ODMatrix:
         """Cost and length of the cheapest trip from every origin to every destination.
 
         ``origins`` and ``destinations`` are coordinates (n, 2) or
         attachments made by :meth:`attach`; places left out (not joined to
-        the network) get ``inf``, also for a trip to themselves.
+        the network) get ``inf``, also for a trip to themselves.  ``exact``:
+        as :meth:`route` (each origin widened by its dearest trip found,
+        each destination by its own).
         """
         o = self._attached(network, origins, "leave")
         d = self._attached(network, destinations, "arrive")
+        m = od_matrix(network, o, d, self.weight, batch=batch, direct=self._direct_between(o, d))
+        if not exact or self.least_walk_cost_per_m() <= 0 or not m.cost.size:
+            return m
+        c = np.where(np.isfinite(m.cost), m.cost, -np.inf)
+        o = self._widened(network, o, np.where(np.isfinite(c.max(axis=1)), c.max(axis=1), np.nan), "leave")
+        d = self._widened(network, d, np.where(np.isfinite(c.max(axis=0)), c.max(axis=0), np.nan), "arrive")
         return od_matrix(network, o, d, self.weight, batch=batch, direct=self._direct_between(o, d))
 
     def nearest_hub(self, network: Network, hubs) -> NearestHub:
