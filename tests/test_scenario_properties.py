@@ -369,3 +369,47 @@ def test_chord_closed_form_small_cases_by_hand():
     """T for n = 4 and n = 6, counted pair by pair in the docstring above (14 and 50)."""
     assert chord_total(2) == 14        # 0-1, 0-2, 0-3, 1-2, 2-3 at 1 and 1-3 at 2: 7 unordered
     assert chord_total(3) == 50        # distance sums 7 (nodes 0, 3) and 9 (nodes 1, 2, 4, 5)
+
+
+# ============================================================================ places off the network
+# Property (Cormen et al. 2009, ch. 24, from memory): a place's trip is a minimum over its walks onto
+# the network plus the network's shortest paths; adding links keeps every old entry and only adds
+# paths, so the minimum cannot grow.  Places and hubs are drawn near and far from the links (beyond
+# max_access_m of every link, so the "far place" reach is used), the lattice stretched up to 8 times
+# (legs more than 1 km of walking apart, where the pruning rules of attach_points bite), on minutes
+# and length_m, both ways, for all hubs and for a group of one hub.
+@st.composite
+def off_network_places(draw, lo, hi, n_max=4):
+    n = draw(st.integers(1, n_max))
+    coord = st.floats(lo, hi, allow_nan=False)
+    return [(draw(coord), draw(coord)) for _ in range(n)]
+
+
+def stretched(net_spec, scale):
+    return {**net_spec, "xy": [(x * scale, y * scale) for x, y in net_spec["xy"]]}
+
+
+@ROUTE
+@given(data=st.data(), weight=st.sampled_from(["minutes", "length_m"]), direction=DIRECTIONS,
+       reach=st.sampled_from([150.0, 400.0, 5000.0]), scale=st.sampled_from([1.0, 8.0]))
+def test_adding_a_line_never_raises_a_place_trip(data, weight, direction, reach, scale):
+    from geo_reach.analysis.options import RoutingOptions
+    from geo_reach.analysis.travel import TravelModel
+
+    spec = data.draw(networks())
+    extra = data.draw(added_lines(spec))
+    lo, hi = -2500.0 * scale, 3700.0 * scale
+    places = np.array(data.draw(off_network_places(lo, hi)))
+    near_node = np.array([spec["xy"][h] for h in spec["hubs"]]) * scale + 23.0   # hubs just off their nodes
+    hub_xy = np.vstack([near_node, np.array(data.draw(off_network_places(lo, hi, 2)))])
+    groups = {"first": [0], "loose": [len(near_node)]}
+    model = TravelModel(RoutingOptions(weight=weight, direction=direction, max_access_m=reach, walk_kmh=5.0))
+    role = ("leave",) if direction == "to-hub" else ("arrive",)
+    out = []
+    for net in (build(stretched(spec, scale)), build(stretched(spec, scale), stretched(extra, scale))):
+        att = model.attach(net, places, roles=role, always_join=True)
+        trips = model.hub_trips(net, att, hub_xy, groups, exact=True)
+        out.append({k: t.cost for k, t in trips.items()})
+    before, after = out
+    for key in before:
+        assert no_more(after[key], before[key]), (key, before[key], after[key])

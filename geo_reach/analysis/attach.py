@@ -33,7 +33,12 @@ than every leg cheaper to walk to (a trunk road 1.5 km away beats a track
 well be reached by the road.  Adding a road never makes a trip dearer unless
 the new road is cheaper to walk to than the old cheapest entry, *and* an
 entry more than ``extra_walk_m`` of walking beyond the new cheapest, on a
-road no faster than a nearer one, was the cheapest trip.  Legs are directed (a trip only leaves an origin and only
+road no faster than a nearer one, was the cheapest trip (or the place's
+reach shrank: a far place's reach follows its nearest road).  Settlements
+are therefore priced with ``reach_m`` (every entry within a reach fixed by
+a trip already found, unpruned) by
+:meth:`~geo_reach.analysis.travel.TravelModel.hub_trips` with ``exact``,
+which never gets dearer when a road is added.  Legs are directed (a trip only leaves an origin and only
 arrives at a destination or hub), so no trip can cut across country from
 one edge to another through a point.  For ``hops`` and ``latency_ms`` the
 walk is free, so "cheapest" would let a point jump to any edge within reach:
@@ -174,7 +179,7 @@ def _check_options(max_access_m, walk_kmh):
 
 def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max_access_m: float = 5000.0,
                   walk_kmh: float = 5.0, extra_walk_m: float = EXTRA_WALK_M, walk=None, roles=ROLES,
-                  always_join: bool = False) -> Attachment:
+                  always_join: bool = False, reach_m=None) -> Attachment:
     """Find where each point may join the network.
 
     Parameters
@@ -208,6 +213,12 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
         however far it lies (for places whose people count, such as
         settlements, as every cell of the travel-time surface counts).  Its
         ``access_m`` stays above ``max_access_m``, so callers can report it.
+    reach_m : array_like of float, shape (n_points,), optional
+        A reach fixed by the caller, metres (straight line): the point is
+        offered *every* entry within it, and no rule above prunes them
+        (NaN: the rules above, for that point).  For walk-costed weights
+        only; :meth:`~geo_reach.analysis.travel.TravelModel.hub_trips` uses it
+        to price a settlement's trip exactly (see there).
 
     Returns
     -------
@@ -262,6 +273,13 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
         else:                                  # no road on it: up to the nearest place, and the extra walk
             far = np.isfinite(access) & (access > max_access_m)
             lim[far] = access[far] + min(extra_walk_m, max_access_m) + TIE_M
+    fixed = np.zeros(p, bool)
+    if reach_m is not None:
+        reach_m = np.asarray(reach_m, np.float64).reshape(-1)
+        if reach_m.shape != (p,):
+            raise OptionError(f"reach_m has {reach_m.size} values for {p} points")
+        fixed = np.isfinite(reach_m) & weight.walk_costed
+        lim[fixed] = np.maximum(reach_m[fixed], 0.0) + TIE_M
     # --- road edges: every edge within reach of the nearest
     if p and places["tree"] is not None:
         ok = near <= lim
@@ -346,6 +364,7 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
             np.minimum.at(first_main, leg_point[main_leg], sel[main_leg])
         offered |= main_leg & (sel <= first_main[leg_point] + 1e-12)
         offered |= reach & _faster_than_every_cheaper(network, weight, leg_point, leg_edge, sel, reach)
+        offered |= fixed[leg_point]   # a reach fixed by the caller: every entry within it
     else:
         offered = sel <= best[leg_point] + TIE_M   # free walking: the nearest entries only
     keep = reach & offered

@@ -61,7 +61,7 @@ def run(args):
     report_left_out(da, d.ids, "destinations", args.max_access_m)
     oi = np.nonzero(oa.attached)[0]
     di = np.nonzero(da.attached)[0]
-    part = model.od(net, oa.subset(oi), da.subset(di))
+    part = model.od(net, oa.subset(oi), da.subset(di), exact=True)
     n_o, n_d = len(o.ids), len(d.ids)
     cost = np.full((n_o, n_d), np.inf)
     length = np.full((n_o, n_d), np.inf)

@@ -84,7 +84,7 @@ def run(args):
                    if np.isfinite(att.access_m[0]) else "where no network edge can be joined")
             raise InputError(f"{flag} {pt[0]},{pt[1]}: the point is {far}, beyond --max-access-m "
                              f"{args.max_access_m:g}; check the coordinates (X,Y order, --crs) or raise --max-access-m")
-    r = model.route(net, *ends)
+    r = model.route(net, *ends, exact=True)
     props = {
         "weight": opt.weight.name,
         "unit": opt.weight.unit,

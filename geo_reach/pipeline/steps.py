@@ -325,7 +325,7 @@ def _settlements(study, out, net, hubs):
     role = "leave" if model.options.reverse else "arrive"
     places = model.attach(net, xy, roles=(role,), always_join=True)   # every settlement's people count
     groups = dict(kind_groups(hubs.kinds)) if hubs.kinds is not None else {}
-    trips = model.hub_trips(net, places, hubs.xy, groups)
+    trips = model.hub_trips(net, places, hubs.xy, groups, exact=True)
 
     def columns(tr):
         has = (tr.hub >= 0) & np.isfinite(tr.cost)
@@ -374,7 +374,7 @@ def _weight_costs(travel, net, xy, hubs: Hubs, role) -> np.ndarray:
     NaN where no hub is reachable on the weight.
     """
     places = travel.attach(net, xy, roles=(role,), always_join=True)
-    tr = travel.hub_trips(net, places, hubs.xy, {})[None]
+    tr = travel.hub_trips(net, places, hubs.xy, {}, exact=True)[None]
     return np.where((tr.hub >= 0) & np.isfinite(tr.cost), tr.cost, np.nan)
 
 
