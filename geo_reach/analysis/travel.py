@@ -50,7 +50,7 @@ from .routing import NearestHub, nearest_hub
 from .trips import HubTrips, ODMatrix, Route, nearest_hub_trips, od_matrix, shortest_path
 from .walkgrid import GridWalk, WalkGrid
 
-__all__ = ["TravelModel", "WalkGrid", "DirectWalks", "HubTrips"]
+__all__ = ["TravelModel", "WalkGrid", "DirectWalks", "HubTrips", "keep_legs"]
 
 
 class TravelModel:
@@ -277,7 +277,7 @@ class TravelModel:
         if not rows.any():
             return att
         reach = np.where(rows, bound / self.least_walk_cost_per_m(), np.nan)
-        return _keep_rows(att, self.attach(network, att.point_xy, roles=(role,), reach_m=reach), rows)
+        return keep_legs(att, self.attach(network, att.point_xy, roles=(role,), reach_m=reach), rows)
 
     def od(self, network: Network, origins, destinations, *, batch: int | None = None,
            exact: bool = False) -> ODMatrix:
@@ -381,7 +381,7 @@ class TravelModel:
             more = np.isfinite(far)
             if more.any():
                 wide = self.attach(network, p_att.point_xy, roles=role, reach_m=np.where(more, far, np.nan))
-                p_att = _keep_rows(p_att, wide, more)
+                p_att = keep_legs(p_att, wide, more)
                 out = self._hub_trips(network, p_att, h_att, groups)
                 costs = np.column_stack([t.cost for t in out.values()])
         # Second pass: every entry whose walk alone costs no more than a trip already found (the dearest
@@ -397,8 +397,8 @@ class TravelModel:
         h_redo = h_att.attached
         if h_redo.any():
             h_reach = np.where(h_redo, bound[redo].max() / per_m, np.nan)
-            h_att = _keep_rows(h_att, self.attach(network, h_att.point_xy, roles=h_role, reach_m=h_reach), h_redo)
-        return self._hub_trips(network, _keep_rows(p_att, exact, redo), h_att, groups)
+            h_att = keep_legs(h_att, self.attach(network, h_att.point_xy, roles=h_role, reach_m=h_reach), h_redo)
+        return self._hub_trips(network, keep_legs(p_att, exact, redo), h_att, groups)
 
     def _hub_trips(self, network, p_att, h_att, groups) -> dict:
         to_hub = self.options.reverse
@@ -413,7 +413,7 @@ class TravelModel:
         return out
 
 
-def _keep_rows(first: Attachment, second: Attachment, rows) -> Attachment:
+def keep_legs(first: Attachment, second: Attachment, rows) -> Attachment:
     """``first``'s legs plus ``second``'s legs of the points in ``rows`` (mask), sorted by point."""
     take = np.asarray(rows, bool)[second.leg_point]
     cols = [np.concatenate([getattr(first, f), getattr(second, f)[take]])

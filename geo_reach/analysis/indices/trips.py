@@ -137,12 +137,15 @@ class _Side:
     access_m: np.ndarray
 
 
-def _side(network, xy, nodes, weight, role, max_access_m, walk_kmh, travel=None, always_join=False) -> _Side:
+def _side(network, xy, nodes, weight, role, max_access_m, walk_kmh, travel=None, always_join=False,
+          reach_m=None) -> _Side:
     """Virtual arcs joining points to the network: the walk model's single entry point.
 
     With ``travel`` (a :class:`~geo_reach.analysis.travel.TravelModel` for
     this weight) the points walk as it prices walks (terrain, land cover,
-    barriers); else straight lines at ``walk_kmh``.
+    barriers); else straight lines at ``walk_kmh``.  With ``reach_m`` too,
+    every entry within that many metres is offered besides, unpruned (the
+    settlements' exact rule, see :func:`trip_costs`).
     """
     if nodes is not None:
         nodes = np.asarray(nodes, dtype=np.int64)
@@ -154,6 +157,11 @@ def _side(network, xy, nodes, weight, role, max_access_m, walk_kmh, travel=None,
     pts = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
     if travel is not None:
         att = travel.attach(network, pts, roles=(role,), always_join=always_join)
+        if reach_m is not None and len(pts):
+            from ..travel import keep_legs
+
+            wide = travel.attach(network, pts, roles=(role,), reach_m=np.full(len(pts), float(reach_m)))
+            att = keep_legs(att, wide, np.ones(len(pts), bool))
     else:
         att = attach_points(network, pts, weight, max_access_m=max_access_m, walk_kmh=walk_kmh,
                             always_join=always_join)
@@ -292,7 +300,7 @@ _CHUNK = 20_000
 
 
 def _chunked(network, xy, nodes, weight, role, max_access_m, walk_kmh, other: _Side, big_is_start: bool,
-             travel=None, always_join=False):
+             travel=None, always_join=False, reach_m=None):
     """The larger side's pruned arcs, attached chunk by chunk, and the direct arcs to the ``other`` side."""
     adj = network.csr(weight, reverse=not big_is_start)
     if nodes is not None:
@@ -302,7 +310,8 @@ def _chunked(network, xy, nodes, weight, role, max_access_m, walk_kmh, other: _S
     xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
     parts, dparts = [], []
     for s in range(0, max(len(xy), 1), _CHUNK):
-        side = _side(network, xy[s:s + _CHUNK], None, weight, role, max_access_m, walk_kmh, travel, always_join)
+        side = _side(network, xy[s:s + _CHUNK], None, weight, role, max_access_m, walk_kmh, travel, always_join,
+                     reach_m)
         pa, pb, dc = _direct_arcs(network, side, other, weight) if big_is_start else \
             _direct_arcs(network, other, side, weight)
         if big_is_start:
@@ -528,15 +537,20 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
     s_xy = np.asarray(settlement_xy, dtype=np.float64).reshape(-1, 2)
     ns, nh = len(s_xy), (len(np.atleast_1d(hub_nodes)) if hub_nodes is not None else len(np.reshape(hub_xy, (-1, 2))))
     # the smaller side is attached whole; the larger one by chunks (attach, direct arcs, prune, drop the legs)
+    # Settlements (always_join with the run's model) are priced by the settlements' exact rule: a trip of at
+    # most T walks at most T / c at either end (c: the least cost of walking a metre), so offering every entry
+    # that near, unpruned, finds every pair within T exactly (TravelModel.hub_trips, exact=True).
+    exact = travel is not None and always_join and travel.least_walk_cost_per_m() > 0
+    reach = within / travel.least_walk_cost_per_m() if exact and np.isfinite(within) else None
     if ns <= nh:
-        settle = _side(network, s_xy, None, weight, s_role, max_access_m, walk_kmh, travel, always_join)
+        settle = _side(network, s_xy, None, weight, s_role, max_access_m, walk_kmh, travel, always_join, reach)
         hubs, direct = _chunked(network, hub_xy, hub_nodes, weight, h_role, max_access_m, walk_kmh, settle,
-                                big_is_start=not to_hub, travel=travel)
+                                big_is_start=not to_hub, travel=travel, reach_m=reach)
         settle = _prune(settle, network.csr(weight, reverse=not to_hub))
     else:
-        hubs = _side(network, hub_xy, hub_nodes, weight, h_role, max_access_m, walk_kmh, travel)
+        hubs = _side(network, hub_xy, hub_nodes, weight, h_role, max_access_m, walk_kmh, travel, reach_m=reach)
         settle, direct = _chunked(network, s_xy, None, weight, s_role, max_access_m, walk_kmh, hubs,
-                                  big_is_start=to_hub, travel=travel, always_join=always_join)
+                                  big_is_start=to_hub, travel=travel, always_join=always_join, reach_m=reach)
         hubs = _prune(hubs, network.csr(weight, reverse=to_hub))
     if travel is not None and hub_xy is not None:
         direct = _with_straight_walks(direct, travel, s_xy, np.asarray(hub_xy, np.float64).reshape(-1, 2),
@@ -589,6 +603,16 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
             pick[seg[is_best][::-1]] = uh[is_best][::-1]   # ties: the lowest hub index
             near_c[ui[first]] = best
             near_h[ui[first]] = pick
+    if exact and nearest and hub_xy is not None and ns:
+        # the nearest hub (unbounded) by the very function that prices the settlements layer: one trip, one number
+        among = None if nearest_among is None else np.unique(np.asarray(nearest_among, dtype=np.int64))
+        model = travel.for_direction(direction)
+        places = model.attach(network, s_xy, roles=(s_role,), always_join=True)   # as the settlements layer
+        trips = model.hub_trips(network, places, np.asarray(hub_xy, np.float64).reshape(-1, 2),
+                                None if among is None else {"among": among}, exact=True)[None if among is None
+                                                                                          else "among"]
+        near_c = np.where(np.isfinite(trips.cost), trips.cost, np.inf).astype(np.float64)
+        near_h = np.where(np.isfinite(trips.cost), trips.hub, -1).astype(np.int64)
     return TripCosts(si, hi, cost, ns, hubs.n, within, weight, direction, near_c, near_h,
                      settle.attached, hubs.attached, settle.access_m, hubs.access_m)
 
