@@ -70,7 +70,6 @@ RENAMED = {
     "entry_x": "join_x", "entry_y": "join_y", "entry_minutes": "join_minutes",
     "mean_minutes": "mean_hub_minutes",
     "population_weighted_minutes": "mean_hub_minutes",
-    "nearest_minutes": "hub_minutes", "nearest_length_m": "hub_length_m",
     "attached": "joined", "ratio": "capacity_per_person",
     "sssp_runs": "searches", "ci95_low": "range_95_low", "ci95_high": "range_95_high",
     "largest_strong_component_nodes": "largest_two_way_component_nodes",
@@ -219,13 +218,14 @@ TERMS: tuple[Term, ...] = (
                    "included: that hub may differ from nearest_hub, the nearest by minutes.", "weight unit",
        "nodes, edges (cheaper end), settlements"),
     _t("hub_cost_<kind>", "hub_cost to the nearest hub of that kind.", "weight unit", "nodes"),
-    _t("hub_minutes", "Minutes of the trip between this place and its nearest hub (of the row's kind in "
-                      "access_index), walk to and from the network included; empty where no hub is reachable.",
-       "minutes", "settlements, access_index, rasters"),
+    _t("hub_minutes", "Minutes of the trip between this place and its nearest hub, walk to and from the network "
+                      "included; empty where no hub is reachable.", "minutes", "settlements, rasters"),
     _t("hub_minutes_<kind>", "hub_minutes to the nearest hub of that kind.", "minutes", "settlements"),
-    _t("hub_length_m", "Length of the shortest trip between the settlement and its nearest hub of the row's kind, "
-                       "walks included (indices --weight length_m).", "m", "access_index",
-       "indices --weight length_m"),
+    _t("nearest_minutes", "In access_index: hub_minutes to the nearest hub of the row's kind (not only those within "
+                          "the catchment), walks included; the same number as the settlements layer's "
+                          "hub_minutes_<kind>.", "minutes", "access_index", "indices"),
+    _t("nearest_length_m", "nearest_minutes when the indices are computed on length: the shortest trip's length, "
+                           "walks included.", "m", "access_index", "indices --weight length_m"),
     _t("network_length_m", "Length of the trip's part on the network (partial edges at both ends included); in "
                            "summary.json, the network's total length.", "m", "settlements, summary network"),
     _t("eccentricity", "Cost of the longest of the cheapest trips from this node (weight unit).", "weight unit",

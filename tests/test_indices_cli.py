@@ -83,14 +83,14 @@ def test_2sfca_worked_example(case, capsys, monkeypatch):
     assert code == 0, err
     assert CAUTION in err
     layer = gpd.read_file(case / "out.gpkg", layer="access_index")
-    assert list(layer.columns) == ["settlement_id", "kind", "measure", "index", "hubs_within", "hub_minutes",
+    assert list(layer.columns) == ["settlement_id", "kind", "measure", "index", "hubs_within", "nearest_minutes",
                                    "reason", "geometry"]
     assert set(layer.geom_type) == {"Point"}
     cl = layer[layer["kind"] == "clinic"].set_index("settlement_id")
     np.testing.assert_allclose(cl.loc[["A", "B", "C", "D"], "index"], [1 / 1500, 8 / 7500, 1 / 2500, 0.0], rtol=1e-9)
     assert cl.loc[["A", "B", "C", "D"], "hubs_within"].tolist() == [1, 2, 1, 0]
-    np.testing.assert_allclose(cl.loc[["A", "B", "C"], "hub_minutes"], [2.0, 2.0, 3.0], rtol=1e-9)
-    assert np.isnan(cl.loc["D", "hub_minutes"])
+    np.testing.assert_allclose(cl.loc[["A", "B", "C"], "nearest_minutes"], [2.0, 2.0, 3.0], rtol=1e-9)
+    assert np.isnan(cl.loc["D", "nearest_minutes"])
     assert "8,000 m from the network" in cl.loc["D", "reason"]
     assert cl.loc[["A", "B", "C"], "reason"].isna().all()
     pop = np.array([1000, 2000, 500, 50])
@@ -106,7 +106,7 @@ def test_2sfca_worked_example(case, capsys, monkeypatch):
 
     assert CAUTION in (case / "out.csv").read_text(encoding="utf-8-sig").splitlines()[0]
     csv = read_csv(case / "out.csv")
-    assert list(csv.columns) == ["settlement_id", "kind", "measure", "index", "hubs_within", "hub_minutes",
+    assert list(csv.columns) == ["settlement_id", "kind", "measure", "index", "hubs_within", "nearest_minutes",
                                  "reason"]
     assert len(csv) == 8
 

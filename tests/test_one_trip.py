@@ -294,7 +294,7 @@ def test_indices_hub_minutes_are_the_settlements_and_the_routes_minutes(tmp_path
         rows = idx[idx["kind"] == kind].set_index("settlement_id")
         assert sorted(rows.index) == sorted(SETTLEMENTS)
         for s, sp in SETTLEMENTS.items():
-            got = rows.loc[s, "hub_minutes"]
+            got = rows.loc[s, "nearest_minutes"]
             assert got == pytest.approx(table.loc[s, f"hub_minutes_{kind}"], rel=1e-9), (kind, s)
             assert got == pytest.approx(ref[(s, hub)], rel=1e-6), (kind, s)
             hp = HUBS[hub]
@@ -303,7 +303,7 @@ def test_indices_hub_minutes_are_the_settlements_and_the_routes_minutes(tmp_path
             assert got == pytest.approx(json.loads(out)["properties"]["cost"], rel=1e-6), (kind, s)
             # one hub per kind: cumulative counts it when the trip is within 60 minutes
             assert rows.loc[s, "hubs_within"] == int(got <= 60.0) and rows.loc[s, "index"] == float(got <= 60.0)
-    assert rows.loc[6, "hub_minutes"] == pytest.approx(minutes(100 * math.sqrt(2)), rel=1e-9)
+    assert rows.loc[6, "nearest_minutes"] == pytest.approx(minutes(100 * math.sqrt(2)), rel=1e-9)
     # the indices command with the same walking options prices the same trips
     run_cli(["indices", tmp_path / "net.gpkg", "--hubs", f"{tmp_path / 'towns.gpkg'}:hubs", "--hub-id-field", "hub_id",
              "--hub-kind-field", "kind", "--settlements", f"{tmp_path / 'towns.gpkg'}:villages",
@@ -312,6 +312,6 @@ def test_indices_hub_minutes_are_the_settlements_and_the_routes_minutes(tmp_path
              "-o", tmp_path / "indices.gpkg"], capsys)
     cmd = pyogrio.read_dataframe(tmp_path / "indices.gpkg", layer="access_index")
     for kind, hub in (("clinic", "C"), ("market", "M")):
-        got = cmd[cmd["kind"] == kind].set_index("settlement_id")["hub_minutes"]
+        got = cmd[cmd["kind"] == kind].set_index("settlement_id")["nearest_minutes"]
         for s in SETTLEMENTS:
             assert got.loc[s] == pytest.approx(ref[(s, hub)], rel=1e-6), (kind, s)

@@ -92,7 +92,7 @@ def test_criticality_section_gives_the_commands_numbers(demo_run, capsys):
 
 
 def test_indices_section_hub_minutes_are_the_settlements_minutes(demo_run):
-    """One trip, one number: with terrain and water, each settlement's hub_minutes per hub kind is its
+    """One trip, one number: with terrain and water, each settlement's nearest_minutes per hub kind is its
     hub_minutes_<kind> in the settlements layer."""
     out = demo_run / "out"
     idx = pyogrio.read_dataframe(out / "results.gpkg", layer="access_index")
@@ -104,7 +104,7 @@ def test_indices_section_hub_minutes_are_the_settlements_minutes(demo_run):
     for (m, k), rows in idx.groupby(["measure", "kind"]):
         rows = rows.set_index("settlement_id")
         want = st.loc[rows.index, f"hub_minutes_{k}"].to_numpy(float)
-        np.testing.assert_allclose(rows["hub_minutes"].to_numpy(float), want, rtol=1e-9, err_msg=f"{m} {k}")
+        np.testing.assert_allclose(rows["nearest_minutes"].to_numpy(float), want, rtol=1e-9, err_msg=f"{m} {k}")
     # 2SFCA's conservation (Luo and Wang 2003): sum_i D_i A_i = supply of the hubs whose catchment holds
     # demand (capacity 1 per hub here), per kind
     cat = pyogrio.read_dataframe(out / "results.gpkg", layer="hub_catchments")

@@ -226,7 +226,7 @@ def run_indices(study: Study, base, hubs) -> SectionResult:
     Costs are in minutes whatever the routing weight (the keys say
     ``within_minutes``), from settlement to hub, priced by the run's travel
     model; settlements beyond ``max_access_m`` join the network all the same,
-    as in the settlements layer, so ``hub_minutes`` is that layer's
+    as in the settlements layer, so ``nearest_minutes`` is that layer's
     ``hub_minutes_<kind>`` (one trip, one number).
     """
     import geopandas as gpd

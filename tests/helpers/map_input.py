@@ -163,7 +163,7 @@ def indices():
     rows = []
     for m, vals in (("2sfca", [0.0004, 0.0011, 0.0002, 0.0, 0.0009, 0.0006]), ("gravity", [1.2, 0.4, 0.9, 0.0, 2.2, 0.1])):
         rows.append(s[["name", "geometry"]].assign(measure=m, kind="clinic", index=vals, hubs_within=[2, 3, 1, 0, 2, 1],
-                                                   hub_minutes=s["minutes"].to_numpy()))
+                                                   nearest_minutes=s["minutes"].to_numpy()))
     return gpd.GeoDataFrame(pd.concat(rows, ignore_index=True), crs=CRS)
 
 

@@ -208,7 +208,7 @@ def index_layer(network, settlements, hubs, measure: str, *, within=None, weight
     layer : geopandas.GeoDataFrame
         Point layer in the network's CRS: ``settlement_id``, ``kind`` (when
         the hubs have kinds), ``measure``, ``index``, ``hubs_within``,
-        ``hub_<weight>`` (``hub_minutes`` by default, ``hub_length_m``: the
+        ``nearest_<weight>`` (``nearest_minutes`` by default, ``nearest_length_m``: the
         cheapest trip to the nearest hub of the kind, unbounded), ``reason``.
     hub_layer : geopandas.GeoDataFrame
         The ``hub_catchments`` layer, one row per hub: ``hub_id``, ``kind``
@@ -260,7 +260,7 @@ def index_layer(network, settlements, hubs, measure: str, *, within=None, weight
         if kind is not None:
             data["kind"] = np.full(len(settlements.ids), kind, dtype=object)
         data.update({"measure": np.full(len(settlements.ids), measure, dtype=object), "index": res.index,
-                     "hubs_within": res.hubs_within, f"hub_{weight}": res.nearest, "reason": res.reason})
+                     "hubs_within": res.hubs_within, f"nearest_{weight}": res.nearest, "reason": res.reason})
         frames.append(pd.DataFrame(data))
         hub = {"hub_id": hubs.ids[members]}
         if kind is not None:

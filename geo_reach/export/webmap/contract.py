@@ -40,7 +40,7 @@ FIELDS = {
     "change": (("delta",), ("before", "after", "mode", "name", "length_m")),
     "proposed": ((), ("name",)),
     "criticality": (("people_cut_off",), ("edge_id", "rank", "person_minutes_added", "nodes_cut_off", "name")),
-    "indices": (("index",), ("measure", "kind", "name", "hubs_within", "hub_minutes")),
+    "indices": (("index",), ("measure", "kind", "name", "hubs_within", "nearest_minutes")),
 }
 
 
@@ -182,7 +182,7 @@ class MapInput:
         Settlements by their accessibility index (``access_index``):
         ``index``, optional ``measure`` and ``kind`` (one group per measure
         and kind; the first shown at first), ``name``, ``hubs_within``,
-        ``hub_minutes``.
+        ``nearest_minutes``.
     scenarios : tuple of ScenarioView
         One view each, after today's.
     top_weak : int

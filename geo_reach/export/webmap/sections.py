@@ -83,7 +83,7 @@ def add_indices(b) -> list[str]:
         b.add(gid, "today", "pts", "point", g, cls=np.where(idx < 0, len(classes), idx).tolist(), styles=styles,
               size=[5.0] * len(g), tip="name",   # no labels: the settlements layer names the same places
               cols={"name": _text(_col(g, "name", None), 80), "index": _num(val, 3),
-                    "within": _num(_fnum(g, "hubs_within"), 0), "near": _num(_fnum(g, "hub_minutes"), 1)},
+                    "within": _num(_fnum(g, "hubs_within"), 0), "near": _num(_fnum(g, "nearest_minutes"), 1)},
               popup={"head": f"Access index{': ' + what if what else ''}", "title": "name",
                      "rows": [["Index" + (f" ({unit})" if unit else ""), "index", _fmt(digits=3)],
                               ["Hubs within the catchment", "within",
