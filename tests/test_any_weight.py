@@ -31,6 +31,9 @@ import pyogrio
 import pytest
 import shapely
 
+sys.path.insert(0, str(Path(__file__).parent))
+from helpers.map_input import col  # noqa: E402  (a column of the map page's packed layer)
+
 DEMO = Path(__file__).resolve().parents[1] / "data_samples"
 WEIGHTS = ("minutes", "length_m", "hops", "latency_ms")
 #: The weight's unit as the summary and console give it, and as the map shows it (length in km on the map).
@@ -203,18 +206,6 @@ def map_data(run):
     return json.loads(blocks[0])
 
 
-def col(lay, key):
-    """A column of a map layer as a list (the page packs repeated and missing values)."""
-    g = lay["geom"]
-    n = len(g["f"]) if "f" in g else (len(g["n"]) if "n" in g else len(g["xy"]) // 2)
-    c = lay["cols"].get(key)
-    if c is None:
-        return [None] * n
-    if isinstance(c, list):
-        return c
-    if "k" in c:
-        return [None if i < 0 else c["k"][i] for i in c["i"]]
-    return [c["v"]] * n
 
 
 def test_the_map_shows_network_costs_in_the_weights_unit(run):

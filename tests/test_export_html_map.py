@@ -50,18 +50,7 @@ def layers_of(data, group, view="any"):
     return [lay for lay in data["layers"] if lay["group"] == group and (view == "any" or lay["view"] == view)]
 
 
-def col(lay, key):
-    """A column of a layer as a list (the page packs repeated and missing values; see build._pack)."""
-    n = len(lay["geom"]["f"]) if "f" in lay["geom"] else (len(lay["geom"]["n"]) if "n" in lay["geom"]
-                                                          else len(lay["geom"]["xy"]) // 2)
-    c = lay["cols"].get(key)
-    if c is None:
-        return [None] * n
-    if isinstance(c, list):
-        return c
-    if "k" in c:
-        return [None if i < 0 else c["k"][i] for i in c["i"]]
-    return [c["v"]] * n
+col = MI.col
 
 
 def decode_points(geom, frame):

@@ -192,3 +192,17 @@ def hostile() -> tuple[MapInput, dict]:
     places = {"hubs": list(h["name"]), "hub kinds": list(h["kind"]), "settlements": list(s["name"]),
               "districts": list(d["name"]), "scenario": [sc.name, sc.description], "title": [title]}
     return m, places
+
+
+def col(lay, key):
+    """A column of a map page's layer as a list (the page packs repeated and missing values; see webmap.build)."""
+    g = lay["geom"]
+    n = len(g["f"]) if "f" in g else (len(g["n"]) if "n" in g else len(g["xy"]) // 2)
+    c = lay["cols"].get(key)
+    if c is None:
+        return [None] * n
+    if isinstance(c, list):
+        return c
+    if "k" in c:
+        return [None if i < 0 else c["k"][i] for i in c["i"]]
+    return [c["v"]] * n
