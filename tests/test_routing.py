@@ -473,3 +473,24 @@ def test_travel_model_trips_match_split_edge_reference_with_direct_walks(seed, w
             assert ref[3 + back.hub[i], i] == pytest.approx(back.cost[i], rel=1e-9, abs=1e-9)
         if np.isfinite(trips.cost[i]):
             assert ref[i, 3 + trips.hub[i]] == pytest.approx(trips.cost[i], rel=1e-9, abs=1e-9)
+
+
+@pytest.mark.parametrize("weight", ["minutes", "length_m", "hops"])
+def test_attaching_in_chunks_changes_nothing(weight, monkeypatch):
+    """Points are attached a chunk at a time (bounded memory); the legs are those of one call over all points."""
+    import geo_reach.analysis.attach as A
+
+    net = grid(8, 8)
+    rng = np.random.default_rng(5)
+    lo, hi = np.array([net.node_x.min(), net.node_y.min()]), np.array([net.node_x.max(), net.node_y.max()])
+    xy = lo - 300 + rng.random((23, 2)) * (hi - lo + 600)
+    reach = np.where(rng.random(23) < 0.3, 400.0, np.nan)
+    whole = attach_points(net, xy, weight, max_access_m=250, always_join=True,
+                          reach_m=reach if weight != "hops" else None)
+    monkeypatch.setattr(A, "ATTACH_CHUNK", 4)
+    parts = attach_points(net, xy, weight, max_access_m=250, always_join=True,
+                          reach_m=reach if weight != "hops" else None)
+    assert len(whole.leg_point) > 23
+    for f in ("access_m", "leg_point", "leg_edge", "leg_node", "leg_fraction", "leg_walk_m", "leg_leave_cost",
+              "leg_arrive_cost", "blocked", "point_xy"):
+        np.testing.assert_array_equal(getattr(parts, f), getattr(whole, f), err_msg=f)

@@ -80,6 +80,10 @@ from .legs import ROLES, ArcDetail, Attachment, DirectWalks, Priced, StraightWal
 __all__ = ["Attachment", "ArcDetail", "DirectWalks", "Priced", "StraightWalk", "attach_points", "walk_cost",
            "ROLES", "EXTRA_WALK_M", "share_entry_places"]
 
+#: Points attached at once: the candidate legs of a chunk (every entry within reach, about 16,000 per point
+#: on a 100 m street lattice with a 5 km reach) are built, priced and pruned before the next chunk starts.
+ATTACH_CHUNK = 500
+
 #: Edge modes a point may enter anywhere along (common practice: roads and
 #: tracks are walkable to; rail and cable only at stations or access nodes).
 ALONG_MODES = frozenset({"road"})
@@ -251,6 +255,19 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
         walk = StraightWalk(weight, walk_kmh, max_access_m)
     xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
     p = len(xy)
+    if p > ATTACH_CHUNK:
+        # Points are independent: attach them a chunk at a time, so that the candidate legs (every entry within
+        # reach, before the rules choose) never all sit in memory at once.
+        if reach_m is not None:
+            reach_m = np.asarray(reach_m, np.float64).reshape(-1)
+            if reach_m.shape != (p,):
+                raise OptionError(f"reach_m has {reach_m.size} values for {p} points")
+        parts = [attach_points(network, xy[s:s + ATTACH_CHUNK], weight, max_access_m=max_access_m,
+                               walk_kmh=walk_kmh, extra_walk_m=extra_walk_m, walk=walk, roles=roles,
+                               always_join=always_join,
+                               reach_m=None if reach_m is None else reach_m[s:s + ATTACH_CHUNK])
+                 for s in range(0, p, ATTACH_CHUNK)]
+        return _concatenated(parts, xy)
     places = _entry_places(network, weight)
     pts = shapely.points(xy[:, 0], xy[:, 1])
 
@@ -372,6 +389,18 @@ def attach_points(network: Network, xy, weight: Weight | str = "minutes", *, max
     cols = [a[keep][order] for a in (leg_point, leg_edge, leg_node, leg_frac, walk_m, leave, arrive)]
     blocked = had & ~np.isfinite(best)
     return Attachment(weight, float(walk_kmh), float(max_access_m), xy, access, *cols, blocked=blocked)
+
+
+def _concatenated(parts: list, xy: np.ndarray) -> Attachment:
+    """One attachment from the attachments of consecutive chunks of ``xy`` (legs stay sorted by point)."""
+    first = parts[0]
+    offsets = np.cumsum([0] + [a.n_points for a in parts[:-1]])
+    cat = np.concatenate
+    return Attachment(first.weight, first.walk_kmh, first.max_access_m, xy, cat([a.access_m for a in parts]),
+                      cat([a.leg_point + o for a, o in zip(parts, offsets)]), cat([a.leg_edge for a in parts]),
+                      cat([a.leg_node for a in parts]), cat([a.leg_fraction for a in parts]),
+                      cat([a.leg_walk_m for a in parts]), cat([a.leg_leave_cost for a in parts]),
+                      cat([a.leg_arrive_cost for a in parts]), blocked=cat([a.blocked for a in parts]))
 
 
 def _faster_than_every_cheaper(network, weight, leg_point, leg_edge, sel, reach) -> np.ndarray:
