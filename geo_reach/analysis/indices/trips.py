@@ -579,7 +579,8 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
 
     near_c = np.full(ns, np.nan)
     near_h = np.full(ns, -1, np.int64)
-    if nearest:
+    priced_exactly = exact and nearest and hub_xy is not None and ns
+    if nearest and not priced_exactly:   # else the exact rule below gives the nearest hub: search once
         near_c[:] = np.inf
         among = (np.arange(hubs.n, dtype=np.int64) if nearest_among is None
                  else np.unique(np.asarray(nearest_among, dtype=np.int64)))
@@ -603,7 +604,7 @@ def trip_costs(network, settlement_xy, hub_xy=None, *, hub_nodes=None, within: f
             pick[seg[is_best][::-1]] = uh[is_best][::-1]   # ties: the lowest hub index
             near_c[ui[first]] = best
             near_h[ui[first]] = pick
-    if exact and nearest and hub_xy is not None and ns:
+    if priced_exactly:
         # the nearest hub (unbounded) by the very function that prices the settlements layer: one trip, one number
         among = None if nearest_among is None else np.unique(np.asarray(nearest_among, dtype=np.int64))
         model = travel.for_direction(direction)
